@@ -1,0 +1,1 @@
+"""Sources of readings: bytes, ports, sockets and files turned into batches; no physics here."""

@@ -1,0 +1,86 @@
+"""The read-only picture of a running session that the screen and the status printers render."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+
+from adapters.base import SourceStatus
+from monitor.alarms.events import AlarmState, Priority
+
+__all__ = ["Stats", "SourceCounts", "AlarmView", "ReplayPosition", "Snapshot"]
+
+
+@dataclass(frozen=True)
+class Stats:
+    """Rolling statistics of one quantity over the configured window (data time)."""
+
+    n: int
+    mean: float
+    std: float
+    min: float
+    max: float
+    slope: float          # per second, least-squares fit over the window; NaN if n < 2
+
+
+@dataclass(frozen=True)
+class SourceCounts:
+    accepted: int = 0
+    rejected: Mapping[str, int] = field(default_factory=dict)   # reason -> count
+    lost: int = 0                                               # missing by seq
+    unknown_keys: Mapping[str, int] = field(default_factory=dict)
+    rate: float = 0.0                                           # accepted readings/s, recent
+    last_data_time: float | None = None
+    last_wall_time: float | None = None
+
+
+@dataclass(frozen=True)
+class AlarmView:
+    """One alarm as the operator's list shows it (also those in normal state)."""
+
+    alarm: str
+    state: AlarmState
+    priority: Priority
+    kind: str                      # limit, predictive, stale, quality
+    quantity: str | None
+    value: float | None
+    limit: float | None
+    since: float | None            # data time of the last transition
+    description: str = ""
+    predicted_time: float | None = None   # data time the limit is expected to be reached
+    latched: bool = False
+    shelved_until: float | None = None
+
+
+@dataclass(frozen=True)
+class ReplayPosition:
+    time: float
+    start: float
+    end: float | None
+    speed: float | None            # None = as fast as possible
+    paused: bool
+
+
+@dataclass(frozen=True)
+class Snapshot:
+    """Everything a screen frame or a status line needs; built by Session.snapshot()."""
+
+    data_time: float | None
+    wall_time: float
+    latest: Mapping[str, tuple[float, float | None]]   # name -> (value, sigma), base and derived
+    stats: Mapping[str, Stats]
+    trail_t: np.ndarray                                # recent times, for trends and the regime map
+    trail: Mapping[str, np.ndarray]                    # name -> recent values (ne, Te, debye_length, ...)
+    warnings: tuple[str, ...]                          # warning codes active on the latest sample
+    sources: Mapping[str, SourceStatus]
+    counts: Mapping[str, SourceCounts]
+    alarms: tuple[AlarmView, ...]
+    discharge_on: bool
+    live: bool
+    replay: ReplayPosition | None = None
+    recording: str | None = None                       # current recording file, if any
+    flood: bool = False
+    alarm_rate_10min: int = 0
+    chattering: tuple[str, ...] = ()
