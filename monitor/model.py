@@ -40,7 +40,12 @@ class Frame:
     uncertainties (absent key: no uncertainty known). ``valid`` is True where
     the sample passed validation and could be derived. ``warnings`` maps a
     warning code (e.g. ``coulomb_logarithm_small``) to a boolean mask of the
-    samples it applies to. ``seq`` as in Batch.
+    samples it applies to. ``seq`` as in Batch. ``raw`` (added by the
+    pipeline) maps each base key to the values as read, in canonical units,
+    before the alignment hold (NaN where the reading did not carry the key):
+    what a recorder writes so that a replay aligns exactly as the live run
+    did. Frames from the pipeline hold accepted readings only; refused ones
+    go to the sinks as Rejections.
     """
 
     source: str
@@ -50,6 +55,7 @@ class Frame:
     valid: np.ndarray | None = None
     warnings: Mapping[str, np.ndarray] = field(default_factory=dict)
     seq: np.ndarray | None = None
+    raw: Mapping[str, np.ndarray] = field(default_factory=dict)
 
     def __len__(self) -> int:
         return len(self.t)
