@@ -1,0 +1,452 @@
+"""Recorder: a sink writing every accepted reading to per-shot CSV files, with the alarm journal and rejects beside them."""
+
+from __future__ import annotations
+
+import collections
+import datetime as _dt
+import os
+import re
+import sys
+import threading
+import time
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Any, Callable, Mapping
+
+import numpy as np
+
+from adapters.base import SourceStatus
+from adapters.batch import Rejection
+from monitor.alarms.events import AlarmEvent
+from monitor.model import Frame
+from monitor.recording.csvformat import BASE_ORDER, RowFormatter, dump_toml, header_block
+from monitor.recording.files import LineFile, json_line, rejection_json
+from monitor.recording.options import RecordingOptions, parse_recording
+from monitor.recording.shots import ShotSplitter
+
+__all__ = ["Recorder", "RecorderStatus"]
+
+_MAX_BACKLOG = 64 << 20        # bytes kept in memory while the disk refuses writes
+_RETRY_EVERY = 1.0             # s between retries after a write error
+
+
+@dataclass(frozen=True)
+class RecorderStatus:
+    """The recorder's health, for status lines and the screen. ``ok`` False is loud: it means
+    readings are not reaching the disk (``message`` says why) and ``dropped`` counts those lost."""
+
+    ok: bool
+    message: str
+    file: str | None
+    shots: int
+    rows_written: int
+    rows_idle: int
+    dropped: int
+    errors: int
+
+
+def _utc_stamp(wall: float) -> str:
+    return _dt.datetime.fromtimestamp(wall, _dt.timezone.utc).strftime("%Y%m%dT%H%M%SZ")
+
+
+def _limit_text(spec: Any) -> str:
+    parts = [str(getattr(spec, "name", "?")), str(getattr(spec, "quantity", "?"))]
+    for key in ("low", "high", "deadband", "on_delay", "off_delay", "latch", "priority"):
+        value = getattr(spec, key, None)
+        if value is not None:
+            parts.append(f"{key}={getattr(value, 'value', value)}")
+    return " ".join(parts)
+
+
+class _Stream:
+    """One open recording file with its journal and rejects side file."""
+
+    def __init__(self, stem: Path, columns: tuple[str, ...], header: str, journal_factory: Callable[[Path], Any]):
+        self.stem = stem
+        self.columns = columns
+        self.csv = LineFile(stem.with_suffix(".csv"))
+        self.csv.write(header.encode("utf-8"))
+        self.rejects = LineFile(stem.with_suffix(".rejects.jsonl"))
+        self.journal = journal_factory(stem.with_suffix(".alarms.jsonl"))
+        self.formatter = RowFormatter(columns)
+
+    def close(self) -> None:
+        for part in (self.csv, self.rejects):
+            part.close()
+        close = getattr(self.journal, "close", None)
+        if close is not None:
+            close()
+
+
+class _OwnJournal:
+    """JSON Lines journal of alarm events, used when monitor.alarms.journal is not available."""
+
+    def __init__(self, path: Path) -> None:
+        self.file = LineFile(path)
+
+    def on_alarm(self, event: AlarmEvent) -> None:
+        self.file.write(json_line(event.to_json()))
+
+    def close(self) -> None:
+        self.file.close()
+
+
+def _journal_factory() -> Callable[[Path], Any]:
+    try:
+        from monitor.alarms.journal import JournalSink  # type: ignore[import-not-found]
+    except ImportError:
+        return _OwnJournal
+    return lambda path: JournalSink(path)
+
+
+class Recorder:
+    """A Sink (monitor.sinks.Sink). Every row of every frame (``t``, ``seq``, the base quantities in
+    canonical units, their sigma) goes to the CSV of the shot it belongs to; alarm events to the
+    shot's and the session's JSON Lines journal; rejections to the rejects side files. Lines are
+    formatted per frame as whole arrays and written at least every ``flush_interval`` seconds.
+    A write that fails (disk full, directory gone) is kept and retried; ``status()`` turns loud,
+    a line goes to stderr and ``dropped`` counts what the memory backlog could not hold."""
+
+    def __init__(self, directory: str | os.PathLike[str], config: Any, *, source_name: str,
+                 options: RecordingOptions | None = None, clock: Callable[[], float] = time.time,
+                 on_problem: Callable[[str], None] | None = None) -> None:
+        self.directory = Path(directory)
+        self.config = config
+        self.source_name = source_name
+        self.options = options or self._options_from(config)
+        self._clock = clock
+        self._on_problem = on_problem
+        self.on_above = float(getattr(config, "on_above", 1e15) or 1e15)
+        self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split)
+        self._journal_factory = _journal_factory()
+        self._lock = threading.RLock()
+        self._stream: _Stream | None = None
+        self._pending: list[str] = []
+        self._pending_bytes = 0
+        self._pending_since: float | None = None
+        self._last_fsync = 0.0
+        self._pre: collections.deque[tuple[np.ndarray, dict[str, np.ndarray], np.ndarray | None]] = collections.deque()
+        self._idle_events: collections.deque[AlarmEvent] = collections.deque(maxlen=1000)
+        self._shot_counter = 0
+        self._shots = 0
+        self._rows_written = 0
+        self._rows_idle = 0
+        self._dropped = 0
+        self._errors = 0
+        self._error: str | None = None
+        self._next_retry = 0.0
+        self._closed = False
+        self._session: tuple[Any, Any] | None = None
+        self._session_stamp = _utc_stamp(clock())
+        self._open_session_files()
+        self._stop = threading.Event()
+        self._flusher = threading.Thread(target=self._flush_loop, name="recorder-flush", daemon=True)
+        self._flusher.start()
+
+    # -- set-up ----------------------------------------------------------------------------------------
+    @staticmethod
+    def _options_from(config: Any) -> RecordingOptions:
+        rec = getattr(config, "recording", None)
+        if isinstance(rec, RecordingOptions):
+            return rec
+        if isinstance(rec, Mapping):
+            return parse_recording(rec, getattr(config, "path", None))
+        raw = getattr(config, "raw", None)
+        if isinstance(raw, Mapping) and isinstance(raw.get("recording"), Mapping):
+            return parse_recording(raw["recording"], getattr(config, "path", None))
+        return RecordingOptions()
+
+    def _folder(self, wall: float) -> Path:
+        if self.options.subdirectory == "day":
+            return self.directory / _dt.datetime.fromtimestamp(wall, _dt.timezone.utc).strftime("%Y-%m-%d")
+        return self.directory
+
+    def _open_session_files(self) -> None:
+        try:
+            self.directory.mkdir(parents=True, exist_ok=True)
+            stem = self.directory / f"session-{self._session_stamp}"
+            self._session = (self._journal_factory(stem.with_suffix(".alarms.jsonl")),
+                             LineFile(stem.with_suffix(".rejects.jsonl"), exclusive=False))
+        except OSError as exc:
+            self._problem(f"cannot open the session journal in {self.directory}: {exc}")
+
+    def _next_shot_number(self, folder: Path) -> int:
+        template = self.options.name
+        pattern = re.escape(template)
+        pattern = re.sub(r"\\\{shot[^}]*\\\}", r"(?P<shot>\\d+)", pattern)
+        pattern = re.sub(r"\\\{start[^}]*\\\}", r".*", pattern)
+        highest = self._shot_counter
+        rx = re.compile(pattern + r"\.csv$")
+        for base in {folder, self.directory}:
+            if base.is_dir():
+                for entry in base.iterdir():
+                    m = rx.match(entry.name)
+                    if m:
+                        highest = max(highest, int(m.group("shot")))
+        return highest + 1
+
+    # -- the Sink protocol --------------------------------------------------------------------------------
+    def on_frame(self, frame: Frame) -> None:
+        n = len(frame.t)
+        if n == 0 or self._closed:
+            return
+        # the values as read (before the alignment hold), so that a replay aligns as this run did;
+        # frames built without ``raw`` (by hand, in tests) record their values as they are
+        source = frame.raw if frame.raw else frame.values
+        base = {k: np.asarray(source[k], dtype=np.float64) for k in BASE_ORDER if k in source}
+        sigma: dict[str, np.ndarray] = {}
+        if self.options.sigma:
+            for k, v in base.items():
+                s = frame.sigma.get(k)
+                if s is not None:
+                    sigma[k] = np.where(np.isfinite(v), np.asarray(s, dtype=np.float64), np.nan)
+        aligned_ne = frame.values.get("ne")
+        with self._lock:
+            for action in self._splitter.feed(np.asarray(frame.t), aligned_ne):
+                if action.kind == "idle":
+                    self._keep_idle(frame, base, sigma, action.start, action.stop)
+                elif action.kind == "open":
+                    self._open_shot(frame, base, sigma, action.start)
+                elif action.kind == "rows":
+                    self._write_rows(frame, base, sigma, action.start, action.stop)
+                elif action.kind == "close":
+                    self._close_shot()
+            self._maybe_flush(force=False)
+
+    def on_rejections(self, rejections: list[Rejection]) -> None:
+        if not rejections:
+            return
+        data = b"".join(json_line(rejection_json(r)) for r in rejections)
+        with self._lock:
+            self._safe(lambda: self._session and self._session[1].write(data), "rejects side file")
+            if self._stream is not None:
+                self._safe(lambda: self._stream.rejects.write(data), "rejects side file")
+
+    def on_alarm(self, event: AlarmEvent) -> None:
+        with self._lock:
+            if self._session is not None:
+                self._safe(lambda: self._session[0].on_alarm(event), "session journal")
+            if self._stream is not None:
+                self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal")
+            else:
+                self._idle_events.append(event)
+
+    def on_status(self, status: SourceStatus) -> None:
+        return None
+
+    def close(self) -> None:
+        with self._lock:
+            if self._closed:
+                return
+            self._closed = True
+            self._close_shot()
+            if self._session is not None:
+                journal, rejects = self._session
+                for part in (journal, rejects):
+                    try:
+                        part.close()
+                    except OSError as exc:
+                        self._problem(f"closing the session files: {exc}")
+                self._session = None
+        self._stop.set()
+        self._flusher.join(timeout=2.0)
+
+    # -- status ----------------------------------------------------------------------------------------
+    @property
+    def recording(self) -> str | None:
+        """The CSV being written now, or None between shots."""
+        stream = self._stream
+        return str(stream.csv.path) if stream is not None else None
+
+    def status(self) -> RecorderStatus:
+        with self._lock:
+            ok = self._error is None
+            msg = self._error or (f"recording {self.recording}" if self._stream else "waiting for a discharge")
+            return RecorderStatus(ok, msg, self.recording, self._shots, self._rows_written, self._rows_idle,
+                                  self._dropped, self._errors)
+
+    # -- shots ---------------------------------------------------------------------------------------
+    def _columns_for(self, base: Mapping[str, np.ndarray], sigma: Mapping[str, np.ndarray]) -> tuple[str, ...]:
+        keys = [k for k in BASE_ORDER if k in base]
+        return ("t", "seq", *keys, *[f"sigma_{k}" for k in keys if k in sigma])
+
+    def _header(self, columns: tuple[str, ...], shot: int, wall: float) -> str:
+        cfg = self.config
+        raw = getattr(cfg, "raw", None)
+        toml = dump_toml(raw) if isinstance(raw, Mapping) and raw else None
+        limits = [_limit_text(spec) for spec in getattr(cfg, "limits", ()) or ()]
+        path = getattr(cfg, "path", None)
+        return header_block(columns, shot=shot, start_wall=wall, source=self.source_name, on_above=self.on_above,
+                            limits=limits, config_toml=toml, config_path=str(path) if path else None,
+                            extra=[("split", self.options.split), ("pre_trigger", repr(self.options.pre_trigger)),
+                                   ("post_trigger", repr(self.options.post_trigger))])
+
+    def _open_shot(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray], row: int,
+                   part: int = 1) -> None:
+        t0 = float(frame.t[row])
+        first_t = t0
+        if part == 1:
+            self._pre_trim(t0, keep_from=t0 - self.options.pre_trigger)
+            if self._pre:
+                first_t = float(self._pre[0][0][0])
+        wall = first_t if first_t > 1e9 else self._clock()     # epoch data time names the shot by itself
+        try:
+            folder = self._folder(wall)
+            folder.mkdir(parents=True, exist_ok=True)
+            if part == 1:
+                self._shot_counter = self._next_shot_number(folder)
+            stem_name = self.options.name.format(shot=self._shot_counter, start=_utc_stamp(wall))
+            if part > 1:
+                stem_name += f"-part{part}"
+            columns = self._columns_for(base, sigma)
+            self._stream = _Stream(folder / stem_name, columns, self._header(columns, self._shot_counter, wall),
+                                   self._journal_factory)
+        except OSError as exc:
+            self._stream = None
+            self._problem(f"cannot open a recording file in {self.directory}: {exc}")
+            self._dropped += len(frame.t) - row
+            return
+        if part == 1:
+            self._shots += 1
+            pre, self._pre = list(self._pre), collections.deque()
+            for t, vals, seq in pre:
+                self._format(t, vals, seq, slice(None))
+                self._rows_idle -= len(t)
+            for event in self._idle_events:
+                if event.time >= first_t:
+                    self._safe(lambda e=event: self._stream.journal.on_alarm(e), "alarm journal")
+            self._idle_events.clear()
+
+    def _close_shot(self) -> None:
+        if self._stream is None:
+            return
+        self._maybe_flush(force=True)
+        if self._pending:
+            lost = sum(p.count("\n") for p in self._pending)
+            self._dropped += lost
+            self._rows_written -= lost
+            self._pending, self._pending_bytes, self._pending_since = [], 0, None
+            self._problem(f"{lost} readings of {self._stream.csv.path.name} could not be written before it closed")
+        try:
+            self._stream.close()
+        except OSError as exc:
+            self._problem(f"closing {self._stream.csv.path}: {exc}")
+        self._stream = None
+
+    def _write_rows(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
+                    a: int, b: int) -> None:
+        stream = self._stream
+        if stream is None:
+            self._dropped += b - a
+            self._problem("no recording file is open; readings of this shot are not being recorded")
+            return
+        if not set(self._columns_for(base, sigma)) <= set(stream.columns):
+            # a quantity appeared that the file has no column for: continue in a new part of the shot
+            self._maybe_flush(force=True)
+            parts = re.search(r"-part(\d+)$", stream.stem.name)
+            part = int(parts.group(1)) + 1 if parts else 2
+            self._close_shot()
+            self._open_shot(frame, base, sigma, a, part=part)
+            if self._stream is None:
+                return
+        values = dict(base)
+        values.update({f"sigma_{k}": v for k, v in sigma.items()})
+        self._format(np.asarray(frame.t), values, frame.seq, slice(a, b))
+
+    def _format(self, t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | None, rows: slice) -> None:
+        assert self._stream is not None
+        text = self._stream.formatter.format(t, values, seq, rows)
+        if not text:
+            return
+        self._pending.append(text)
+        self._pending_bytes += len(text)
+        self._rows_written += len(t[rows])
+        if self._pending_since is None:
+            self._pending_since = self._clock()
+        if self._pending_bytes > _MAX_BACKLOG:
+            dropped = self._pending.pop(0)
+            self._pending_bytes -= len(dropped)
+            lost = dropped.count("\n")
+            self._dropped += lost
+            self._rows_written -= lost
+            self._problem(f"the disk refuses writes and the backlog is full: {self._dropped} readings dropped")
+
+    def _keep_idle(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
+                   a: int, b: int) -> None:
+        self._rows_idle += b - a
+        if self.options.pre_trigger <= 0:
+            return
+        t = np.asarray(frame.t[a:b])
+        vals = {k: v[a:b] for k, v in base.items()}
+        vals.update({f"sigma_{k}": v[a:b] for k, v in sigma.items()})
+        seq = frame.seq[a:b] if frame.seq is not None else None
+        self._pre.append((t, vals, seq))
+        self._pre_trim(float(t[-1]), keep_from=float(t[-1]) - self.options.pre_trigger)
+
+    def _pre_trim(self, now: float, keep_from: float) -> None:
+        while self._pre and float(self._pre[0][0][-1]) < keep_from:
+            t, _, _ = self._pre.popleft()
+            del t
+        if self._pre:
+            t, vals, seq = self._pre[0]
+            k = int(np.searchsorted(t, keep_from, side="left"))
+            if k:
+                self._pre[0] = (t[k:], {c: v[k:] for c, v in vals.items()}, seq[k:] if seq is not None else None)
+
+    # -- writing ---------------------------------------------------------------------------------------
+    def _maybe_flush(self, force: bool) -> None:
+        if not self._pending or self._stream is None:
+            return
+        now = self._clock()
+        due = force or self._pending_bytes >= (1 << 18) or \
+            (self._pending_since is not None and now - self._pending_since >= self.options.flush_interval * 0.5)
+        if not due or (self._error is not None and now < self._next_retry and not force):
+            return
+        data = "".join(self._pending).encode("ascii")
+        try:
+            self._stream.csv.write(data)
+            if self.options.fsync and (force or now - self._last_fsync >= self.options.flush_interval):
+                self._stream.csv.fsync()
+                self._last_fsync = now
+        except OSError as exc:
+            self._next_retry = now + _RETRY_EVERY
+            self._problem(f"cannot write {self._stream.csv.path}: {exc}; keeping {self._pending_bytes} bytes "
+                          f"in memory and retrying")
+            if force and self._closed:
+                self._dropped += sum(p.count("\n") for p in self._pending)
+                self._pending.clear()
+                self._pending_bytes = 0
+            return
+        self._pending = []
+        self._pending_bytes = 0
+        self._pending_since = None
+        if self._error is not None:
+            self._error = None
+            self._report("recording resumed: the disk accepts writes again")
+
+    def _flush_loop(self) -> None:
+        period = self.options.flush_interval / 4
+        while not self._stop.wait(period):
+            with self._lock:
+                self._maybe_flush(force=False)
+
+    def _safe(self, write: Callable[[], Any], what: str) -> None:
+        try:
+            write()
+        except OSError as exc:
+            self._problem(f"cannot write the {what}: {exc}")
+
+    def _problem(self, message: str) -> None:
+        self._errors += 1
+        first = self._error != message
+        self._error = message
+        if first:
+            self._report(message)
+
+    def _report(self, message: str) -> None:
+        print(f"regime recorder: {message}", file=sys.stderr, flush=True)
+        if self._on_problem is not None:
+            try:
+                self._on_problem(message)
+            except Exception:   # a listener's failure must not stop the recording
+                pass
