@@ -1,0 +1,104 @@
+"""Predictive warning: a least-squares slope over a data-time window, evaluated on a fixed time grid."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = ["Prediction", "SlopePredictor"]
+
+# The warning returns only when the predicted crossing is this much beyond the horizon (hysteresis).
+RETURN_FACTOR = 1.25
+_MIN_SAMPLES = 3
+
+
+@dataclass(frozen=True)
+class Prediction:
+    """One grid point: fitted value and slope, the limit approached and when it will be reached."""
+
+    time: float
+    value: float
+    slope: float
+    limit: float | None
+    predicted_time: float | None   # None: not approaching a limit
+
+
+class SlopePredictor:
+    """Fits value = a + b (t - g) over (g - window, g] at grid points g = k * step.
+
+    A grid point is evaluated once a sample at or after it has arrived, from
+    exactly the samples in its window, so the result does not depend on how
+    the data were chunked. It warns (raise) when a limit will be reached
+    within ``horizon`` seconds, and returns when the crossing is more than
+    RETURN_FACTOR * horizon away, no longer approached, or already reached
+    (the limit alarm itself then takes over).
+    """
+
+    def __init__(self, high: float | None, low: float | None, horizon: float, window: float, step: float) -> None:
+        self.high, self.low = high, low
+        self.horizon, self.window, self.step = horizon, window, step
+        self.active = False
+        self.reset()
+
+    def reset(self) -> None:
+        self._t = np.empty(0, dtype=np.float64)
+        self._v = np.empty(0, dtype=np.float64)
+        self._last_k: int | None = None
+        self.active = False
+
+    def _predict(self, g: float, b: float, vg: float) -> Prediction:
+        best: tuple[float, float] | None = None
+        if self.high is not None and b > 0 and vg < self.high:
+            best = ((self.high - vg) / b, self.high)
+        if self.low is not None and b < 0 and vg > self.low:
+            ttl = (self.low - vg) / b
+            if best is None or ttl < best[0]:
+                best = (ttl, self.low)
+        if best is None:
+            return Prediction(g, vg, b, None, None)
+        return Prediction(g, vg, b, best[1], g + best[0])
+
+    def evaluate(self, t: np.ndarray, v: np.ndarray) -> list[tuple[Prediction, bool]]:
+        """Grid points newly due with these (evaluable, time-ordered) samples, and where the warning toggles."""
+        if len(t) == 0:
+            return []
+        prev_last = float(self._t[-1]) if len(self._t) else None
+        all_t = np.concatenate((self._t, t))
+        all_v = np.concatenate((self._v, v))
+        step = self.step
+        k_end = math.floor(float(all_t[-1]) / step + 1e-9)
+        k0 = math.ceil(float(all_t[0]) / step - 1e-9) if self._last_k is None else self._last_k + 1
+        ks = []
+        if prev_last is not None:   # points whose window still holds kept samples
+            ks.append(np.arange(k0, min(k_end, math.floor((prev_last + self.window) / step)) + 1))
+        ks.append(np.arange(max(k0, math.ceil(float(t[0]) / step - 1e-9)), k_end + 1))
+        k_all = np.unique(np.concatenate(ks)) if len(ks) > 1 else ks[0]
+        out: list[tuple[Prediction, bool]] = []
+        if k_all.size:
+            g_all = k_all * step
+            lo_all = np.searchsorted(all_t, g_all - self.window, side="right")
+            hi_all = np.searchsorted(all_t, g_all, side="right")
+            for j in np.flatnonzero(hi_all - lo_all >= _MIN_SAMPLES):
+                g = float(g_all[j])
+                x = all_t[lo_all[j]:hi_all[j]] - g
+                y = all_v[lo_all[j]:hi_all[j]]
+                dx = x - x.mean()
+                sxx = float(np.sum(dx * dx))
+                if sxx <= 0.0:
+                    continue
+                ym = float(y.mean())
+                b = float(np.sum(dx * (y - ym))) / sxx
+                p = self._predict(g, b, ym - b * float(x.mean()))
+                ttl = None if p.predicted_time is None else p.predicted_time - g
+                if not self.active and ttl is not None and ttl <= self.horizon:
+                    self.active = True
+                    out.append((p, True))
+                elif self.active and (ttl is None or ttl > RETURN_FACTOR * self.horizon):
+                    self.active = False
+                    out.append((p, False))
+            self._last_k = int(k_end)
+        cut = int(np.searchsorted(all_t, all_t[-1] - self.window, side="right"))
+        self._t, self._v = all_t[cut:].copy(), all_v[cut:].copy()
+        return out
