@@ -1,0 +1,1 @@
+"""Plain Rich renderables with no widget state: trends, the braille canvas and the regime map."""

@@ -1,0 +1,1 @@
+"""One Textual screen per module: the console, the journal, help and the small dialogs."""

@@ -1,0 +1,1 @@
+"""One Textual widget per module; each is driven downward by its ``snapshot`` attribute."""

@@ -1,0 +1,151 @@
+"""The list of alarms not in normal state, with a selection the operator's keys act on."""
+
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+from textual.app import RenderResult
+from textual.binding import Binding
+from textual.message import Message
+from textual.reactive import reactive
+from textual.widget import Widget
+
+from monitor.alarms.events import AlarmState, Priority
+from monitor.quantities import ALL
+from monitor.snapshot import AlarmView, Snapshot
+from monitor.tui import palette
+from monitor.tui.formatting import fmt_duration, fmt_value
+
+__all__ = ["AlarmList", "STATE_WORDS", "PRIORITY_MARK", "ordered"]
+
+STATE_WORDS = {
+    AlarmState.NORMAL: "normal",
+    AlarmState.UNACKNOWLEDGED: "unacknowledged",
+    AlarmState.ACKNOWLEDGED: "acknowledged",
+    AlarmState.RETURNED_UNACKNOWLEDGED: "returned unacknowledged",
+    AlarmState.SHELVED: "shelved",
+    AlarmState.SUPPRESSED: "suppressed",
+    AlarmState.OUT_OF_SERVICE: "out of service",
+}
+PRIORITY_MARK = {Priority.URGENT: "▲▲ urgent", Priority.HIGH: "▲ high", Priority.ADVISORY: "△ advisory"}
+_PRIO_RANK = {Priority.URGENT: 0, Priority.HIGH: 1, Priority.ADVISORY: 2}
+_STATE_RANK = {AlarmState.UNACKNOWLEDGED: 0, AlarmState.RETURNED_UNACKNOWLEDGED: 1, AlarmState.ACKNOWLEDGED: 2,
+               AlarmState.SHELVED: 3, AlarmState.SUPPRESSED: 4, AlarmState.OUT_OF_SERVICE: 5}
+UNACKED = (AlarmState.UNACKNOWLEDGED, AlarmState.RETURNED_UNACKNOWLEDGED)
+
+
+def ordered(alarms: tuple[AlarmView, ...]) -> list[AlarmView]:
+    """Those not normal: unacknowledged first, then by priority, newest first."""
+    rows = [a for a in alarms if a.state != AlarmState.NORMAL]
+    return sorted(rows, key=lambda a: (_STATE_RANK.get(a.state, 9), _PRIO_RANK.get(a.priority, 9), -(a.since or 0.0)))
+
+
+class AlarmList(Widget, can_focus=True):
+    """Rows of alarms; up/down move the selection; flashing marks only the unacknowledged."""
+
+    BINDINGS = [
+        Binding("up", "move(-1)", "previous alarm", show=False),
+        Binding("down", "move(1)", "next alarm", show=False),
+        Binding("home", "move(-1000)", "first alarm", show=False),
+        Binding("end", "move(1000)", "last alarm", show=False),
+    ]
+
+    DEFAULT_CSS = """
+    AlarmList {
+        height: auto;
+        min-height: 2;
+    }
+    """
+
+    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
+    """The snapshot whose alarms are listed."""
+
+    units: reactive[str] = reactive("practical")
+    """Units of the value and limit columns."""
+
+    flash: reactive[bool] = reactive(False)
+    """Phase of the flashing of unacknowledged rows (toggled by the screen's timer)."""
+
+    selected: reactive[str | None] = reactive(None)
+    """Name of the selected alarm; None when the list is empty."""
+
+    class Selected(Message):
+        """The selection moved to ``alarm``."""
+
+        def __init__(self, alarm: str | None) -> None:
+            super().__init__()
+            self.alarm = alarm
+
+    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
+        super().__init__(name=name, id=id, classes=classes)
+
+    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
+        rows = ordered(snapshot.alarms) if snapshot is not None else []
+        names = [a.alarm for a in rows]
+        if self.selected not in names:
+            self.selected = names[0] if names else None
+
+    def watch_selected(self, alarm: str | None) -> None:
+        self.post_message(self.Selected(alarm))
+
+    def rows(self) -> list[AlarmView]:
+        return ordered(self.snapshot.alarms) if self.snapshot is not None else []
+
+    def render(self) -> RenderResult:
+        snap = self.snapshot
+        rows = self.rows()
+        if not rows:
+            return Text("○ every alarm normal", style=palette.DIM)
+        now = snap.data_time if snap is not None else None
+        wide = (self.size.width or 80) >= 100
+        table = Table.grid(padding=(0, 1), expand=False)
+        for _ in range(8 if wide else 7):
+            table.add_column(no_wrap=True, overflow="ellipsis")
+        for a in rows:
+            table.add_row(*self._cells(a, now, wide))
+        return table
+
+    def _cells(self, a: AlarmView, now: float | None, wide: bool) -> list[Text]:
+        unacked = a.state in UNACKED
+        if a.state in (AlarmState.SHELVED, AlarmState.SUPPRESSED, AlarmState.OUT_OF_SERVICE):
+            style = palette.DIM
+        elif a.state == AlarmState.ACKNOWLEDGED:
+            style = palette.NORMAL
+        else:
+            style = palette.ALERT if a.priority in (Priority.URGENT, Priority.HIGH) else palette.CAUTION
+        state_style = style + palette.BLINK if unacked and self.flash else style
+        mark = "▶" if a.alarm == self.selected else " "
+        unit = ALL[a.quantity].unit if a.quantity in ALL else "1"
+        value = fmt_value(a.value, None, unit, self.units) if a.value is not None else ("—", "", "")
+        limit = fmt_value(a.limit, None, unit, self.units) if a.limit is not None else ("—", "", "")
+        since = f"{fmt_duration(now - a.since)}" if now is not None and a.since is not None else "—"
+        if a.state == AlarmState.SHELVED and a.shelved_until is not None and now is not None:
+            since = f"{fmt_duration(a.shelved_until - now)} left"
+        ttl = ""
+        if a.predicted_time is not None and now is not None:
+            ttl = f"limit in {fmt_duration(a.predicted_time - now)}"
+        cells = [
+            Text(mark, style=palette.STRONG),
+            Text(PRIORITY_MARK.get(a.priority, str(a.priority)), style=style),
+            Text(STATE_WORDS.get(a.state, str(a.state)) + (" ⊡latched" if a.latched else ""), style=state_style),
+            Text(since, style=palette.DIM),
+            Text(a.alarm if wide else (a.quantity or a.alarm), style=palette.NORMAL),
+            Text(f"{value[0]} {value[2]}".strip(), style=palette.NORMAL),
+            Text(f"lim {limit[0]}", style=palette.DIM),
+            Text(ttl, style=palette.CAUTION if ttl else palette.DIM),
+        ]
+        if not wide:
+            cells[4] = Text(a.alarm, style=palette.NORMAL)
+            del cells[7]
+            if ttl:
+                cells[6] = Text(f"lim {limit[0]} · {ttl.replace('limit ', '')}", style=palette.CAUTION)
+        return cells
+
+    def action_move(self, step: int) -> None:
+        names = [a.alarm for a in self.rows()]
+        if not names:
+            self.selected = None
+            return
+        i = names.index(self.selected) if self.selected in names else 0
+        self.selected = names[max(0, min(len(names) - 1, i + step))]
+        self.refresh()

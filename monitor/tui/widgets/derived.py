@@ -1,0 +1,63 @@
+"""Derived quantities grouped by kind (lengths, frequencies, speeds, collisions, densities, dimensionless)."""
+
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+from textual.app import RenderResult
+from textual.reactive import reactive
+from textual.widget import Widget
+
+from monitor.quantities import DERIVED
+from monitor.snapshot import Snapshot
+from monitor.tui import palette
+from monitor.tui.formatting import fmt_value
+
+__all__ = ["DerivedTable", "KIND_ORDER"]
+
+KIND_ORDER = ("lengths", "frequencies", "speeds", "collisions", "densities", "dimensionless")
+
+
+class DerivedTable(Widget):
+    """Every derived quantity in the snapshot, a heading per kind, value ± uncertainty."""
+
+    DEFAULT_CSS = """
+    DerivedTable {
+        height: auto;
+    }
+    """
+
+    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
+    """The snapshot to show; None before the first one."""
+
+    units: reactive[str] = reactive("practical")
+    """``practical`` or ``SI``."""
+
+    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
+        super().__init__(name=name, id=id, classes=classes)
+
+    def render(self) -> RenderResult:
+        snap = self.snapshot
+        if snap is None:
+            return Text("no derived quantities yet", style=palette.DIM)
+        wide = (self.size.width or 40) >= 60
+        table = Table.grid(padding=(0, 1))
+        table.add_column(style=palette.LABEL, no_wrap=True, overflow="ellipsis")
+        table.add_column(justify="right", style=palette.NORMAL, no_wrap=True)
+        table.add_column(style=palette.DIM, no_wrap=True)
+        table.add_column(style=palette.DIM, no_wrap=True)
+        any_row = False
+        for kind in KIND_ORDER:
+            rows = [q for q in DERIVED if q.kind == kind and q.name in snap.latest]
+            if not rows:
+                continue
+            table.add_row(Text(f"─ {kind}", style=palette.DIM), "", "", "")
+            for q in rows:
+                value, sigma = snap.latest[q.name]
+                number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
+                label = q.meaning if wide else q.name.replace("electron_", "e ").replace("_", " ")
+                table.add_row(f"  {label}", number, unc, unit)
+                any_row = True
+        if not any_row:
+            return Text("no derived quantities yet", style=palette.DIM)
+        return table

@@ -1,0 +1,110 @@
+"""The sources panel: link state, rate, age of the last reading, accepted / rejected / lost; trouble is loud."""
+
+from __future__ import annotations
+
+from rich.table import Table
+from rich.text import Text
+from textual.app import RenderResult
+from textual.reactive import reactive
+from textual.widget import Widget
+
+from adapters.base import LinkState
+from monitor.snapshot import Snapshot
+from monitor.tui import palette
+from monitor.tui.formatting import fmt_age, fmt_number
+
+__all__ = ["SourcesPanel", "source_trouble"]
+
+_LINK = {
+    LinkState.CONNECTING: ("◌", "connecting", palette.CAUTION),
+    LinkState.CONNECTED: ("●", "connected", palette.OK_MARK),
+    LinkState.DISCONNECTED: ("✖", "DISCONNECTED", palette.ALERT),
+    LinkState.ENDED: ("■", "ended", palette.DIM),
+    LinkState.FAILED: ("✖", "FAILED", palette.ALERT),
+}
+
+
+def source_trouble(snapshot: Snapshot, name: str, now: float, stale_after: float) -> str | None:
+    """``STALE``, ``DISCONNECTED`` or ``FAILED`` when the source needs attention, else None."""
+    status = snapshot.sources.get(name)
+    if status is not None and status.state in (LinkState.DISCONNECTED, LinkState.FAILED):
+        return status.state.value.upper()
+    if status is not None and status.state == LinkState.ENDED:
+        return None
+    counts = snapshot.counts.get(name)
+    last = counts.last_wall_time if counts is not None else None
+    if last is None or now - last > stale_after:
+        if status is None or status.state != LinkState.CONNECTING or last is not None:
+            return "STALE"
+    return None
+
+
+def _count(n: int) -> str:
+    return f"{n:,}"
+
+
+class SourcesPanel(Widget):
+    """One line per source; a stale or broken link is shown in words, a glyph and colour."""
+
+    DEFAULT_CSS = """
+    SourcesPanel {
+        height: auto;
+    }
+    """
+
+    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
+    """The snapshot whose sources and counters are shown."""
+
+    now: reactive[float] = reactive(0.0)
+    """Wall time of this frame (the screen's clock), for ages."""
+
+    stale_after: reactive[float] = reactive(2.0)
+    """Seconds without a reading after which a source is stale."""
+
+    error: reactive[str | None] = reactive(None)
+    """The pipeline worker's fatal error, if it stopped."""
+
+    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
+        super().__init__(name=name, id=id, classes=classes)
+
+    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
+        trouble = snapshot is not None and any(
+            source_trouble(snapshot, n, self.now, self.stale_after) for n in snapshot.sources)
+        self.set_class(bool(trouble) or self.error is not None, "-trouble")
+
+    def render(self) -> RenderResult:
+        snap = self.snapshot
+        if snap is None:
+            return Text("◌ waiting for the source…" if self.error is None else f"✖ PIPELINE STOPPED: {self.error}",
+                        style=palette.CAUTION if self.error is None else palette.ALERT)
+        wide = (self.size.width or 80) >= 110
+        table = Table.grid(padding=(0, 1))
+        for _ in range(8):
+            table.add_column(no_wrap=True, overflow="ellipsis")
+        for name in sorted(set(snap.sources) | set(snap.counts)):
+            status = snap.sources.get(name)
+            counts = snap.counts.get(name)
+            glyph, word, style = _LINK.get(status.state, ("?", "unknown", palette.CAUTION)) if status else ("?", "no status", palette.CAUTION)
+            trouble = source_trouble(snap, name, self.now, self.stale_after)
+            if trouble == "STALE":
+                glyph, word, style = "◼", "STALE", palette.ALERT
+            age = self.now - counts.last_wall_time if counts and counts.last_wall_time is not None else None
+            rejected = sum(counts.rejected.values()) if counts else 0
+            extra = ""
+            if status is not None and status.retries:
+                extra = f" retry {status.retries}"
+            if status is not None and status.message and (trouble or wide):
+                extra += f" {status.message}"
+            table.add_row(
+                Text(glyph, style=style), Text(name, style=palette.NORMAL),
+                Text(word + extra, style=style + palette.LOUD if trouble else style),
+                Text(f"{fmt_number(counts.rate if counts else 0.0)}/s", style=palette.DIM),
+                Text(f"age {fmt_age(age)}", style=palette.ALERT if trouble == "STALE" else palette.DIM),
+                Text(f"ok {_count(counts.accepted if counts else 0)}", style=palette.DIM),
+                Text(f"rej {_count(rejected)}", style=palette.CAUTION if rejected else palette.DIM),
+                Text(f"lost {_count(counts.lost if counts else 0)}", style=palette.ALERT if counts and counts.lost else palette.DIM),
+            )
+        if self.error is not None:
+            table.add_row(Text("✖", style=palette.ALERT), Text("pipeline", style=palette.NORMAL),
+                          Text(f"STOPPED: {self.error}", style=palette.ALERT), "", "", "", "", "")
+        return table
