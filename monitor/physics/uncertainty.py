@@ -1,0 +1,166 @@
+"""First-order uncertainty propagation for the derived set: exact log-derivatives, whole arrays.
+
+Every derived quantity q is a product of powers of the inputs, except the
+Coulomb logarithm (a log with two temperature branches) and the sums
+nu_ei + nu_en and ne + n0. For independent inputs x_j with relative
+uncertainties r_j = sigma_j / x_j the first-order relative uncertainty is
+
+    sigma_q / q = sqrt( sum_j (d ln q / d ln x_j)^2 r_j^2 )
+
+with the log-derivatives written out below (e.g. lambda_D: -1/2 for ne,
++1/2 for Te). For the Coulomb logarithm d lnLambda / d ln ne = -1/2 and
+d lnLambda / d ln Te = 3/2 below the 10 Z^2 eV branch, 1 above it, so
+sigma_lnLambda is absolute. For nu_ei = C ne lnLambda Te^-3/2 that gives
+d ln nu_ei / d ln ne = 1 - 1/(2 lnLambda), d / d ln Te = b/lnLambda - 3/2.
+The total collision rate nu = nu_ei + nu_en weighs each part's
+log-derivatives by its share (w = nu_part / nu). Inputs whose uncertainty
+is not given count as exact; a quantity carries a sigma only when at least
+one of its inputs does. The sign of a given sigma is ignored.
+
+Works on Python floats (the scalar fast path) and on numpy arrays alike:
+``ops`` supplies sqrt for one or the other.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable, Mapping
+
+__all__ = ["relative_squares", "propagate", "SIGMA_KEYS"]
+
+# Keys that may carry a standard uncertainty: the inputs and four device constants.
+SIGMA_KEYS = ("ne", "Te", "Ti", "B", "p0", "L", "f", "Tgas", "sigma_en")
+
+Num = Any  # a float or a float64 array
+
+
+def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dict[str, Num]:
+    """(sigma_x / x)^2 for every key that has both a value and a sigma."""
+    out: dict[str, Num] = {}
+    for key, s in sigma.items():
+        x = values.get(key)
+        if x is not None and s is not None:
+            r = s / x
+            out[key] = r * r
+    return out
+
+
+def _rss(sqrt: Callable[[Num], Num], *terms: Num | None) -> Num | None:
+    """sqrt of the sum of the terms that are not None; None when all are."""
+    total = None
+    for t in terms:
+        if t is not None:
+            total = t if total is None else total + t
+    return None if total is None else sqrt(total)
+
+
+def _c(coef: Num, q: Num | None) -> Num | None:
+    """coef * q, or None when q is None."""
+    return None if q is None else coef * q
+
+
+def propagate(sqrt: Callable[[Num], Num], V: Mapping[str, Num], aux: Mapping[str, Any],
+              Q: Mapping[str, Num]) -> dict[str, Num]:
+    """Absolute standard uncertainties of the quantities in ``V``.
+
+    ``Q`` maps input keys to squared relative uncertainties; ``aux`` holds
+    the intermediate results of the value pass (branch mask, collision-rate
+    shares, ...). Returns name -> sigma for the quantities that have one.
+    """
+    qn, qt, qi, qb, qp = Q.get("ne"), Q.get("Te"), Q.get("Ti"), Q.get("B"), Q.get("p0")
+    ql, qf = Q.get("L"), Q.get("f")
+    S: dict[str, Num] = {}
+
+    def put(name: str, rel: Num | None) -> None:
+        if rel is not None and name in V:
+            S[name] = V[name] * rel
+
+    # Power laws in ne alone, Te alone, B alone.
+    rn = _rss(sqrt, qn)
+    if rn is not None:
+        half = 0.5 * rn
+        put("electron_plasma_frequency", half)
+        put("ion_plasma_frequency", half)
+    rt = _rss(sqrt, qt)
+    if rt is not None:
+        half = 0.5 * rt
+        for name in ("electron_most_probable_speed", "electron_mean_speed", "electron_rms_speed",
+                     "electron_thermal_speed"):
+            put(name, half)
+    rb = _rss(sqrt, qb)
+    if rb is not None:
+        put("electron_cyclotron_frequency", rb)
+        put("ion_cyclotron_frequency", rb)
+
+    # Debye family: lambda_D ~ ne^-1/2 Te^1/2, N_D ~ ne^-1/2 Te^3/2, L/lambda_D.
+    if "debye_length" in V:
+        rl = _rss(sqrt, qn, qt)
+        put("debye_length", None if rl is None else 0.5 * rl)
+        put("debye_number", _rss(sqrt, _c(0.25, qn), _c(2.25, qt)))
+        put("debye_ratio", _rss(sqrt, _c(0.25, qn), _c(0.25, qt), ql))
+
+    # Coulomb logarithm (absolute sigma) and nu_ei.
+    if "coulomb_logarithm" in V and (qn is not None or qt is not None):
+        bt = aux["branch_slope"]                 # 1.5 below 10 Z^2 eV, 1 above
+        s = _rss(sqrt, _c(0.25, qn), _c(bt * bt, qt))
+        S["coulomb_logarithm"] = s
+        inv = 1.0 / V["coulomb_logarithm"]
+        an = 1.0 - 0.5 * inv                     # d ln nu_ei / d ln ne
+        at = bt * inv - 1.5                      # d ln nu_ei / d ln Te
+        put("electron_ion_collision_frequency", _rss(sqrt, _c(an * an, qn), _c(at * at, qt)))
+    else:
+        an = at = None
+
+    # Neutrals: n0 ~ p0 / Tgas, nu_en ~ p0 Tgas^-1 sigma_en Te^1/2, x = ne / (ne + n0).
+    q_gas = None
+    if "neutral_density" in V:
+        q_gas = _rss(lambda v: v, qp, Q.get("Tgas"))     # sum of squares, no root
+        put("neutral_density", _rss(sqrt, q_gas))
+        if "ionization_fraction" in V:
+            r = _rss(sqrt, qn, q_gas)
+            put("ionization_fraction", None if r is None else (1.0 - V["ionization_fraction"]) * r)
+        q_gas_en = _rss(lambda v: v, q_gas, Q.get("sigma_en"))
+        put("electron_neutral_collision_frequency", _rss(sqrt, q_gas_en, _c(0.25, qt)))
+    else:
+        q_gas_en = None
+
+    # Total electron collision rate nu = nu_ei + nu_en: shares weigh the log-derivatives.
+    if "electron_mean_free_path" in V or "collectivity" in V or "hall_parameter" in V:
+        w_en = aux.get("w_en")                   # nu_en / nu, absent when no neutrals
+        dn = an if an is not None else 0.0
+        dt = at if at is not None else 0.0
+        if w_en is not None:
+            w_ei = 1.0 - w_en
+            dn = w_ei * dn
+            dt = w_ei * dt + 0.5 * w_en
+            q_g = _c(w_en * w_en, q_gas_en)
+        else:
+            q_g = None
+        q_dn = _c(dn * dn, qn) if an is not None else None
+        # mean free path = v_T / nu: d/d ln Te = 1/2 - dt
+        mt = 0.5 - dt
+        put("electron_mean_free_path", _rss(sqrt, q_dn, _c(mt * mt, qt), q_g))
+        put("knudsen_number", _rss(sqrt, q_dn, _c(mt * mt, qt), q_g, ql))
+        # collectivity = omega_pe / nu: d/d ln ne = 1/2 - dn
+        cn = 0.5 - dn
+        q_dt = _c(dt * dt, qt) if at is not None else None
+        put("collectivity", _rss(sqrt, _c(cn * cn, qn), q_dt, q_g))
+        # hall = omega_ce / nu
+        put("hall_parameter", _rss(sqrt, q_dn, q_dt, q_g, qb))
+
+    # Gyroradii: r_e ~ Te^1/2 / B, r_i ~ Ti^1/2 / B.
+    put("electron_gyroradius", _rss(sqrt, _c(0.25, qt), qb))
+    put("ion_gyroradius", _rss(sqrt, _c(0.25, qi), qb))
+
+    # beta ~ ne (Te + Ti/Z) / B^2; g = Te / (Te + Ti/Z) (1 without Ti).
+    if "plasma_beta" in V:
+        g = aux.get("beta_te_share")
+        if g is None:
+            put("plasma_beta", _rss(sqrt, qn, qt, _c(4.0, qb)))
+        else:
+            h = 1.0 - g
+            put("plasma_beta", _rss(sqrt, qn, _c(g * g, qt), _c(h * h, qi), _c(4.0, qb)))
+
+    # Cutoff density ~ f^2 and ratio ne / n_c.
+    put("cutoff_density", _c(2.0, _rss(sqrt, qf)))
+    put("cutoff_ratio", _rss(sqrt, qn, _c(4.0, qf)))
+    return S
