@@ -1,0 +1,83 @@
+"""The alarm journal: one JSON line per transition and per operator action, flushed as written."""
+
+from __future__ import annotations
+
+import json
+import threading
+from pathlib import Path
+from typing import Any, IO
+
+from adapters.base import SourceStatus
+from adapters.batch import Rejection
+from monitor.alarms.events import AlarmEvent
+from monitor.model import Frame
+
+__all__ = ["JournalSink", "event_line", "read_journal"]
+
+
+def event_line(event: AlarmEvent) -> str:
+    """The journal line of one event (the ``{"type": "alarm", ...}`` contract), without newline."""
+    return json.dumps(event.to_json(), allow_nan=False, separators=(", ", ": "))
+
+
+def read_journal(path: str | Path) -> list[dict[str, Any]]:
+    """Every event of a journal file, in order (a torn last line is skipped)."""
+    out: list[dict[str, Any]] = []
+    with open(path, encoding="utf-8") as fh:
+        for line in fh:
+            line = line.strip()
+            if not line:
+                continue
+            try:
+                out.append(json.loads(line))
+            except json.JSONDecodeError:
+                continue
+    return out
+
+
+class JournalSink:
+    """A Sink that appends AlarmEvent.to_json() lines to ``path``.
+
+    It never raises for its own I/O trouble: a failed write is counted in
+    ``errors`` and kept in ``last_error``, and writing resumes when it can.
+    """
+
+    def __init__(self, path: str | Path, *, append: bool = True) -> None:
+        self.path = Path(path)
+        self.errors = 0
+        self.written = 0
+        self.last_error: str | None = None
+        self._lock = threading.Lock()
+        self._fh: IO[str] | None = None
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self._fh = open(self.path, "a" if append else "w", encoding="utf-8")
+
+    def on_frame(self, frame: Frame) -> None:
+        pass
+
+    def on_rejections(self, rejections: list[Rejection]) -> None:
+        pass
+
+    def on_status(self, status: SourceStatus) -> None:
+        pass
+
+    def on_alarm(self, event: AlarmEvent) -> None:
+        with self._lock:
+            try:
+                if self._fh is None or self._fh.closed:
+                    self._fh = open(self.path, "a", encoding="utf-8")
+                self._fh.write(event_line(event) + "\n")
+                self._fh.flush()
+                self.written += 1
+            except (OSError, ValueError) as exc:
+                self.errors += 1
+                self.last_error = f"{type(exc).__name__}: {exc}"
+
+    def close(self) -> None:
+        with self._lock:
+            if self._fh is not None and not self._fh.closed:
+                try:
+                    self._fh.close()
+                except OSError as exc:
+                    self.errors += 1
+                    self.last_error = str(exc)
