@@ -1,0 +1,130 @@
+"""`regime watch SOURCE`: a live source through the pipeline and alarms, on the screen or headless."""
+
+from __future__ import annotations
+
+import argparse
+import importlib.util
+import math
+import signal
+import sys
+import threading
+from typing import Any
+
+from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
+
+__all__ = ["register", "run"]
+
+
+def register(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("source", metavar="SOURCE",
+                        help="tcp://HOST:PORT, ipc://PATH, serial:PORT[@BAUD], loop://, socket://HOST:PORT, "
+                             "/dev/tty..., sim:NAME[?seed=N&rate=HZ&speed=X|max&duration=S&loop=1], or a CSV file")
+    parser.add_argument("--config", metavar="F", help="TOML config: device, channels, limits, alarms, recording")
+    parser.add_argument("--record", metavar="DIR", help="record every accepted reading, the alarm journal and "
+                                                        "the rejects into DIR")
+    parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
+    parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
+    parser.add_argument("--duration", metavar="S", type=float, help="stop after S seconds (wall clock)")
+    parser.add_argument("--alarm-pub", metavar="ENDPOINT", help="publish alarm events on ZeroMQ (PUB) at ENDPOINT")
+
+
+def _module(name: str) -> Any | None:
+    try:
+        if importlib.util.find_spec(name) is None:
+            return None
+    except ModuleNotFoundError:
+        return None
+    return importlib.import_module(name)
+
+
+def _sinks(args: argparse.Namespace, config: Any, source_name: str) -> list[Any]:
+    sinks: list[Any] = []
+    if args.record:
+        recording = _module("monitor.recording")
+        if recording is None or not hasattr(recording, "Recorder"):
+            raise UsageError("--record: the recorder is not available in this build")
+        try:
+            sinks.append(recording.Recorder(args.record, config, source_name=source_name))
+        except OSError as exc:
+            raise UsageError(f"--record {args.record}: {exc.strerror or exc}") from None
+    if args.alarm_pub:
+        publisher = _module("monitor.alarms.publisher")
+        if publisher is None:
+            raise UsageError("--alarm-pub: the alarm publisher is not available in this build")
+        sinks.append(publisher.AlarmPublisher(args.alarm_pub))
+    return sinks
+
+
+def run(args: argparse.Namespace) -> int:
+    from monitor.config import load_config
+    from monitor.headless import HeadlessPrinter
+    from monitor.session import Session, make_engine
+    from monitor.sources import is_live, open_source
+
+    if args.json and not args.headless:
+        raise UsageError("--json needs --headless")
+    if args.duration is not None and not (args.duration > 0 and math.isfinite(args.duration)):
+        raise UsageError(f"--duration must be a positive number of seconds, got {args.duration}")
+    config = load_config(args.config)
+    source = open_source(args.source, config)
+    engine = make_engine(config)
+    sinks = _sinks(args, config, getattr(source, "name", args.source))
+    session = Session(source, config, sinks, engine=engine, live=is_live(args.source))
+    if not args.headless:
+        return _screen(session, args)
+    printer = HeadlessPrinter(sys.stdout, as_json=args.json)
+    session.add_sink(printer)
+    stop = threading.Event()
+    previous = _install_signals(stop)
+    try:
+        session.open()
+        session.run(args.duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
+    finally:
+        _restore_signals(previous)
+        session.close()
+        printer.status(session.snapshot())
+        printer.summary(session.summary())
+    if session.failure is not None:
+        print(f"regime watch: source failed: {session.failure}", file=sys.stderr)
+        return EXIT_SOURCE
+    return EXIT_OK
+
+
+def _install_signals(stop: threading.Event) -> dict[int, Any]:
+    previous: dict[int, Any] = {}
+    if threading.current_thread() is not threading.main_thread():
+        return previous
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        previous[sig] = signal.signal(sig, lambda *_: stop.set())
+    return previous
+
+
+def _restore_signals(previous: dict[int, Any]) -> None:
+    for sig, handler in previous.items():
+        signal.signal(sig, handler)
+
+
+def _screen(session: Any, args: argparse.Namespace) -> int:
+    if _module("monitor.tui.app") is None:
+        print("regime watch: the screen is not available in this build; use --headless", file=sys.stderr)
+        return EXIT_USAGE
+    from monitor.tui.app import RegimeApp
+    from monitor.tui.feed import EventTap, SessionFeed
+
+    tap = EventTap()
+    session.add_sink(tap)
+    feed = SessionFeed(session, tap)
+    app = RegimeApp(feed)
+    session.open()
+    try:
+        app.run()
+    finally:
+        app.stop.set()
+        feed.finished.wait(5.0)
+        session.close()
+    summary = session.summary()
+    from monitor.headless import human_summary
+    print(human_summary(summary))
+    if session.failure is not None:
+        return EXIT_SOURCE
+    return EXIT_OK

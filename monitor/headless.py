@@ -1,0 +1,193 @@
+"""Headless output: a human status line per second, or JSON lines (status ~1/s, one per alarm event, a summary at exit)."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+import threading
+from typing import Any, Mapping, TextIO
+
+from adapters.base import SourceStatus
+from adapters.batch import Rejection
+from monitor.alarms.events import AlarmEvent
+from monitor.model import Frame
+from monitor.snapshot import Snapshot
+
+__all__ = ["HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary"]
+
+_SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
+
+
+def jsonable(x: Any) -> Any:
+    """Plain JSON values: NaN and infinities become null, numpy scalars floats, tuples lists."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if isinstance(x, Mapping):
+        return {str(k): jsonable(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [jsonable(v) for v in x]
+    if hasattr(x, "item") and callable(x.item):       # numpy scalar
+        return jsonable(x.item())
+    if hasattr(x, "value") and isinstance(getattr(x, "value"), str):   # str enums
+        return x.value
+    return x
+
+
+def _active(snap: Snapshot) -> list[dict[str, Any]]:
+    out = []
+    for v in snap.alarms:
+        state = getattr(v.state, "value", str(v.state))
+        if state != "normal":
+            out.append({"alarm": v.alarm, "state": state, "priority": getattr(v.priority, "value", v.priority),
+                        "quantity": v.quantity, "value": v.value})
+    return out
+
+
+def status_record(snap: Snapshot) -> dict[str, Any]:
+    """The ``{"type": "status", ...}`` line."""
+    accepted = sum(c.accepted for c in snap.counts.values())
+    rejected: dict[str, int] = {}
+    for c in snap.counts.values():
+        for k, n in c.rejected.items():
+            rejected[k] = rejected.get(k, 0) + n
+    src = next(iter(snap.sources.values()), None)
+    rec = {
+        "type": "status",
+        "wall": snap.wall_time,
+        "time": snap.data_time,
+        "source": src.name if src else None,
+        "state": src.state.value if src else None,
+        "message": src.message if src else "",
+        "accepted": accepted,
+        "rejected": dict(sorted(rejected.items())),
+        "lost": sum(c.lost for c in snap.counts.values()),
+        "rate": sum(c.rate for c in snap.counts.values()),
+        "latest": {k: snap.latest[k][0] for k in ("ne", "Te", "Ti", "B", "p0", "debye_length") if k in snap.latest},
+        "discharge_on": snap.discharge_on,
+        "alarms": _active(snap),
+        "flood": snap.flood,
+        "alarm_rate_10min": snap.alarm_rate_10min,
+        "chattering": list(snap.chattering),
+        "warnings": list(snap.warnings),
+    }
+    if snap.replay is not None:
+        rec["replay"] = {"time": snap.replay.time, "start": snap.replay.start, "end": snap.replay.end,
+                         "speed": snap.replay.speed, "paused": snap.replay.paused}
+    if snap.recording:
+        rec["recording"] = snap.recording
+    return jsonable(rec)
+
+
+def _num(x: float | None) -> str:
+    if x is None or not math.isfinite(x):
+        return "--"
+    return f"{x:.3g}"
+
+
+def human_status(snap: Snapshot) -> str:
+    """One line for the operator's terminal."""
+    rec = status_record(snap)
+    parts = [f"[{rec['state'] or '?'}]"]
+    parts.append(f"t={rec['time']:.3f}" if rec["time"] is not None else "t=-- (no data yet)")
+    parts.append(f"{rec['rate']:.0f}/s")
+    nrej = sum(rec["rejected"].values())
+    parts.append(f"accepted {rec['accepted']} rejected {nrej} lost {rec['lost']}")
+    for key, label, unit in _SHOWN:
+        v = snap.latest.get(key)
+        parts.append(f"{label} {_num(v[0] if v else None)} {unit}")
+    parts.append("ON" if rec["discharge_on"] else "off")
+    active = rec["alarms"]
+    if active:
+        names = ", ".join(f"{a['alarm']}({a['state']})" for a in active[:4])
+        more = f" +{len(active) - 4}" if len(active) > 4 else ""
+        parts.append(f"alarms {len(active)}: {names}{more}")
+    else:
+        parts.append("alarms 0")
+    if rec["flood"]:
+        parts.append("FLOOD")
+    if rec["chattering"]:
+        parts.append("chattering: " + ", ".join(rec["chattering"]))
+    if rec["message"] and rec["state"] != "connected":
+        parts.append(f"({rec['message']})")
+    return "  ".join(parts)
+
+
+def human_summary(summary: Mapping[str, Any]) -> str:
+    rej = summary.get("rejected", {})
+    reasons = ", ".join(f"{k} {v}" for k, v in rej.items()) or "none"
+    lines = [
+        f"summary of {summary.get('source')}: accepted {summary.get('accepted')}, "
+        f"rejected {sum(rej.values())} ({reasons}), lost {summary.get('lost')}",
+        f"  state {summary.get('state')}" + (f": {summary['message']}" if summary.get("message") else ""),
+        f"  alarm events {summary.get('alarm_events')}, active at exit: "
+        f"{', '.join(summary.get('alarms_active') or []) or 'none'}",
+    ]
+    if summary.get("unknown_keys"):
+        lines.append("  unknown keys: " + ", ".join(f"{k} {v}" for k, v in summary["unknown_keys"].items()))
+    if summary.get("failure"):
+        lines.append(f"  source failure: {summary['failure']}")
+    return "\n".join(lines)
+
+
+class HeadlessPrinter:
+    """A sink printing alarm events and link changes as they come, and status lines when asked."""
+
+    def __init__(self, stream: TextIO | None = None, *, as_json: bool = False) -> None:
+        self.stream = stream if stream is not None else sys.stdout
+        self.as_json = as_json
+        self._lock = threading.Lock()
+        self.lines = 0
+
+    def _write(self, text: str) -> None:
+        with self._lock:
+            try:
+                self.stream.write(text + "\n")
+                self.stream.flush()
+                self.lines += 1
+            except (OSError, ValueError):
+                pass        # a closed pipe must not stop the session
+
+    def _json(self, record: Mapping[str, Any]) -> None:
+        self._write(json.dumps(jsonable(record), separators=(",", ":")))
+
+    # -- sink ---------------------------------------------------------------
+    def on_frame(self, frame: Frame) -> None:
+        return None
+
+    def on_rejections(self, rejections: list[Rejection]) -> None:
+        return None
+
+    def on_alarm(self, event: AlarmEvent) -> None:
+        if self.as_json:
+            self._json(event.to_json())
+        else:
+            state = getattr(event.state, "value", event.state)
+            what = f" by {event.action}" if event.action else ""
+            self._write(f"ALARM t={event.time:.3f} {event.alarm} -> {state}{what}  "
+                        f"{event.quantity or ''} {_num(event.value)} (limit {_num(event.limit)}) "
+                        f"[{getattr(event.priority, 'value', event.priority)}] {event.message}".rstrip())
+
+    def on_status(self, status: SourceStatus) -> None:
+        if self.as_json:
+            self._json({"type": "source", "source": status.name, "state": status.state.value,
+                        "message": status.message, "retries": status.retries})
+        else:
+            msg = f": {status.message}" if status.message else ""
+            self._write(f"SOURCE {status.name} {status.state.value}{msg}")
+
+    def close(self) -> None:
+        return None
+
+    # -- periodic and final lines -------------------------------------------
+    def status(self, snap: Snapshot) -> None:
+        if self.as_json:
+            self._json(status_record(snap))
+        else:
+            self._write(human_status(snap))
+
+    def summary(self, summary: Mapping[str, Any]) -> None:
+        if self.as_json:
+            self._json(summary)
+        else:
+            self._write(human_summary(summary))

@@ -1,0 +1,256 @@
+"""The pipeline: channel map -> validate -> align -> derive -> rolling statistics, on whole batches, with every reading counted."""
+
+from __future__ import annotations
+
+import collections
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Callable, Iterable, Mapping
+
+import numpy as np
+
+from adapters.batch import Batch, Rejection
+from monitor.config import Config
+from monitor.model import Frame
+from monitor.pipeline.align import Aligner
+from monitor.pipeline.rolling import Rolling
+from monitor.pipeline.validate import SeqTimeState, Verdict, find_restart, validate
+from monitor.snapshot import SourceCounts, Stats
+
+__all__ = ["Pipeline"]
+
+_RATE_SPAN = 2.0      # s of data time over which the reading rate is measured
+_RATE_BUCKET = 0.1
+
+
+@dataclass
+class _Counts:
+    accepted: int = 0
+    rejected: collections.Counter = field(default_factory=collections.Counter)
+    lost: int = 0
+    unknown: collections.Counter = field(default_factory=collections.Counter)
+    restarts: int = 0
+    last_data_time: float | None = None
+    last_wall_time: float | None = None
+    rate_buckets: dict[int, int] = field(default_factory=dict)
+    first_time: float | None = None
+
+    def add_rate(self, t: np.ndarray) -> None:
+        if len(t) == 0:
+            return
+        b = np.floor(t / _RATE_BUCKET).astype(np.int64)
+        starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
+        counts = np.diff(np.concatenate((starts, [len(b)])))
+        for key, c in zip(b[starts][-64:].tolist(), counts[-64:].tolist()):
+            self.rate_buckets[key] = self.rate_buckets.get(key, 0) + c
+        newest = int(b[-1])
+        for key in [k for k in self.rate_buckets if k <= newest - _RATE_SPAN / _RATE_BUCKET]:
+            del self.rate_buckets[key]
+
+    def rate(self) -> float:
+        if not self.rate_buckets or self.last_data_time is None or self.first_time is None:
+            return 0.0
+        span = min(_RATE_SPAN, self.last_data_time - self.first_time)
+        if span <= 0:
+            return 0.0
+        return sum(self.rate_buckets.values()) / max(span, _RATE_BUCKET)
+
+    def freeze(self) -> SourceCounts:
+        return SourceCounts(accepted=self.accepted, rejected=dict(self.rejected), lost=self.lost,
+                            unknown_keys=dict(self.unknown), rate=self.rate(),
+                            last_data_time=self.last_data_time, last_wall_time=self.last_wall_time)
+
+
+def _default_derive() -> Callable:
+    from monitor.physics import derive
+    return derive
+
+
+class Pipeline:
+    """Turns batches into frames. Not thread-safe: one caller (the Session) at a time.
+
+    What one reading is: one row of a batch (one time, one seq), carrying the
+    channels that arrived with it; channels that arrive as separate samples
+    are separate readings (NaN in the channels they do not carry). Accepted
+    counts the readings that passed validation; every other reading is
+    counted by reason and kept as a Rejection for the sinks.
+    """
+
+    def __init__(self, config: Config | None = None, *, derive: Callable | None = None,
+                 wall: Callable[[], float] = time.time) -> None:
+        self.config = config if config is not None else Config()
+        opts = self.config.pipeline
+        self._derive = derive if derive is not None else _default_derive()
+        self._wall = wall
+        self._aligner = Aligner(self.config.max_age, dict(self.config.max_age_by_key))
+        self._seq: dict[str, SeqTimeState] = {}
+        self._counts: dict[str, _Counts] = {}
+        self._rolling: dict[str, Rolling] = {}
+        self._window, self._bins = opts.window, opts.bins
+        self._last_source: str | None = None
+        self._pending: list[Rejection] = []
+        self.rejected_samples: collections.deque[Rejection] = collections.deque(maxlen=opts.keep_rejected)
+
+    # -- counting -----------------------------------------------------------
+    def _c(self, source: str) -> _Counts:
+        c = self._counts.get(source)
+        if c is None:
+            c = self._counts[source] = _Counts()
+        return c
+
+    def reject(self, rejections: Iterable[Rejection]) -> None:
+        """Count and keep rejections an adapter made (malformed lines, bad frames, ...)."""
+        for r in rejections:
+            self._c(r.source).rejected[r.reason] += 1
+            self.rejected_samples.append(r)
+
+    def drain_rejections(self) -> list[Rejection]:
+        """Rejections the pipeline itself made since the last call (for the sinks)."""
+        out, self._pending = self._pending, []
+        return out
+
+    def counts(self) -> dict[str, SourceCounts]:
+        return {name: c.freeze() for name, c in self._counts.items()}
+
+    def restarts(self) -> dict[str, int]:
+        return {name: c.restarts for name, c in self._counts.items()}
+
+    def stats(self, source: str | None = None) -> dict[str, Stats]:
+        """Rolling statistics of the given source (default: the last one processed)."""
+        name = source if source is not None else self._last_source
+        r = self._rolling.get(name) if name is not None else None
+        return r.stats() if r is not None else {}
+
+    def rolling(self, source: str) -> Rolling | None:
+        return self._rolling.get(source)
+
+    def reset(self, source: str) -> None:
+        """Forget the source's time, seq, held values and rolling window (after a seek);
+        its counts stay."""
+        self._seq.pop(source, None)
+        self._aligner.reset(source)
+        self._rolling.pop(source, None)
+
+    # -- processing ---------------------------------------------------------
+    def process(self, batch: Batch) -> Frame:
+        """Map, validate, align, derive and add to the rolling statistics."""
+        source = batch.source
+        self._last_source = source
+        counts = self._c(source)
+        counts.last_wall_time = self._wall()
+        state = self._seq.setdefault(source, SeqTimeState())
+        seq = None if batch.seq is None else np.asarray(batch.seq, dtype=np.int64)
+        k = find_restart(seq, state)
+        if k is not None:
+            # a restarted publisher: finish the old stream, then start over
+            head = self.process(_slice(batch, 0, k)) if k > 0 else None
+            counts.restarts += 1
+            self._seq[source] = SeqTimeState()
+            self._aligner.reset(source)
+            self._rolling.pop(source, None)
+            tail = self.process(_slice(batch, k, len(batch)))
+            return _concat(head, tail) if head is not None else tail
+        mapped = self.config.channels.apply(batch)
+        for key, n in mapped.unknown.items():
+            counts.unknown[key] += n
+        verdict = validate(mapped.t, mapped.values, seq, state)
+        counts.lost += verdict.lost
+        ok = verdict.accepted
+        n_ok = int(ok.sum())
+        if n_ok < len(ok):
+            for reason, n in verdict.counts().items():
+                counts.rejected[reason] += n
+            self._keep_rejections(batch, mapped.t, verdict)
+        t = mapped.t[ok] if n_ok < len(ok) else mapped.t
+        raw = {key: (v[ok] if n_ok < len(ok) else v) for key, v in mapped.values.items()}
+        raw_sigma = {key: (s[ok] if n_ok < len(ok) else s) for key, s in mapped.sigma.items()}
+        frame_seq = None if seq is None else (seq[ok] if n_ok < len(ok) else seq)
+        values, sigma = self._aligner.align(source, t, raw, raw_sigma)
+        counts.accepted += n_ok
+        if n_ok:
+            counts.last_data_time = float(t[-1])
+            if counts.first_time is None:
+                counts.first_time = float(t[0])
+            counts.add_rate(t)
+        return self._derive_frame(source, t, values, sigma, raw, frame_seq)
+
+    def _derive_frame(self, source: str, t: np.ndarray, values: dict[str, np.ndarray],
+                      sigma: dict[str, np.ndarray], raw: Mapping[str, np.ndarray],
+                      seq: np.ndarray | None) -> Frame:
+        n = len(t)
+        all_values: dict[str, np.ndarray] = dict(values)
+        all_sigma: dict[str, np.ndarray] = dict(sigma)
+        warnings: dict[str, np.ndarray] = {}
+        valid = np.zeros(n, dtype=bool)
+        if n:
+            ne, te = values.get("ne"), values.get("Te")
+            valid = np.ones(n, dtype=bool)
+            valid &= np.isfinite(ne) if ne is not None else False
+            valid &= np.isfinite(te) if te is not None else False
+            if values:
+                derived = self._derive(values, self.config.device, sigma or None)
+                for name, arr in derived.values.items():
+                    all_values[name] = np.asarray(arr, dtype=np.float64)
+                for name, arr in derived.sigma.items():
+                    all_sigma[name] = np.asarray(arr, dtype=np.float64)
+                for mask in derived.invalid.values():
+                    valid &= ~np.asarray(mask, dtype=bool)
+                warnings = {k: np.asarray(m, dtype=bool) for k, m in derived.warnings.items()}
+            rolling = self._rolling.get(source)
+            if rolling is None:
+                rolling = self._rolling[source] = Rolling(self._window, self._bins)
+            # base quantities as measured (no hold), derived quantities as derived
+            stat_values = {k: v for k, v in raw.items()}
+            stat_values.update({k: v for k, v in all_values.items() if k not in values})
+            rolling.add(t, stat_values)
+        return Frame(source=source, t=t, values=all_values, sigma=all_sigma, valid=valid,
+                     warnings=warnings, seq=seq, raw=dict(raw))
+
+    def _keep_rejections(self, batch: Batch, t: np.ndarray, verdict: Verdict) -> None:
+        bad = np.flatnonzero(~verdict.accepted)
+        wall = self._wall()
+        cols = list(batch.columns.items())
+        for i in bad.tolist():
+            reason = verdict.reasons[int(verdict.code[i]) - 1]
+            rej = Rejection(source=batch.source, reason=reason, raw=_row_line(batch, cols, i), received=wall,
+                            detail=f"reading at t={float(t[i])!r}: {reason.replace('_', ' ')}")
+            self._pending.append(rej)
+            self.rejected_samples.append(rej)
+
+
+def _fmt(x: float) -> str:
+    return repr(float(x)) if math.isfinite(x) else ("nan" if math.isnan(x) else ("inf" if x > 0 else "-inf"))
+
+
+def _row_line(batch: Batch, cols: list[tuple[str, np.ndarray]], i: int) -> bytes:
+    """The refused reading as one text line in the project's key=value format."""
+    parts = [f"t={_fmt(batch.t[i])}"]
+    if batch.seq is not None:
+        parts.append(f"seq={int(batch.seq[i])}")
+    for key, col in cols:
+        v = float(col[i])
+        if not math.isnan(v):
+            parts.append(f"{key}={_fmt(v)}")
+    return " ".join(parts).encode("utf-8")
+
+
+def _slice(batch: Batch, a: int, b: int) -> Batch:
+    return Batch(source=batch.source, t=batch.t[a:b], columns={k: v[a:b] for k, v in batch.columns.items()},
+                 sigma={k: v[a:b] for k, v in batch.sigma.items()},
+                 seq=None if batch.seq is None else batch.seq[a:b], t_from_source=batch.t_from_source)
+
+
+def _concat(a: Frame, b: Frame) -> Frame:
+    def join(x: Mapping[str, np.ndarray], y: Mapping[str, np.ndarray], dtype: type = np.float64) -> dict:
+        keys = list(x) + [k for k in y if k not in x]
+        return {k: np.concatenate((x.get(k, np.full(len(a), np.nan, dtype=dtype)) if dtype is np.float64
+                                   else x.get(k, np.zeros(len(a), dtype=bool)),
+                                   y.get(k, np.full(len(b), np.nan, dtype=dtype)) if dtype is np.float64
+                                   else y.get(k, np.zeros(len(b), dtype=bool)))) for k in keys}
+    seq = None if a.seq is None or b.seq is None else np.concatenate((a.seq, b.seq))
+    valid = np.concatenate((a.valid if a.valid is not None else np.zeros(len(a), bool),
+                            b.valid if b.valid is not None else np.zeros(len(b), bool)))
+    return Frame(source=a.source, t=np.concatenate((a.t, b.t)), values=join(a.values, b.values),
+                 sigma=join(a.sigma, b.sigma), valid=valid, warnings=join(a.warnings, b.warnings, bool),
+                 seq=seq, raw=join(a.raw, b.raw))

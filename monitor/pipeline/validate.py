@@ -1,0 +1,141 @@
+"""Validation of readings as they arrive: bad values, time going backwards, duplicate or backwards seq, seq gaps."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+__all__ = ["ABSURD", "POSITIVE", "Verdict", "SeqTimeState", "validate", "find_restart", "RESTART_GAP"]
+
+# Magnitudes beyond which a reading is refused as absurd (canonical units).
+# ne above 1e33 m^-3 is beyond solid density by several orders, Te/Ti above
+# 1e7 eV beyond any laboratory plasma; |B| above 1e4 T and p0 above 1e8 Pa
+# (1000 bar) are beyond any device this tool watches (common practice).
+ABSURD: dict[str, float] = {"ne": 1e33, "Te": 1e7, "Ti": 1e7, "B": 1e4, "p0": 1e8}
+# Keys that must be strictly positive; B may be zero or negative (direction).
+POSITIVE: frozenset[str] = frozenset({"ne", "Te", "Ti", "p0"})
+# A seq that falls back by more than this (or to 0) is a restarted publisher,
+# not a stream of duplicates: the source's seq and time references start over.
+RESTART_GAP = 1000
+
+_FIXED = ("time_not_finite", "time_backwards", "seq_duplicate", "seq_backwards", "no_channels")
+
+
+@dataclass
+class SeqTimeState:
+    """What validation remembers of one source between batches."""
+
+    last_t: float = -np.inf
+    last_seq: int | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class Verdict:
+    """``code`` per reading: 0 accepted, else 1 + index into ``reasons``."""
+
+    code: np.ndarray
+    reasons: tuple[str, ...]
+    lost: int
+
+    @property
+    def accepted(self) -> np.ndarray:
+        return self.code == 0
+
+    def counts(self) -> dict[str, int]:
+        """Rejected readings by reason."""
+        if len(self.code) == 0:
+            return {}
+        hist = np.bincount(self.code, minlength=len(self.reasons) + 1)
+        return {self.reasons[i - 1]: int(hist[i]) for i in np.nonzero(hist)[0] if i > 0}
+
+
+def _before(x: np.ndarray, start: float) -> np.ndarray:
+    """For each position, the largest of ``start`` and every earlier element."""
+    if len(x) == 0:
+        return x.copy()
+    cm = np.maximum.accumulate(x)
+    out = np.empty_like(cm)
+    out[0] = start
+    out[1:] = np.maximum(cm[:-1], start)
+    return out
+
+
+def find_restart(seq: np.ndarray | None, state: SeqTimeState) -> int | None:
+    """Index of the first reading that starts a restarted sequence, or None."""
+    if seq is None or len(seq) == 0 or state.last_seq is None:
+        return None
+    s = seq.astype(np.int64, copy=False)
+    before = _before(s, state.last_seq)
+    hit = (s < before) & ((s == 0) | (before - s > RESTART_GAP))
+    idx = np.flatnonzero(hit)
+    return int(idx[0]) if len(idx) else None
+
+
+def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | None,
+             state: SeqTimeState) -> Verdict:
+    """Judge each reading; update ``state`` (latest time, latest seq).
+
+    A reading is one row: its time, its seq, and the channel values it carries
+    (NaN = not carried). It is accepted when its time is finite and not before
+    the latest time seen, its seq (if any) is above the latest seq seen, every
+    value it carries is finite, positive where the quantity must be, and not
+    absurd, and it carries at least one known channel. The first failing
+    check names the reason. Seq gaps between readings that pass the seq check
+    count as lost readings.
+    """
+    n = len(t)
+    reasons: list[str] = list(_FIXED)
+    code = np.zeros(n, dtype=np.int64)
+    if n == 0:
+        return Verdict(code, tuple(reasons), 0)
+    # lowest priority first; each later check overwrites
+    carried_any = np.zeros(n, dtype=bool)
+    checks: list[tuple[str, np.ndarray]] = []
+    for key in sorted(values, key=_order):
+        v = values[key]
+        carried = ~np.isnan(v)
+        carried_any |= carried
+        finite = np.isfinite(v)
+        checks.append((f"{key}_not_finite", carried & ~finite))
+        if key in POSITIVE:
+            checks.append((f"{key}_not_positive", finite & (v <= 0)))
+        limit = ABSURD.get(key)
+        if limit is not None:
+            checks.append((f"{key}_absurd", finite & (np.abs(v) > limit)))
+    _set(code, ~carried_any, reasons, "no_channels")
+    for name, mask in reversed(checks):
+        _set(code, mask, reasons, name)
+    lost = 0
+    if seq is not None:
+        s = seq.astype(np.int64, copy=False)
+        # the first seq ever seen sets the baseline: nothing before it counts as lost
+        start = state.last_seq if state.last_seq is not None else int(s[0]) - 1
+        before = _before(s, start)
+        _set(code, s < before, reasons, "seq_backwards")
+        _set(code, s == before, reasons, "seq_duplicate")
+        fresh = s > before
+        lost = int((s[fresh] - before[fresh] - 1).sum())
+        state.last_seq = int(max(int(s.max()), start))
+    tf = np.isfinite(t)
+    tt = np.where(tf, t, -np.inf)
+    tbefore = _before(tt, state.last_t)
+    _set(code, tf & (t < tbefore), reasons, "time_backwards")
+    _set(code, ~tf, reasons, "time_not_finite")
+    if tf.any():
+        state.last_t = float(max(state.last_t, tt.max()))
+    return Verdict(code, tuple(reasons), lost)
+
+
+def _order(key: str) -> tuple[int, str]:
+    order = ("ne", "Te", "Ti", "B", "p0")
+    return (order.index(key) if key in order else len(order), key)
+
+
+def _set(code: np.ndarray, mask: np.ndarray, reasons: list[str], name: str) -> None:
+    if not mask.any():
+        return
+    if name not in reasons:
+        reasons.append(name)
+    code[mask] = reasons.index(name) + 1

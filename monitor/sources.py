@@ -1,0 +1,139 @@
+"""SOURCE specs of the command line turned into adapters: ZeroMQ, serial lines, the simulator, CSV files."""
+
+from __future__ import annotations
+
+import importlib
+import math
+import os
+import re
+from pathlib import Path
+from typing import Any
+from urllib.parse import parse_qsl
+
+from adapters.base import Source
+from monitor.config import Config
+from monitor.errors import UsageError
+
+__all__ = ["open_source", "is_live", "SPEC_HELP"]
+
+SPEC_HELP = ("tcp://HOST:PORT or ipc://PATH (ZeroMQ), serial:PORT[@BAUD], /dev/tty..., loop://, "
+             "socket://HOST:PORT (serial lines), sim:NAME[?seed=N&rate=HZ&speed=X|max&duration=S&loop=1], "
+             "or the path of a CSV file or recording")
+_SIM_PARAMS = ("seed", "rate", "speed", "duration", "loop")
+_BAUD = re.compile(r"^(?P<port>.+)@(?P<baud>\d+)$")
+
+
+def _adapter(module: str, cls: str, spec: str) -> Any:
+    try:
+        mod = importlib.import_module(module)
+    except ModuleNotFoundError as exc:
+        if exc.name == module:
+            raise UsageError(f"{spec}: this kind of source is not available ({module} is missing)") from None
+        raise
+    return getattr(mod, cls)
+
+
+def is_live(spec: str) -> bool:
+    """False for a file (replayed in data time), True for every live kind."""
+    return not _looks_like_file(spec)
+
+
+def _looks_like_file(spec: str) -> bool:
+    if "://" in spec or spec.startswith(("sim:", "serial:", "/dev/")):
+        return False
+    return True
+
+
+def open_source(spec: str, config: Config | None = None) -> Source:
+    """The adapter for ``spec`` (not opened yet). A spec that names no known
+    kind of source, or bad parameters, raise UsageError (exit 2)."""
+    config = config if config is not None else Config()
+    spec = spec.strip()
+    if not spec:
+        raise UsageError(f"empty SOURCE; give {SPEC_HELP}")
+    if spec.startswith(("tcp://", "ipc://")):
+        ZmqSource = _adapter("adapters.zmq_stream", "ZmqSource", spec)
+        curve = None
+        if config.curve_server_key and config.curve_client_key:
+            curve = (config.curve_server_key, config.curve_client_key)
+        return _construct(ZmqSource, spec, spec, curve=curve)
+    if spec.startswith("serial:"):
+        rest = spec[len("serial:"):]
+        m = _BAUD.match(rest)
+        port, baud = (m.group("port"), int(m.group("baud"))) if m else (rest, None)
+        if not port:
+            raise UsageError(f"{spec}: serial: needs a port, e.g. serial:/dev/ttyUSB0@115200")
+        return _serial(spec, port, baud)
+    if spec.startswith(("loop://", "socket://", "rfc2217://", "spy://", "/dev/")):
+        m = _BAUD.match(spec) if spec.startswith("/dev/") else None
+        if m:
+            return _serial(spec, m.group("port"), int(m.group("baud")))
+        return _serial(spec, spec, None)
+    if spec.startswith("sim:"):
+        return _sim(spec)
+    if "://" in spec:
+        scheme = spec.split("://", 1)[0]
+        raise UsageError(f"{spec}: unknown scheme {scheme!r}; give {SPEC_HELP}")
+    path = Path(spec)
+    if path.is_file():
+        CsvSource = _adapter("adapters.csv_file", "CsvSource", spec)
+        kwargs: dict[str, Any] = {"speed": None}
+        tcol = next((c for c in config.channels.channels.values() if c.quantity == "t"), None)
+        if tcol is not None:
+            kwargs.update(time_column=tcol.key, time_scale=tcol.scale)
+        return _construct(CsvSource, spec, path, **kwargs)
+    if path.exists():
+        raise UsageError(f"{spec}: not a regular file")
+    raise UsageError(f"{spec}: no such file, and not a source spec; give {SPEC_HELP}")
+
+
+def _construct(cls: Any, spec: str, *args: Any, **kwargs: Any) -> Source:
+    from adapters.base import FatalSourceError
+    try:
+        return cls(*args, **kwargs)
+    except (ValueError, TypeError, FatalSourceError) as exc:
+        raise UsageError(f"{spec}: {exc}") from None
+
+
+def _serial(spec: str, port: str, baud: int | None) -> Source:
+    SerialSource = _adapter("adapters.serial_line", "SerialSource", spec)
+    if baud is not None:
+        if not 50 <= baud <= 20_000_000:
+            raise UsageError(f"{spec}: baud rate {baud} out of range")
+        return _construct(SerialSource, spec, port, baud=baud)
+    return _construct(SerialSource, spec, port)
+
+
+def _sim(spec: str) -> Source:
+    body = spec[len("sim:"):]
+    name, _, query = body.partition("?")
+    if not name:
+        raise UsageError(f"{spec}: sim: needs a scenario name, e.g. sim:steady")
+    kwargs: dict[str, Any] = {}
+    for key, value in parse_qsl(query, keep_blank_values=True, strict_parsing=False):
+        if key not in _SIM_PARAMS:
+            raise UsageError(f"{spec}: unknown parameter {key!r}; accepted: {', '.join(_SIM_PARAMS)}")
+        try:
+            if key == "seed":
+                kwargs["seed"] = int(value)
+            elif key == "loop":
+                if value.lower() not in ("0", "1", "true", "false", "yes", "no"):
+                    raise ValueError(value)
+                kwargs["loop"] = value.lower() in ("1", "true", "yes")
+            elif key == "speed" and value.lower() in ("max", "inf", ""):
+                kwargs["speed"] = None
+            else:
+                v = float(value)
+                if not math.isfinite(v) or v <= 0:
+                    raise ValueError(value)
+                kwargs[key] = v
+        except ValueError:
+            raise UsageError(f"{spec}: bad value {value!r} for {key}") from None
+    if query and not kwargs and "=" not in query:
+        raise UsageError(f"{spec}: cannot read the parameters {query!r}; write ?seed=1&rate=1000")
+    SimSource = _adapter("adapters.simulated", "SimSource", spec)
+    return _construct(SimSource, spec, name, **kwargs)
+
+
+def spec_is_path(spec: str) -> bool:
+    return _looks_like_file(spec) and os.path.exists(spec)
