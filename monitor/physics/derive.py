@@ -16,11 +16,33 @@ from monitor.physics.speeds import MEAN_FACTOR, MOST_PROBABLE_FACTOR, RMS_FACTOR
 from monitor.physics.uncertainty import SIGMA_KEYS, propagate, relative_squares
 from monitor.physics.validity import DeviceConsts, device_consts, validate_scalar, validate_vector
 
-__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS"]
+__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS"]
 
 INPUT_KEYS = ("ne", "Te", "Ti", "B", "p0")
+# What each derived quantity needs: input keys plus device constants L and f
+# (A, Z, Tgas and sigma_en always have device defaults).
+REQUIRES: dict[str, tuple[str, ...]] = {
+    "debye_length": ("ne", "Te"), "debye_number": ("ne", "Te"), "debye_ratio": ("ne", "Te", "L"),
+    "electron_plasma_frequency": ("ne",), "ion_plasma_frequency": ("ne",),
+    "electron_most_probable_speed": ("Te",), "electron_mean_speed": ("Te",), "electron_rms_speed": ("Te",),
+    "electron_thermal_speed": ("Te",), "coulomb_logarithm": ("ne", "Te"),
+    "electron_ion_collision_frequency": ("ne", "Te"), "electron_neutral_collision_frequency": ("p0", "Te"),
+    "electron_mean_free_path": ("ne", "Te"), "knudsen_number": ("ne", "Te", "L"),
+    "neutral_density": ("p0",), "ionization_fraction": ("ne", "p0"), "collectivity": ("ne", "Te"),
+    "electron_cyclotron_frequency": ("B",), "ion_cyclotron_frequency": ("B",),
+    "electron_gyroradius": ("Te", "B"), "ion_gyroradius": ("Ti", "B"), "hall_parameter": ("ne", "Te", "B"),
+    "plasma_beta": ("ne", "Te", "B"), "cutoff_density": ("f",), "cutoff_ratio": ("ne", "f"),
+}
 # Below this many samples a per-sample pure-Python pass beats numpy's call overhead.
 SCALAR_MAX = 8
+
+# Warning codes derive() may raise, with what they mean for the operator.
+WARNINGS: dict[str, str] = {
+    "coulomb_logarithm_small": "lnLambda < 2: Coulomb logarithm and collision rates outside their validity",
+    "coulomb_logarithm_cold_electrons": "Te < Ti me/mi: below the range of the Coulomb logarithm formula",
+    "relativistic_electrons": "Te > 50 keV: relativistic electrons, non-relativistic formulas are off",
+    "plasma_beta_electrons_only": "plasma_beta counts the electron pressure only (Ti not given)",
+}
 
 # Fused constants (see the per-kind modules for the formulas and sources).
 _K_LAMBDA = math.sqrt(C.EPSILON_0 / C.ELEMENTARY_CHARGE)                   # lambda_D = K sqrt(Te/ne)
