@@ -129,6 +129,8 @@ class CsvSource:
 
     # -- opening -------------------------------------------------------------------------------------
     def open(self) -> None:
+        if self._fh is not None:
+            return                  # already open (the session opens what a command opened)
         if not self.path.is_file():
             raise FatalSourceError(f"{self.path}: no such file")
         try:

@@ -127,6 +127,7 @@ class Recorder:
         self._last_fsync = 0.0
         self._pre: collections.deque[tuple[np.ndarray, dict[str, np.ndarray], np.ndarray | None]] = collections.deque()
         self._idle_events: collections.deque[AlarmEvent] = collections.deque(maxlen=1000)
+        self._last_raw: dict[str, tuple[float, dict[str, float]]] = {}
         self._shot_counter = 0
         self._shots = 0
         self._rows_written = 0
@@ -270,7 +271,7 @@ class Recorder:
         keys = [k for k in BASE_ORDER if k in base]
         return ("t", "seq", *keys, *[f"sigma_{k}" for k in keys if k in sigma])
 
-    def _header(self, columns: tuple[str, ...], shot: int, wall: float) -> str:
+    def _header(self, columns: tuple[str, ...], shot: int, wall: float, primed: int = 0) -> str:
         cfg = self.config
         raw = getattr(cfg, "raw", None)
         toml = dump_toml(raw) if isinstance(raw, Mapping) and raw else None
@@ -279,7 +280,10 @@ class Recorder:
         return header_block(columns, shot=shot, start_wall=wall, source=self.source_name, on_above=self.on_above,
                             limits=limits, config_toml=toml, config_path=str(path) if path else None,
                             extra=[("split", self.options.split), ("pre_trigger", repr(self.options.pre_trigger)),
-                                   ("post_trigger", repr(self.options.post_trigger))])
+                                   ("post_trigger", repr(self.options.post_trigger))]
+                            + ([("primed", f"{primed} rows with empty seq first: the last reading of a channel "
+                                           f"before the first row, still within its alignment hold")]
+                               if primed else []))
 
     def _open_shot(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray], row: int,
                    part: int = 1) -> None:
@@ -299,7 +303,9 @@ class Recorder:
             if part > 1:
                 stem_name += f"-part{part}"
             columns = self._columns_for(base, sigma)
-            self._stream = _Stream(folder / stem_name, columns, self._header(columns, self._shot_counter, wall),
+            primes = self._priming_rows(first_t) if part == 1 else []
+            self._stream = _Stream(folder / stem_name, columns,
+                                   self._header(columns, self._shot_counter, wall, len(primes)),
                                    self._journal_factory)
         except OSError as exc:
             self._stream = None
@@ -308,6 +314,9 @@ class Recorder:
             return
         if part == 1:
             self._shots += 1
+            for t_p, row in primes:
+                self._format(np.array([t_p]), {c: np.array([x]) for c, x in row.items()}, None, slice(None))
+                self._rows_idle -= 1
             pre, self._pre = list(self._pre), collections.deque()
             for t, vals, seq in pre:
                 self._format(t, vals, seq, slice(None))
@@ -374,24 +383,53 @@ class Recorder:
     def _keep_idle(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
                    a: int, b: int) -> None:
         self._rows_idle += b - a
-        if self.options.pre_trigger <= 0:
-            return
         t = np.asarray(frame.t[a:b])
         vals = {k: v[a:b] for k, v in base.items()}
         vals.update({f"sigma_{k}": v[a:b] for k, v in sigma.items()})
+        if self.options.pre_trigger <= 0:
+            self._remember(t, vals)
+            return
         seq = frame.seq[a:b] if frame.seq is not None else None
         self._pre.append((t, vals, seq))
         self._pre_trim(float(t[-1]), keep_from=float(t[-1]) - self.options.pre_trigger)
 
     def _pre_trim(self, now: float, keep_from: float) -> None:
         while self._pre and float(self._pre[0][0][-1]) < keep_from:
-            t, _, _ = self._pre.popleft()
-            del t
+            t, vals, _ = self._pre.popleft()
+            self._remember(t, vals)
         if self._pre:
             t, vals, seq = self._pre[0]
             k = int(np.searchsorted(t, keep_from, side="left"))
             if k:
+                self._remember(t[:k], {c: v[:k] for c, v in vals.items()})
                 self._pre[0] = (t[k:], {c: v[k:] for c, v in vals.items()}, seq[k:] if seq is not None else None)
+
+    def _remember(self, t: np.ndarray, vals: Mapping[str, np.ndarray]) -> None:
+        """Keep, per base key, the last reading that carried it among rows leaving the history."""
+        for key in BASE_ORDER:
+            v = vals.get(key)
+            if v is None or len(v) == 0:
+                continue
+            idx = np.flatnonzero(np.isfinite(v))
+            if len(idx):
+                i = int(idx[-1])
+                self._last_raw[key] = (float(t[i]), {c: float(x[i]) for c, x in vals.items()})
+
+    def _hold(self, key: str) -> float:
+        hold_for = getattr(self.config, "hold_for", None)
+        if callable(hold_for):
+            return float(hold_for(key))
+        return float(getattr(self.config, "max_age", 0.25))
+
+    def _priming_rows(self, first_t: float) -> list[tuple[float, dict[str, float]]]:
+        """The last reading of each base key before the file's first row, while its alignment hold
+        still covers that row: written first (seq left empty) so that a replay aligns as live did."""
+        rows: dict[float, dict[str, float]] = {}
+        for key, (t, row) in self._last_raw.items():
+            if t < first_t and first_t - t <= self._hold(key):
+                rows[t] = row
+        self._last_raw = {}
+        return sorted(rows.items())
 
     # -- writing ---------------------------------------------------------------------------------------
     def _maybe_flush(self, force: bool) -> None:

@@ -1,0 +1,148 @@
+"""`regime replay FILE`: a recording or any CSV with a header row through the same pipeline and alarms as live."""
+
+from __future__ import annotations
+
+import argparse
+import importlib.util
+import math
+import sys
+import threading
+import time
+from typing import Any
+
+from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
+
+__all__ = ["register", "run"]
+
+
+def register(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", metavar="FILE", help="a recording (CSV with # metadata) or any CSV with a header row")
+    parser.add_argument("--config", metavar="F", help="TOML config (envelope, device, channels); default: the "
+                                                      "config embedded in the recording, else the defaults")
+    parser.add_argument("--speed", metavar="X|max", default=None,
+                        help="times data time (1 = as recorded, 10 = ten times faster) or 'max' "
+                             "(default: max headless, 1 on the screen)")
+    parser.add_argument("--from", dest="start", metavar="T", type=float, help="start at data time T (s)")
+    parser.add_argument("--to", dest="stop", metavar="T", type=float, help="stop after data time T (s)")
+    parser.add_argument("--map", metavar="F", help="TOML file with a [channels] table for foreign columns, "
+                                                   "e.g. time_ms = {quantity = \"t\", unit = \"ms\"}")
+    parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
+    parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
+    parser.add_argument("--record", metavar="DIR", help="record the replay again into DIR")
+    parser.add_argument("--on-damage", choices=("stop", "skip"), default="stop",
+                        help="at an unreadable line: stop there (default) or reject it and go on")
+    parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+
+
+class _Progress:
+    """Progress on stderr for long headless replays: at most one line a second, after the first 2 s."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled
+        self.started = time.monotonic()
+        self.printed = False
+
+    def __call__(self, session: Any) -> None:
+        if not self.enabled or time.monotonic() - self.started < 2.0:
+            return
+        pos = session.replay_position()
+        summary = session.summary()
+        if pos is None:
+            return
+        span = (pos.end - pos.start) if pos.end is not None else math.nan
+        done = (pos.time - pos.start) / span if span and span > 0 else math.nan
+        pct = f"{100 * min(max(done, 0.0), 1.0):5.1f} %" if math.isfinite(done) else "  ? %"
+        print(f"regime replay: {pct}  t={pos.time:.3f} s  {summary.get('accepted', 0)} readings  "
+              f"{time.monotonic() - self.started:.0f} s", file=sys.stderr, flush=True)
+        self.printed = True
+
+
+def run(args: argparse.Namespace) -> int:
+    from adapters.base import FatalSourceError
+    from monitor.headless import HeadlessPrinter
+    from monitor.recording.replaying import open_file, parse_speed
+    from monitor.session import Session, make_engine
+
+    if args.json and not args.headless:
+        raise UsageError("--json needs --headless")
+    speed = parse_speed(args.speed) if args.speed is not None else (None if args.headless else 1.0)
+    for name in ("start", "stop"):
+        value = getattr(args, name)
+        if value is not None and not math.isfinite(value):
+            raise UsageError(f"--{'from' if name == 'start' else 'to'} must be a finite time in s")
+    try:
+        opened = open_file(args.file, config_path=args.config, map_path=args.map, speed=speed,
+                           start=args.start, stop=args.stop, on_damage=args.on_damage)
+    except FatalSourceError as exc:
+        print(f"regime replay: {exc}", file=sys.stderr)
+        return EXIT_SOURCE
+    config, source = opened.config, opened.source
+    engine = make_engine(config)
+    sinks: list[Any] = []
+    if args.record:
+        from monitor.recording import Recorder
+
+        sinks.append(Recorder(args.record, config, source_name=source.name))
+    session = Session(source, config, sinks, engine=engine, live=False)
+    if not args.headless:
+        return _screen(session, args)
+    printer = HeadlessPrinter(sys.stdout, as_json=args.json)
+    session.add_sink(printer)
+    progress = _Progress(not args.quiet)
+    stop = threading.Event()
+    from monitor.commands.watch import _install_signals, _restore_signals
+
+    previous = _install_signals(stop)
+
+    def every_second(s: Any) -> None:
+        printer.status(s.snapshot())
+        progress(s)
+
+    try:
+        session.open()
+        session.run(None, stop, on_interval=every_second, interval=1.0)
+    finally:
+        _restore_signals(previous)
+        session.close()
+        summary = dict(session.summary())
+        summary["file"] = str(args.file)
+        summary["config"] = opened.config_origin
+        summary["damage"] = None if source.damage is None else {"line": source.damage[0], "reason": source.damage[1]}
+        printer.status(session.snapshot())
+        printer.summary(summary)
+    if source.damage is not None:
+        print(f"regime replay: {args.file}: replayed up to line {source.damage[0]}, damaged there: "
+              f"{source.damage[1]}", file=sys.stderr)
+    if session.failure is not None:
+        print(f"regime replay: source failed: {session.failure}", file=sys.stderr)
+        return EXIT_SOURCE
+    return EXIT_OK
+
+
+def _screen(session: Any, args: argparse.Namespace) -> int:
+    try:
+        found = importlib.util.find_spec("monitor.tui.app") is not None
+    except ModuleNotFoundError:
+        found = False
+    if not found:
+        print("regime replay: the screen is not available in this build; use --headless", file=sys.stderr)
+        return EXIT_USAGE
+    try:
+        from monitor.tui.app import RegimeApp
+        from monitor.tui.feed import EventTap, SessionFeed
+    except ImportError as exc:
+        print(f"regime replay: the screen cannot start ({exc}); use --headless", file=sys.stderr)
+        return EXIT_USAGE
+    tap = EventTap()
+    session.add_sink(tap)
+    app = RegimeApp(SessionFeed(session, tap))
+    session.open()
+    try:
+        app.run()
+    finally:
+        app.stop.set()
+        session.close()
+    from monitor.headless import human_summary
+
+    print(human_summary(session.summary()))
+    return EXIT_SOURCE if session.failure is not None else EXIT_OK

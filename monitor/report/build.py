@@ -1,0 +1,231 @@
+"""Builds the post-shot report: replays the file through the session, then summarises limits, alarms, quantities and criteria."""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping
+
+import numpy as np
+
+from adapters.base import SourceStatus
+from adapters.batch import Rejection
+from monitor.alarms.events import AlarmEvent
+from monitor.model import Frame
+from monitor.quantities import ALL, BASE, DERIVED
+from monitor.recording.replaying import open_file, sibling
+from monitor.report.summary import (LimitSummary, QuantityStats, limit_summary, quantity_stats,
+                                    sample_durations)
+
+__all__ = ["Report", "Collector", "build_report", "engine_for"]
+
+_TRACE_POINTS = 4000
+
+
+class Collector:
+    """A sink keeping every frame's time and values (for the report; memory grows with the shot)."""
+
+    def __init__(self) -> None:
+        self.t: list[np.ndarray] = []
+        self.values: dict[str, list[np.ndarray]] = {}
+        self.valid: list[np.ndarray] = []
+        self.events: list[AlarmEvent] = []
+        self.rejections: dict[str, int] = {}
+        self.readings: dict[str, int] = {}      # base key -> readings that carried it (before the hold)
+        self.n = 0
+
+    def on_frame(self, frame: Frame) -> None:
+        n = len(frame.t)
+        if n == 0:
+            return
+        self.t.append(np.asarray(frame.t, dtype=np.float64))
+        for name, v in frame.values.items():
+            col = self.values.get(name)
+            if col is None:
+                col = self.values[name] = [np.full(self.n, np.nan)] if self.n else []
+            col.append(np.asarray(v, dtype=np.float64))
+        for name, col in self.values.items():
+            if name not in frame.values:
+                col.append(np.full(n, np.nan))
+        self.valid.append(np.asarray(frame.valid, dtype=bool) if frame.valid is not None else np.ones(n, dtype=bool))
+        for key, v in (frame.raw or {k: frame.values[k] for k in ("ne", "Te", "Ti", "B", "p0") if k in frame.values}).items():
+            self.readings[key] = self.readings.get(key, 0) + int(np.count_nonzero(np.isfinite(v)))
+        self.n += n
+
+    def on_rejections(self, rejections: list[Rejection]) -> None:
+        for r in rejections:
+            self.rejections[r.reason] = self.rejections.get(r.reason, 0) + 1
+
+    def on_alarm(self, event: AlarmEvent) -> None:
+        self.events.append(event)
+
+    def on_status(self, status: SourceStatus) -> None:
+        return None
+
+    def close(self) -> None:
+        return None
+
+    def arrays(self) -> tuple[np.ndarray, dict[str, np.ndarray], np.ndarray]:
+        t = np.concatenate(self.t) if self.t else np.empty(0)
+        values = {k: np.concatenate(v) if v else np.empty(0) for k, v in self.values.items()}
+        valid = np.concatenate(self.valid) if self.valid else np.empty(0, dtype=bool)
+        return t, values, valid
+
+
+@dataclass(frozen=True)
+class Report:
+    file: str
+    shot: int | None
+    source: str | None
+    start: str | None
+    config_origin: str
+    t_first: float | None
+    t_last: float | None
+    duration: float
+    discharge_on_s: float
+    samples: int
+    samples_by_quantity: Mapping[str, int]
+    rejected: Mapping[str, int]
+    lost: int
+    damage: str | None
+    limits: tuple[LimitSummary, ...]
+    alarm_origin: str
+    alarms: tuple[Mapping[str, Any], ...]
+    quantities: tuple[QuantityStats, ...]
+    verdicts: tuple[Mapping[str, Any], ...]
+    on_above: float
+    traces: Mapping[str, np.ndarray] = field(default_factory=dict, repr=False)
+    limit_specs: tuple[Any, ...] = field(default=(), repr=False)
+
+
+def engine_for(config: Any) -> Any:
+    """The alarm engine of the config, or None when the alarm package is not installed."""
+    try:
+        from monitor.alarms.engine import AlarmEngine
+    except ImportError:
+        return None
+    return AlarmEngine.from_config(config)
+
+
+def _run(source: Any, config: Any, sinks: list[Any], engine: Any) -> dict[str, Any]:
+    from monitor.session import Session
+
+    session = Session(source, config, sinks=sinks, engine=engine, live=False)
+    session.run()
+    summary = session.summary()
+    close = getattr(session, "close", None)
+    if close is not None:
+        close()
+    return dict(summary) if isinstance(summary, Mapping) else {}
+
+
+def _read_jsonl(path: Path, kind: str) -> list[dict[str, Any]]:
+    out: list[dict[str, Any]] = []
+    if not path.is_file():
+        return out
+    with open(path, encoding="utf-8", errors="replace") as fh:
+        for line in fh:
+            line = line.strip()
+            if not line:
+                continue
+            try:
+                obj = json.loads(line)
+            except json.JSONDecodeError:
+                continue            # a cut-off last line of a killed run
+            if isinstance(obj, dict) and obj.get("type", kind) == kind:
+                out.append(obj)
+    return out
+
+
+def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str, Any]]:
+    try:
+        from monitor.criteria import evaluate
+    except ImportError:
+        return []
+    medians: dict[str, float] = {}
+    for name, v in values.items():
+        sel = v[on & np.isfinite(v)] if len(v) == len(on) else v[np.isfinite(v)]
+        if len(sel):
+            medians[name] = float(np.median(sel))
+    if not medians:
+        return []
+    idx = np.flatnonzero(on)
+    picks = idx[np.linspace(0, len(idx) - 1, min(len(idx), 200)).astype(int)] if len(idx) else idx
+    held: dict[str, list[bool]] = {}
+    for i in picks:
+        sample = {k: float(v[i]) for k, v in values.items() if math.isfinite(float(v[i]))}
+        for verdict in evaluate(sample):
+            if verdict.holds is not None:
+                held.setdefault(verdict.name, []).append(bool(verdict.holds))
+    out = []
+    for verdict in evaluate(medians):
+        h = held.get(verdict.name)
+        out.append({"name": verdict.name, "holds": verdict.holds, "margin": verdict.margin, "text": verdict.text,
+                    "held_fraction": (sum(h) / len(h)) if h else None})
+    return out
+
+
+def _decimate(t: np.ndarray, values: Mapping[str, np.ndarray], names: list[str]) -> dict[str, np.ndarray]:
+    step = max(1, len(t) // _TRACE_POINTS)
+    out = {"t": t[::step]}
+    for n in names:
+        if n in values:
+            out[n] = values[n][::step]
+    return out
+
+
+def build_report(path: str | Path, *, config_path: str | None = None, map_path: str | None = None,
+                 use_journal: bool = True) -> Report:
+    """Replay ``path`` through the same pipeline and alarm engine as live, then summarise it."""
+    opened = open_file(path, config_path=config_path, map_path=map_path, speed=None)
+    config, info = opened.config, opened.info
+    collector = Collector()
+    engine = engine_for(config) if getattr(config, "limits", ()) else None
+    summary = _run(opened.source, config, [collector], engine)
+    t, values, _valid = collector.arrays()
+    on_above = float(getattr(config, "on_above", 1e15))
+    ne = values.get("ne", np.full(len(t), np.nan))
+    on = np.isfinite(ne) & (ne >= on_above)
+    dt = sample_durations(t, float(getattr(config, "stale_after", 2.0)))
+    limits = tuple(limit_summary(spec, t, values.get(spec.quantity, np.full(len(t), np.nan)), on, dt)
+                   for spec in getattr(config, "limits", ()))
+    units = {q.name: q.unit for q in ALL.values()}
+    order = [q.name for q in BASE + DERIVED]
+    stats = tuple(quantity_stats(values, units, order))
+    journal = sibling(path, ".alarms.jsonl")
+    if use_journal and config_path is None and journal.is_file():
+        alarms = tuple(_read_jsonl(journal, "alarm"))
+        alarm_origin = f"journal {journal.name}"
+    elif engine is not None:
+        alarms = tuple(e.to_json() for e in collector.events)
+        alarm_origin = "alarm engine run over the file"
+    else:
+        alarms, alarm_origin = (), "no limits configured"
+    rejected: dict[str, int] = {}
+    for rej in _read_jsonl(sibling(path, ".rejects.jsonl"), "rejection"):
+        reason = str(rej.get("reason", "?"))
+        rejected[reason] = rejected.get(reason, 0) + 1
+    live_rejected = sum(rejected.values())
+    for reason, n in dict(summary.get("rejected", {}) or {}).items():
+        rejected[reason] = rejected.get(reason, 0) + int(n)
+    # readings refused live are in the side file and leave seq gaps in the CSV: not lost twice
+    lost = max(0, int(summary.get("lost", 0) or 0) - live_rejected)
+    damage = None
+    if opened.source.damage is not None:
+        line, why = opened.source.damage
+        damage = f"line {line}: {why}"
+    limited = sorted({spec.quantity for spec in getattr(config, "limits", ())})
+    traces = _decimate(t, values, ["ne", "Te", "debye_length", "debye_number", *limited])
+    samples_by = {q.name: collector.readings[q.name] for q in BASE if q.name in collector.readings}
+    return Report(
+        file=str(path), shot=info.shot, source=info.source or opened.source.name, start=info.start,
+        config_origin=opened.config_origin,
+        t_first=float(t[0]) if len(t) else None, t_last=float(t[-1]) if len(t) else None,
+        duration=float(t[-1] - t[0]) if len(t) else 0.0, discharge_on_s=float(dt[on].sum()),
+        samples=int(len(t)), samples_by_quantity=samples_by, rejected=rejected, lost=lost, damage=damage,
+        limits=limits, alarm_origin=alarm_origin, alarms=alarms, quantities=stats,
+        verdicts=tuple(_verdicts(values, on)), on_above=on_above, traces=traces,
+        limit_specs=tuple(getattr(config, "limits", ())),
+    )

@@ -1,0 +1,118 @@
+"""The report's figure (matplotlib, the optional extra `plot`): time traces with limits shaded, and the ne-Te path."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from monitor.errors import UsageError
+from monitor.physics.constants import ELEMENTARY_CHARGE, EPSILON_0, PI
+from monitor.quantities import ALL
+from monitor.report.build import Report
+
+__all__ = ["plot_report", "te_for_debye_length", "te_for_debye_number"]
+
+
+def te_for_debye_length(ne: np.ndarray, length: float) -> np.ndarray:
+    """Te (eV) at which the Debye length sqrt(eps0 Te / (e ne)) equals ``length`` (m)."""
+    return length**2 * ne * ELEMENTARY_CHARGE / EPSILON_0
+
+
+def te_for_debye_number(ne: np.ndarray, number: float) -> np.ndarray:
+    """Te (eV) at which (4/3) pi ne lambda_D^3 equals ``number``."""
+    lam = (3.0 * number / (4.0 * PI * ne)) ** (1.0 / 3.0)
+    return te_for_debye_length(ne, lam)
+
+
+def _shade(ax: Any, low: float | None, high: float | None) -> None:
+    if high is not None:
+        ax.axhline(high, color="tab:red", lw=0.8, ls="--")
+        ax.axhspan(high, high * 1e6 if high > 0 else high + 1e300, color="tab:red", alpha=0.12, lw=0)
+    if low is not None:
+        ax.axhline(low, color="tab:red", lw=0.8, ls="--")
+        ax.axhspan(low * 1e-6 if low > 0 else -1e300, low, color="tab:red", alpha=0.12, lw=0)
+
+
+def plot_report(report: Report, out: str | Path) -> Path:
+    """Draw the figure to ``out`` (PNG). UsageError when matplotlib is not installed."""
+    try:
+        import matplotlib
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+    except ImportError:
+        raise UsageError("--plot needs matplotlib: pip install 'regime[plot]' (or pip install matplotlib)") from None
+    tr = report.traces
+    t = np.asarray(tr.get("t", np.empty(0)))
+    t_rel = t - t[0] if len(t) else t
+    specs = list(report.limit_specs)
+    names = ["ne", "Te", "debye_length"]
+    names += [q for q in dict.fromkeys(s.quantity for s in specs) if q not in names]
+    names = [n for n in names if n in tr]
+    fig = plt.figure(figsize=(13, max(6.0, 2.1 * len(names))), constrained_layout=True)
+    grid = fig.add_gridspec(max(len(names), 1), 2, width_ratios=[1.6, 1.0])
+    axes = []
+    for i, name in enumerate(names):
+        ax = fig.add_subplot(grid[i, 0], sharex=axes[0] if axes else None)
+        axes.append(ax)
+        v = np.asarray(tr[name])
+        ax.plot(t_rel, v, lw=0.9, color="tab:blue")
+        finite = v[np.isfinite(v)]
+        if len(finite) and finite.min() > 0 and finite.max() / finite.min() > 30:
+            ax.set_yscale("log")
+        lims = ax.get_ylim()
+        for s in specs:
+            if s.quantity == name:
+                _shade(ax, s.low, s.high)
+        ax.set_ylim(lims)
+        unit = ALL[name].unit if name in ALL else ""
+        ax.set_ylabel(f"{name}\n[{unit}]", fontsize=9)
+        ax.grid(True, alpha=0.3)
+        if i < len(names) - 1:
+            ax.tick_params(labelbottom=False)
+    if axes:
+        axes[-1].set_xlabel(f"time since {t[0]:.6g} s (data time) [s]" if len(t) else "time [s]")
+        title = f"shot {report.shot}" if report.shot is not None else Path(report.file).name
+        axes[0].set_title(f"{title}: traces (red: outside the envelope)", fontsize=10)
+    ax = fig.add_subplot(grid[:, 1])
+    ne = np.asarray(tr.get("ne", np.empty(0)))
+    te = np.asarray(tr.get("Te", np.empty(0)))
+    ok = np.isfinite(ne) & np.isfinite(te) & (ne > 0) & (te > 0)
+    if ok.any():
+        lo_n, hi_n = ne[ok].min() / 10, ne[ok].max() * 10
+        lo_t, hi_t = te[ok].min() / 5, te[ok].max() * 5
+    else:
+        lo_n, hi_n, lo_t, hi_t = 1e14, 1e20, 0.1, 100.0
+    grid_n = np.logspace(math.log10(lo_n), math.log10(hi_n), 200)
+    for exp in range(-7, 0):
+        lam = 10.0**exp
+        ax.plot(grid_n, te_for_debye_length(grid_n, lam), color="0.6", lw=0.7, ls="-")
+        _label(ax, grid_n, te_for_debye_length(grid_n, lam), f"λD=1e{exp} m", lo_t, hi_t, "0.4")
+    for exp in range(1, 10):
+        nd = 10.0**exp
+        ax.plot(grid_n, te_for_debye_number(grid_n, nd), color="tab:green", lw=0.7, ls=":")
+        _label(ax, grid_n, te_for_debye_number(grid_n, nd), f"N_D=1e{exp}", lo_t, hi_t, "tab:green")
+    if ok.any():
+        sc = ax.scatter(ne[ok], te[ok], c=t_rel[ok], s=6, cmap="viridis", zorder=3)
+        fig.colorbar(sc, ax=ax, label="time [s]", shrink=0.6)
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    ax.set_xlim(lo_n, hi_n)
+    ax.set_ylim(lo_t, hi_t)
+    ax.set_xlabel("ne [m^-3]")
+    ax.set_ylabel("Te [eV]")
+    ax.set_title("path on the ne-Te plane\n(grey: constant Debye length, green dotted: constant N_D)", fontsize=10)
+    ax.grid(True, which="major", alpha=0.2)
+    out = Path(out)
+    fig.savefig(out, dpi=110)
+    plt.close(fig)
+    return out
+
+
+def _label(ax: Any, x: np.ndarray, y: np.ndarray, text: str, lo: float, hi: float, color: str) -> None:
+    inside = np.flatnonzero((y > lo) & (y < hi))
+    if len(inside):
+        i = inside[len(inside) // 2]
+        ax.text(x[i], y[i], text, fontsize=7, color=color, rotation=0, ha="center", va="bottom", clip_on=True)

@@ -1,0 +1,119 @@
+"""The report as Markdown (for people) and as one JSON object (for tools)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict
+from typing import Any
+
+from monitor.report.build import Report
+
+__all__ = ["to_markdown", "to_json"]
+
+
+def _g(x: float | None, digits: int = 4) -> str:
+    if x is None or (isinstance(x, float) and math.isnan(x)):
+        return "-"
+    return f"{x:.{digits}g}"
+
+
+def _num(x: Any) -> Any:
+    if isinstance(x, float) and not math.isfinite(x):
+        return None
+    return x
+
+
+def _clean(obj: Any) -> Any:
+    if isinstance(obj, dict):
+        return {k: _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    return _num(obj)
+
+
+def to_json(report: Report) -> dict[str, Any]:
+    """Every figure of the report; NaN and infinities as null."""
+    out = {
+        "type": "report",
+        "file": report.file, "shot": report.shot, "source": report.source, "start": report.start,
+        "config": report.config_origin, "on_above": report.on_above,
+        "t_first": report.t_first, "t_last": report.t_last, "duration_s": report.duration,
+        "discharge_on_s": report.discharge_on_s,
+        "samples": report.samples, "readings": dict(report.samples_by_quantity),
+        "rejected": dict(report.rejected), "lost": report.lost, "damage": report.damage,
+        "limits": [
+            {"name": s.name, "quantity": s.quantity, "low": s.low, "high": s.high,
+             "evaluated_s": s.evaluated_s, "inside_s": s.inside_s, "inside_fraction": s.fraction,
+             "excursions": [asdict(e) for e in s.excursions]}
+            for s in report.limits
+        ],
+        "alarm_source": report.alarm_origin,
+        "alarms": [dict(a) for a in report.alarms],
+        "quantities": {q.name: {"unit": q.unit, "n": q.n, "min": q.min, "median": q.median, "max": q.max}
+                       for q in report.quantities},
+        "criteria": [dict(v) for v in report.verdicts],
+    }
+    return _clean(out)
+
+
+def to_markdown(report: Report) -> str:
+    lines: list[str] = []
+    title = f"shot {report.shot}" if report.shot is not None else report.file
+    lines += [f"# Report: {title}", ""]
+    lines += [f"- file: `{report.file}`",
+              f"- source: {report.source or '-'}",
+              f"- start: {report.start or '-'}",
+              f"- envelope: {report.config_origin}",
+              f"- data time: {_g(report.t_first, 10)} s to {_g(report.t_last, 10)} s "
+              f"(duration {report.duration:.3f} s, discharge on {report.discharge_on_s:.3f} s "
+              f"with ne >= {report.on_above:.3g} m^-3)",
+              f"- samples: {report.samples}; readings: "
+              + (", ".join(f"{k} {n}" for k, n in report.samples_by_quantity.items()) or "-"),
+              f"- rejected: {sum(report.rejected.values())}"
+              + (" (" + ", ".join(f"{k} {n}" for k, n in sorted(report.rejected.items())) + ")"
+                 if report.rejected else ""),
+              f"- lost (sequence gaps): {report.lost}"]
+    if report.damage:
+        lines.append(f"- **damaged file**: replayed up to {report.damage}")
+    lines += ["", "## Envelope", ""]
+    if not report.limits:
+        lines.append("No limits configured.")
+    else:
+        lines += ["| limit | quantity | low | high | evaluated (s) | inside (s) | inside | excursions |",
+                  "|---|---|---|---|---|---|---|---|"]
+        for s in report.limits:
+            frac = "-" if s.fraction is None else f"{100 * s.fraction:.1f} %"
+            lines.append(f"| {s.name} | {s.quantity} | {_g(s.low)} | {_g(s.high)} | {s.evaluated_s:.3f} | "
+                         f"{s.inside_s:.3f} | {frac} | {len(s.excursions)} |")
+        excursions = sorted((e for s in report.limits for e in s.excursions), key=lambda e: e.start)
+        lines += ["", "### Excursions", ""]
+        if not excursions:
+            lines.append("None: every limit held while the discharge was on.")
+        else:
+            lines += ["| limit | side | start (s) | end (s) | duration (s) | peak | limit value |",
+                      "|---|---|---|---|---|---|---|"]
+            for e in excursions:
+                lines.append(f"| {e.limit} | {e.side} | {_g(e.start, 10)} | {_g(e.end, 10)} | {e.duration:.3f} | "
+                             f"{_g(e.peak)} | {_g(e.bound)} |")
+    lines += ["", f"## Alarm timeline ({report.alarm_origin})", ""]
+    if not report.alarms:
+        lines.append("No alarm events.")
+    else:
+        lines += ["| data time (s) | alarm | state | previous | value | limit | priority | action |",
+                  "|---|---|---|---|---|---|---|---|"]
+        for a in report.alarms:
+            lines.append(f"| {_g(a.get('time'), 10)} | {a.get('alarm')} | {a.get('state')} | {a.get('previous', '-')} | "
+                         f"{_g(a.get('value'))} | {_g(a.get('limit'))} | {a.get('priority', '-')} | "
+                         f"{a.get('action') or '-'} |")
+    lines += ["", "## Quantities", "", "| quantity | unit | n | min | median | max |", "|---|---|---|---|---|---|"]
+    for q in report.quantities:
+        lines.append(f"| {q.name} | {q.unit} | {q.n} | {_g(q.min)} | {_g(q.median)} | {_g(q.max)} |")
+    lines += ["", "## Plasma criteria (at the shot's median values, discharge on)", ""]
+    if not report.verdicts:
+        lines.append("No criteria could be evaluated (no discharge-on samples, or the criteria module is absent).")
+    for v in report.verdicts:
+        mark = {True: "holds", False: "FAILS", None: "n/a"}[v.get("holds")]
+        share = v.get("held_fraction")
+        extra = f" (held at {100 * share:.0f} % of sampled discharge-on points)" if share is not None else ""
+        lines.append(f"- {mark}: {v.get('text')}{extra}")
+    return "\n".join(lines) + "\n"
