@@ -82,7 +82,9 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     the latest time seen, its seq (if any) is above the latest seq seen, every
     value it carries is finite, positive where the quantity must be, and not
     absurd, and it carries at least one known channel. The first failing
-    check names the reason. Seq gaps between readings that pass the seq check
+    check names the reason (time first, then seq, then values). Only accepted
+    readings move the time reference on; every reading with a seq moves the
+    seq reference on (a refused reading was received, so it is not lost). Seq gaps between readings that pass the seq check
     count as lost readings.
     """
     n = len(t)
@@ -119,12 +121,13 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
         lost = int((s[fresh] - before[fresh] - 1).sum())
         state.last_seq = int(max(int(s.max()), start))
     tf = np.isfinite(t)
-    tt = np.where(tf, t, -np.inf)
+    # only readings that passed every other check set the time reference, so a
+    # refused reading with a wild time cannot block the ones after it
+    tt = np.where(tf & (code == 0), t, -np.inf)
     tbefore = _before(tt, state.last_t)
     _set(code, tf & (t < tbefore), reasons, "time_backwards")
     _set(code, ~tf, reasons, "time_not_finite")
-    if tf.any():
-        state.last_t = float(max(state.last_t, tt.max()))
+    state.last_t = float(max(state.last_t, tt.max()))
     return Verdict(code, tuple(reasons), lost)
 
 

@@ -1,0 +1,139 @@
+"""Config: defaults, units, channel map, per-key holds, and errors that name file and key (exit 2 on the CLI)."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import pytest
+
+from monitor.config import load_config
+from monitor.errors import ConfigError
+
+# CODATA 2018 exact: k/e in eV per kelvin (via scipy.constants in the physics tests; exact by definition)
+EV_PER_K = 1.380649e-23 / 1.602176634e-19
+
+
+def write(tmp_path: Path, text: str, name: str = "run.toml") -> Path:
+    p = tmp_path / name
+    p.write_text(textwrap.dedent(text), encoding="utf-8")
+    return p
+
+
+def test_no_config_gives_defaults() -> None:
+    c = load_config(None)
+    assert c.path is None
+    assert c.on_above == 1e15 and c.stale_after == 2.0 and c.max_age == 0.25
+    assert c.channels.quantities() == ("ne", "Te", "Ti", "B", "p0")
+    assert c.device.ion_mass_u == pytest.approx(39.948)
+    assert c.hold_for("Te") == 0.25
+
+
+def test_full_config_with_units(tmp_path: Path) -> None:
+    p = write(tmp_path, """
+        [device]
+        length = "30cm"
+        A = 4.0026
+        Z = 1
+        gas_temperature = 300
+        wave_frequency = "2.45GHz"
+        sigma_en = "1e-15cm^2"
+        [discharge]
+        on_above = "1e9cm^-3"
+        [sources]
+        stale_after = "1500ms"
+        max_age = { default = "100ms", Te = "0.5s" }
+        [channels]
+        dens = { quantity = "ne", unit = "cm^-3", uncertainty = "20%" }
+        temp = { quantity = "Te", unit = "K", uncertainty = "500K" }
+        [pipeline]
+        window = "5s"
+        bins = 50
+    """)
+    c = load_config(p)
+    assert c.path == str(p)
+    assert c.device.length == pytest.approx(0.3)
+    assert c.device.ion_mass_u == pytest.approx(4.0026)
+    assert c.device.wave_frequency == pytest.approx(2.45e9)
+    assert c.device.sigma_en == pytest.approx(1e-19)
+    assert c.on_above == pytest.approx(1e15)
+    assert c.stale_after == pytest.approx(1.5)
+    assert c.max_age == pytest.approx(0.1)
+    assert c.hold_for("Te") == pytest.approx(0.5) and c.hold_for("ne") == pytest.approx(0.1)
+    dens = c.channels.channels["dens"]
+    assert dens.quantity == "ne" and dens.scale == pytest.approx(1e6) and dens.sigma_rel == pytest.approx(0.2)
+    temp = c.channels.channels["temp"]
+    assert temp.scale == pytest.approx(EV_PER_K) and temp.sigma_abs == pytest.approx(500 * EV_PER_K)
+    # the identity defaults stay beside the configured keys, after them
+    assert list(c.channels.channels)[:2] == ["dens", "temp"] and "ne" in c.channels.channels
+    assert c.pipeline.window == 5.0 and c.pipeline.bins == 50
+
+
+@pytest.mark.parametrize("text, key", [
+    ("[devices]\nlength = 1\n", "devices"),
+    ("[device]\nlenght = 0.3\n", "device.lenght"),
+    ("[device]\nlength = \"30 parsecs\"\n", "device.length"),
+    ("[device]\nlength = -1\n", "device.length"),
+    ("[discharge]\non_above = \"1e15 furlongs\"\n", "discharge.on_above"),
+    ("[sources]\nstale_after = 0\n", "sources.stale_after"),
+    ("[sources]\nmax_age = { Tx = 1 }\n", "sources.max_age.Tx"),
+    ("[channels]\ndens = { quantity = \"density\" }\n", "channels.dens.quantity"),
+    ("[channels]\ndens = { quantity = \"ne\", unit = \"kg\" }\n", "channels.dens.unit"),
+    ("[channels]\ndens = { quantity = \"ne\", uncertainty = \"lots\" }\n", "channels.dens.uncertainty"),
+    ("[channels]\ndens = { quantity = \"ne\", scale = 2 }\n", "channels.dens.scale"),
+    ("[channels]\ndens = { unit = \"cm^-3\" }\n", "channels.dens.quantity"),
+    ("[pipeline]\nbins = 0\n", "pipeline.bins"),
+    ("[device\n", "(syntax)"),
+])
+def test_errors_name_file_and_key(tmp_path: Path, text: str, key: str) -> None:
+    p = write(tmp_path, text)
+    with pytest.raises(ConfigError) as info:
+        load_config(p)
+    assert info.value.key == key
+    assert str(p) in str(info.value) and key in str(info.value)
+
+
+def test_missing_file_is_a_config_error(tmp_path: Path) -> None:
+    with pytest.raises(ConfigError) as info:
+        load_config(tmp_path / "absent.toml")
+    assert "absent.toml" in str(info.value)
+
+
+def test_limit_and_alarm_tables_reach_their_parsers(tmp_path: Path) -> None:
+    pytest.importorskip("monitor.alarms.envelope")
+    p = write(tmp_path, """
+        [[limit]]
+        name = "debye-long"
+        quantity = "debye_length"
+        high = "40um"
+        [alarms]
+        flood_count = 12
+    """)
+    c = load_config(p)
+    assert [lim.name for lim in c.limits] == ["debye-long"]
+    assert c.limits[0].high == pytest.approx(4e-5)
+    assert c.alarms.flood_count == 12
+    bad = write(tmp_path, "[[limit]]\nname = \"x\"\nquantity = \"no_such_thing\"\nhigh = 1\n", "bad.toml")
+    with pytest.raises(ConfigError) as info:      # the alarm parser's errors propagate
+        load_config(bad)
+    assert "bad.toml" in str(info.value)
+
+
+def test_recording_table_reaches_its_parser(tmp_path: Path) -> None:
+    pytest.importorskip("monitor.recording.options")
+    c = load_config(write(tmp_path, "[recording]\npre_trigger = \"500ms\"\n"))
+    assert c.recording.pre_trigger == pytest.approx(0.5)
+    with pytest.raises(ConfigError):
+        load_config(write(tmp_path, "[recording]\nno_such_option = 1\n", "r2.toml"))
+
+
+def test_cli_exits_2_naming_file_and_key(tmp_path: Path) -> None:
+    p = write(tmp_path, "[channels]\ntemp = { quantity = \"Te\", unit = \"furlong\" }\n")
+    out = subprocess.run([sys.executable, "-m", "monitor", "watch", "sim:steady", "--headless",
+                          "--config", str(p), "--duration", "1"],
+                         capture_output=True, text=True, timeout=60)
+    assert out.returncode == 2, out.stderr
+    assert str(p) in out.stderr and "channels.temp.unit" in out.stderr
+    assert out.stdout == ""

@@ -1,0 +1,88 @@
+"""Validation: every refused reading counted by reason and kept; time and seq order; seq gaps counted as lost."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from monitor.config import Config
+from monitor.pipeline import Pipeline
+from pipeline_helpers import make_batch
+
+
+def run(*batches):
+    p = Pipeline(Config())
+    frames = [p.process(b) for b in batches]
+    return p, frames
+
+
+def test_bad_values_rejected_by_reason_and_kept_as_lines() -> None:
+    ne = [1e17, np.nan, np.inf, 0.0, -1e16, 2e33, 1e17, 1e17, 1e17]
+    te = [3.0, 3.0, 3.0, 3.0, 3.0, 3.0, -2.0, 2e7, np.nan]
+    b = make_batch(np.arange(9) * 0.01, ne=ne, Te=te, B=[0.0, -0.1, 0, 0, 0, 0, 0, 0, 0])
+    p, (frame,) = run(b)
+    c = p.counts()["probe"]
+    assert c.accepted == 3          # rows 0, 1 (Te only + B), 8 (ne only)
+    assert dict(c.rejected) == {"ne_not_finite": 1, "ne_not_positive": 2, "ne_absurd": 1,
+                                "Te_not_positive": 1, "Te_absurd": 1}
+    np.testing.assert_array_equal(frame.t, [0.0, 0.01, 0.08])
+    rej = p.drain_rejections()
+    assert [r.reason for r in rej] == ["ne_not_finite", "ne_not_positive", "ne_not_positive", "ne_absurd",
+                                       "Te_not_positive", "Te_absurd"]
+    assert rej[1].raw == b"t=0.03 ne=0.0 Te=3.0 B=0.0"
+    assert rej[0].raw == b"t=0.02 ne=inf Te=3.0 B=0.0"
+    assert all(r.source == "probe" for r in rej)
+    assert p.drain_rejections() == []               # handed over once
+    assert len(p.rejected_samples) == 6              # and kept in the ring
+
+
+def test_empty_rows_and_bad_times() -> None:
+    b = make_batch([0.0, np.nan, 0.2, 0.1, 0.2, 0.3], ne=[1e17, 1e17, 1e17, 1e17, 1e17, np.nan])
+    p, (frame,) = run(b)
+    c = p.counts()["probe"]
+    assert dict(c.rejected) == {"time_not_finite": 1, "time_backwards": 1, "no_channels": 1}
+    np.testing.assert_array_equal(frame.t, [0.0, 0.2, 0.2])     # equal times are not backwards
+    # time order is kept across batches too
+    p.process(make_batch([0.15, 0.25], ne=[1e17, 1e17]))
+    assert p.counts()["probe"].rejected["time_backwards"] == 2
+
+
+def test_seq_duplicates_backwards_and_gaps() -> None:
+    b1 = make_batch(np.arange(6) * 0.01, seq=[10, 11, 11, 14, 12, 15], ne=[1e17] * 6)
+    b2 = make_batch(0.1 + np.arange(3) * 0.01, seq=[15, 20, 21], ne=[1e17] * 3)
+    p, (f1, f2) = run(b1, b2)
+    c = p.counts()["probe"]
+    assert dict(c.rejected) == {"seq_duplicate": 2, "seq_backwards": 1}
+    assert c.lost == 2 + 4          # 12, 13 missing before 14 (12 arrived late: refused); 16..19
+    np.testing.assert_array_equal(f1.seq, [10, 11, 14, 15])
+    np.testing.assert_array_equal(f2.seq, [20, 21])
+    assert c.accepted == 6
+
+
+def test_first_seq_sets_the_baseline() -> None:
+    p, _ = run(make_batch([0.0, 0.1], seq=[5000, 5001], ne=[1e17, 1e17]))
+    assert p.counts()["probe"].lost == 0
+
+
+def test_restarted_publisher_starts_over() -> None:
+    b1 = make_batch(np.arange(1500) * 1e-3, seq=np.arange(1500), ne=1e17)
+    b2 = make_batch(np.arange(10) * 1e-3, seq=np.arange(10), ne=1e17)     # time and seq begin again
+    p, (_, f2) = run(b1, b2)
+    c = p.counts()["probe"]
+    assert len(f2) == 10 and c.accepted == 1510 and c.lost == 0 and not c.rejected
+    assert p.restarts()["probe"] == 1
+
+
+def test_adapter_rejections_are_counted_too() -> None:
+    from adapters.batch import Rejection
+    p = Pipeline(Config())
+    p.reject([Rejection("probe", "malformed", b"ne=abc", 0.0), Rejection("probe", "malformed", b"??", 0.0),
+              Rejection("probe", "oversized", b"x" * 10, 0.0)])
+    assert dict(p.counts()["probe"].rejected) == {"malformed": 2, "oversized": 1}
+    assert len(p.rejected_samples) == 3
+
+
+@pytest.mark.parametrize("key, bad", [("Ti", 0.0), ("p0", -1.0), ("B", 2e4), ("Ti", np.inf)])
+def test_other_base_keys(key: str, bad: float) -> None:
+    p, (frame,) = run(make_batch([0.0, 0.1], ne=[1e17, 1e17], **{key: [1.0, bad]}))
+    assert len(frame) == 1 and sum(p.counts()["probe"].rejected.values()) == 1
