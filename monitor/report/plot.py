@@ -63,6 +63,7 @@ def plot_report(report: Report, out: str | Path) -> Path:
         if len(finite) and finite.min() > 0 and finite.max() / finite.min() > 30:
             ax.set_yscale("log")
         lims = ax.get_ylim()
+        _shade_off(ax, t_rel, np.asarray(tr.get("ne", np.full(len(t), np.nan))), report.on_above)
         for s in specs:
             if s.quantity == name:
                 _shade(ax, s.low, s.high)
@@ -73,9 +74,9 @@ def plot_report(report: Report, out: str | Path) -> Path:
         if i < len(names) - 1:
             ax.tick_params(labelbottom=False)
     if axes:
-        axes[-1].set_xlabel(f"time since {t[0]:.6g} s (data time) [s]" if len(t) else "time [s]")
+        axes[-1].set_xlabel(f"time since the first sample (data time {t[0]:.3f} s) [s]" if len(t) else "time [s]")
         title = f"shot {report.shot}" if report.shot is not None else Path(report.file).name
-        axes[0].set_title(f"{title}: traces (red: outside the envelope)", fontsize=10)
+        axes[0].set_title(f"{title}: traces (red: outside the envelope, grey: discharge off)", fontsize=10)
     ax = fig.add_subplot(grid[:, 1])
     ne = np.asarray(tr.get("ne", np.empty(0)))
     te = np.asarray(tr.get("Te", np.empty(0)))
@@ -109,6 +110,17 @@ def plot_report(report: Report, out: str | Path) -> Path:
     fig.savefig(out, dpi=110)
     plt.close(fig)
     return out
+
+
+def _shade_off(ax: Any, t: np.ndarray, ne: np.ndarray, on_above: float) -> None:
+    """Grey bands where the discharge is off (ne below on_above): limits are not evaluated there."""
+    off = ~(np.isfinite(ne) & (ne >= on_above))
+    if not off.any() or len(t) < 2:
+        return
+    m = np.concatenate(([False], off, [False])).astype(np.int8)
+    edges = np.flatnonzero(np.diff(m))
+    for a, b in zip(edges[0::2], edges[1::2]):
+        ax.axvspan(t[a], t[min(b, len(t) - 1)], color="0.85", alpha=0.6, lw=0)
 
 
 def _label(ax: Any, x: np.ndarray, y: np.ndarray, text: str, lo: float, hi: float, color: str) -> None:

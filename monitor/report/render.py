@@ -48,7 +48,8 @@ def to_json(report: Report) -> dict[str, Any]:
             for s in report.limits
         ],
         "alarm_source": report.alarm_origin,
-        "alarms": [dict(a) for a in report.alarms],
+        "alarms": [{**dict(a), "t_rel": (a["time"] - report.t_first) if isinstance(a.get("time"), (int, float))
+                    and report.t_first is not None else None} for a in report.alarms],
         "quantities": {q.name: {"unit": q.unit, "n": q.n, "min": q.min, "median": q.median, "max": q.max}
                        for q in report.quantities},
         "criteria": [dict(v) for v in report.verdicts],
@@ -58,13 +59,15 @@ def to_json(report: Report) -> dict[str, Any]:
 
 def to_markdown(report: Report) -> str:
     lines: list[str] = []
+    t0 = report.t_first if report.t_first is not None else 0.0
     title = f"shot {report.shot}" if report.shot is not None else report.file
     lines += [f"# Report: {title}", ""]
     lines += [f"- file: `{report.file}`",
               f"- source: {report.source or '-'}",
               f"- start: {report.start or '-'}",
               f"- envelope: {report.config_origin}",
-              f"- data time: {_g(report.t_first, 10)} s to {_g(report.t_last, 10)} s "
+              f"- data time: {report.t_first if report.t_first is not None else math.nan:.6f} s to "
+              f"{report.t_last if report.t_last is not None else math.nan:.6f} s "
               f"(duration {report.duration:.3f} s, discharge on {report.discharge_on_s:.3f} s "
               f"with ne >= {report.on_above:.3g} m^-3)",
               f"- samples: {report.samples}; readings: "
@@ -86,23 +89,25 @@ def to_markdown(report: Report) -> str:
             lines.append(f"| {s.name} | {s.quantity} | {_g(s.low)} | {_g(s.high)} | {s.evaluated_s:.3f} | "
                          f"{s.inside_s:.3f} | {frac} | {len(s.excursions)} |")
         excursions = sorted((e for s in report.limits for e in s.excursions), key=lambda e: e.start)
-        lines += ["", "### Excursions", ""]
+        lines += ["", f"### Excursions (times in s from the first sample, data time {t0:.6f} s)", ""]
         if not excursions:
             lines.append("None: every limit held while the discharge was on.")
         else:
             lines += ["| limit | side | start (s) | end (s) | duration (s) | peak | limit value |",
                       "|---|---|---|---|---|---|---|"]
             for e in excursions:
-                lines.append(f"| {e.limit} | {e.side} | {_g(e.start, 10)} | {_g(e.end, 10)} | {e.duration:.3f} | "
+                lines.append(f"| {e.limit} | {e.side} | {e.start - t0:.3f} | {e.end - t0:.3f} | {e.duration:.3f} | "
                              f"{_g(e.peak)} | {_g(e.bound)} |")
-    lines += ["", f"## Alarm timeline ({report.alarm_origin})", ""]
+    lines += ["", f"## Alarm timeline ({report.alarm_origin}; s from the first sample)", ""]
     if not report.alarms:
         lines.append("No alarm events.")
     else:
         lines += ["| data time (s) | alarm | state | previous | value | limit | priority | action |",
                   "|---|---|---|---|---|---|---|---|"]
         for a in report.alarms:
-            lines.append(f"| {_g(a.get('time'), 10)} | {a.get('alarm')} | {a.get('state')} | {a.get('previous', '-')} | "
+            at = a.get("time")
+            when = f"{at - t0:.3f}" if isinstance(at, (int, float)) else "-"
+            lines.append(f"| {when} | {a.get('alarm')} | {a.get('state')} | {a.get('previous', '-')} | "
                          f"{_g(a.get('value'))} | {_g(a.get('limit'))} | {a.get('priority', '-')} | "
                          f"{a.get('action') or '-'} |")
     lines += ["", "## Quantities", "", "| quantity | unit | n | min | median | max |", "|---|---|---|---|---|---|"]

@@ -69,26 +69,68 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return list(zip(edges[0::2].tolist(), edges[1::2].tolist()))
 
 
+def _outside(known: np.ndarray, enter: np.ndarray, stay: np.ndarray) -> np.ndarray:
+    """Hysteresis: an excursion starts at a known sample beyond the limit (``enter``) and ends at
+    the next known sample back inside by the deadband (not ``stay``); samples where the quantity
+    is not evaluated (unknown, discharge off) neither end it nor count as outside."""
+    n = len(known)
+    if n == 0:
+        return np.zeros(0, dtype=bool)
+    idx = np.arange(n)
+    last_enter = np.maximum.accumulate(np.where(enter & known, idx, -1))
+    last_break = np.maximum.accumulate(np.where(known & ~stay, idx, -1))
+    return last_enter > last_break
+
+
+def _merge(runs: list[tuple[int, int]], t: np.ndarray, gap: float) -> list[tuple[int, int]]:
+    """Join runs whose gap (first sample back inside to the next one outside) is shorter than ``gap`` s."""
+    out: list[tuple[int, int]] = []
+    for a, b in runs:
+        if out and b > a and out[-1][1] < len(t) and t[a] - t[out[-1][1]] < gap:
+            out[-1] = (out[-1][0], b)
+        else:
+            out.append((a, b))
+    return out
+
+
 def limit_summary(spec: Any, t: np.ndarray, value: np.ndarray, on: np.ndarray, dt: np.ndarray) -> LimitSummary:
     """Time inside ``spec`` (low <= value <= high) over the samples with the discharge on and the
-    value known, and each excursion, separately for the high and the low side."""
+    value known, and each excursion, separately for the high and the low side. An excursion starts
+    at the first sample beyond the limit and lasts while the value stays beyond the limit less the
+    limit's deadband (the alarm's own hysteresis); excursions closer than the limit's off_delay
+    are one excursion (as the alarm would see them)."""
     name = str(getattr(spec, "name", "?"))
     quantity = str(getattr(spec, "quantity", "?"))
     high = getattr(spec, "high", None)
     low = getattr(spec, "low", None)
     only_on = bool(getattr(spec, "only_when_on", True))
+    off_delay = float(getattr(spec, "off_delay", 0.0) or 0.0)
+    band_of = getattr(spec, "band", None)
     v = np.asarray(value, dtype=np.float64)
-    known = np.isfinite(v) & (on if only_on else np.ones(len(v), dtype=bool))
-    above = known & (v > high) if high is not None else np.zeros(len(v), dtype=bool)
-    below = known & (v < low) if low is not None else np.zeros(len(v), dtype=bool)
+    n = len(v)
+    known = np.isfinite(v) & (on if only_on else np.ones(n, dtype=bool))
+    above = known & (v > high) if high is not None else np.zeros(n, dtype=bool)
+    below = known & (v < low) if low is not None else np.zeros(n, dtype=bool)
     evaluated = float(dt[known].sum())
     inside = float(dt[known & ~above & ~below].sum())
     excursions: list[Excursion] = []
-    for side, mask, bound in (("high", above, high), ("low", below, low)):
-        for a, b in _runs(mask):
+    for side, enter, bound in (("high", above, high), ("low", below, low)):
+        if bound is None:
+            continue
+        band = float(band_of(bound)) if callable(band_of) else 0.0
+        with np.errstate(invalid="ignore"):
+            stay = v > bound - band if side == "high" else v < bound + band
+        cont = _outside(known, enter, stay)
+        mask = cont & known
+        runs = []
+        for a, b in _runs(cont):
+            inside_run = np.flatnonzero(mask[a:b])
+            runs.append((a, a + int(inside_run[-1]) + 1))      # ends after its last known sample outside
+        for a, b in _merge(runs, t, off_delay):
             start = float(t[a])
-            end = float(t[b]) if b < len(t) else float(t[b - 1] + dt[b - 1])
-            peak = float(v[a:b].max() if side == "high" else v[a:b].min())
+            end = float(t[b]) if b < n else float(t[b - 1] + dt[b - 1])
+            seg = v[a:b][mask[a:b]]
+            peak = float(seg.max() if side == "high" else seg.min())
             excursions.append(Excursion(name, quantity, side, float(bound), start, end, end - start, peak))
     excursions.sort(key=lambda e: e.start)
     return LimitSummary(name, quantity, low, high, evaluated, inside,
