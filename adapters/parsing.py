@@ -97,16 +97,19 @@ def _segments_to_batches(segs: list[_Segment], source: str, received: float) -> 
     return out
 
 
-def merge_batches(batches: Sequence[Batch]) -> list[Batch]:
+def merge_batches(batches: Sequence[Batch], max_len: int = 262_144) -> list[Batch]:
     """Concatenate consecutive batches of one source that agree on time origin and seq presence.
 
+    A merged batch grows to at most ``max_len`` readings (a longer input batch is kept whole).
     Keys missing from some of them become NaN there; sigma columns are kept
     only where every merged batch carries them (otherwise that run is not merged).
     """
     out: list[Batch] = []
     run: list[Batch] = []
+    run_len = [0]
 
     def flush() -> None:
+        run_len[0] = 0
         if len(run) == 1:
             out.append(run[0])
         elif run:
@@ -127,10 +130,11 @@ def merge_batches(batches: Sequence[Batch]) -> list[Batch]:
             continue
         if run:
             r = run[0]
-            if (b.source != r.source or b.t_from_source != r.t_from_source or (b.seq is None) != (r.seq is None)
+            if (run_len[0] + len(b) > max_len or b.source != r.source or b.t_from_source != r.t_from_source or (b.seq is None) != (r.seq is None)
                     or set(b.sigma) != set(r.sigma)):
                 flush()
         run.append(b)
+        run_len[0] += len(b)
     flush()
     return out
 
@@ -453,7 +457,13 @@ class LineFramer:
 
     @property
     def pending(self) -> int:
+        """Bytes of a partial line waiting for its line end."""
         return len(self._buf)
+
+    @property
+    def discarding(self) -> bool:
+        """True while skipping the rest of an oversized line (already refused)."""
+        return self._discarding
 
     def feed(self, data: bytes) -> tuple[list[bytes], list[bytes]]:
         """Return (complete lines, oversized lines) found so far."""
