@@ -239,11 +239,10 @@ class AlarmEngine:
                 sel = np.flatnonzero(ok[a:b])
                 ts, vs = ts[sel], vs[sel]
                 ss = ss[sel] if ss is not None else None
-            if len(ts) == 0:
-                continue
-            events += self._limit_toggles(lim, ts, vs, ss)
+            if len(ts):
+                events += self._limit_toggles(lim, ts, vs, ss)
             if lim.predictor is not None and lim.pcore is not None:
-                for p, up in lim.predictor.evaluate(ts, vs):
+                for p, up in lim.predictor.evaluate(ts, vs, float(t[a]), float(t[b - 1])):
                     events += lim.pcore.fire_due(p.time, strict=True)
                     if p.predicted_time is not None or not up:
                         lim.pcore.predicted_time = p.predicted_time

@@ -60,23 +60,26 @@ class SlopePredictor:
             return Prediction(g, vg, b, None, None)
         return Prediction(g, vg, b, best[1], g + best[0])
 
-    def evaluate(self, t: np.ndarray, v: np.ndarray) -> list[tuple[Prediction, bool]]:
-        """Grid points newly due with these (evaluable, time-ordered) samples, and where the warning toggles."""
-        if len(t) == 0:
-            return []
+    def evaluate(self, t: np.ndarray, v: np.ndarray, start: float, upto: float) -> list[tuple[Prediction, bool]]:
+        """Grid points in (last evaluated, ``upto``] with these (evaluable, time-ordered) samples added,
+        and where the warning toggles. ``upto`` is the time of the latest sample seen, valid or not;
+        ``start`` the first time of the stretch being evaluated (used after a reset)."""
         prev_last = float(self._t[-1]) if len(self._t) else None
-        all_t = np.concatenate((self._t, t))
-        all_v = np.concatenate((self._v, v))
+        all_t = np.concatenate((self._t, t)) if len(t) else self._t
+        all_v = np.concatenate((self._v, v)) if len(t) else self._v
         step = self.step
-        k_end = math.floor(float(all_t[-1]) / step + 1e-9)
-        k0 = math.ceil(float(all_t[0]) / step - 1e-9) if self._last_k is None else self._last_k + 1
+        k_end = math.floor(upto / step + 1e-9)
+        k0 = math.ceil(start / step - 1e-9) if self._last_k is None else self._last_k + 1
         ks = []
-        if prev_last is not None:   # points whose window still holds kept samples
-            ks.append(np.arange(k0, min(k_end, math.floor((prev_last + self.window) / step)) + 1))
-        ks.append(np.arange(max(k0, math.ceil(float(t[0]) / step - 1e-9)), k_end + 1))
-        k_all = np.unique(np.concatenate(ks)) if len(ks) > 1 else ks[0]
+        if k_end >= k0:
+            self._last_k = k_end
+            if prev_last is not None:   # points whose window still holds kept samples
+                ks.append(np.arange(k0, min(k_end, math.floor((prev_last + self.window) / step) + 1) + 1))
+            if len(t):
+                ks.append(np.arange(max(k0, math.ceil(float(t[0]) / step - 1e-9)), k_end + 1))
+        k_all = np.unique(np.concatenate(ks)) if ks else np.empty(0, dtype=np.int64)
         out: list[tuple[Prediction, bool]] = []
-        if k_all.size:
+        if k_all.size and len(all_t):
             g_all = k_all * step
             lo_all = np.searchsorted(all_t, g_all - self.window, side="right")
             hi_all = np.searchsorted(all_t, g_all, side="right")
@@ -98,7 +101,7 @@ class SlopePredictor:
                 elif self.active and (ttl is None or ttl > RETURN_FACTOR * self.horizon):
                     self.active = False
                     out.append((p, False))
-            self._last_k = int(k_end)
-        cut = int(np.searchsorted(all_t, all_t[-1] - self.window, side="right"))
-        self._t, self._v = all_t[cut:].copy(), all_v[cut:].copy()
+        if len(t):
+            cut = int(np.searchsorted(all_t, all_t[-1] - self.window, side="right"))
+            self._t, self._v = all_t[cut:].copy(), all_v[cut:].copy()
         return out
