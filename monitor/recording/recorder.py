@@ -303,14 +303,19 @@ class Recorder:
             if part > 1:
                 stem_name += f"-part{part}"
             columns = self._columns_for(base, sigma)
-            primes = self._priming_rows(first_t) if part == 1 else []
+            if self._pre:
+                first_vals = {k: float(v[0]) for k, v in self._pre[0][1].items()}
+            else:
+                first_vals = {k: float(v[row]) for k, v in base.items()}
+            primes = self._priming_rows(first_t, first_vals) if part == 1 else []
             self._stream = _Stream(folder / stem_name, columns,
                                    self._header(columns, self._shot_counter, wall, len(primes)),
                                    self._journal_factory)
         except OSError as exc:
             self._stream = None
-            self._problem(f"cannot open a recording file in {self.directory}: {exc}")
-            self._dropped += len(frame.t) - row
+            self._next_retry = self._clock() + _RETRY_EVERY
+            self._problem(f"cannot open a recording file in {self.directory}: {exc}; readings are not "
+                          f"being recorded (retrying)")
             return
         if part == 1:
             self._shots += 1
@@ -344,10 +349,13 @@ class Recorder:
 
     def _write_rows(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
                     a: int, b: int) -> None:
+        if self._stream is None and self._clock() >= self._next_retry:
+            self._open_shot(frame, base, sigma, a)
         stream = self._stream
         if stream is None:
             self._dropped += b - a
-            self._problem("no recording file is open; readings of this shot are not being recorded")
+            if self._error is None:
+                self._problem("no recording file is open; readings of this shot are not being recorded")
             return
         if not set(self._columns_for(base, sigma)) <= set(stream.columns):
             # a quantity appeared that the file has no column for: continue in a new part of the shot
@@ -421,11 +429,15 @@ class Recorder:
             return float(hold_for(key))
         return float(getattr(self.config, "max_age", 0.25))
 
-    def _priming_rows(self, first_t: float) -> list[tuple[float, dict[str, float]]]:
-        """The last reading of each base key before the file's first row, while its alignment hold
-        still covers that row: written first (seq left empty) so that a replay aligns as live did."""
+    def _priming_rows(self, first_t: float, first: Mapping[str, float]) -> list[tuple[float, dict[str, float]]]:
+        """The last reading of each base key that the file's first row (``first``) does not carry,
+        while its alignment hold still covers that row: written first (seq left empty) so that a
+        replay aligns as the live run did."""
         rows: dict[float, dict[str, float]] = {}
         for key, (t, row) in self._last_raw.items():
+            carried = first.get(key)
+            if carried is not None and np.isfinite(carried):
+                continue
             if t < first_t and first_t - t <= self._hold(key):
                 rows[t] = row
         self._last_raw = {}
