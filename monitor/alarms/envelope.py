@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import difflib
 import math
 import re
 from dataclasses import dataclass, field
@@ -182,6 +183,11 @@ _LIMIT_KEYS = ("name", "quantity", "high", "low", "deadband", "deadband_absolute
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
 
 
+def _close(word: str, known: Any) -> str:
+    match = difflib.get_close_matches(word, list(known), n=1)
+    return f" (did you mean {match[0]!r}?)" if match else ""
+
+
 def _parse_deadband(table: Mapping[str, Any], quantity: str, path: str | Path | None, key: str) -> tuple[float, bool]:
     if "deadband" in table and "deadband_absolute" in table:
         raise _err(path, f"{key}.deadband", "give deadband (a fraction) or deadband_absolute, not both")
@@ -218,19 +224,21 @@ def _parse_limit(table: Any, index: int, path: str | Path | None) -> LimitSpec:
     key = f"limit[{index}]"
     if not isinstance(table, Mapping):
         raise _err(path, key, "each [[limit]] must be a table")
+    name = table.get("name")
+    if isinstance(name, str) and _NAME_RE.match(name):
+        key = f"limit[{index}] ({name})"
     for k in table:
         if k not in _LIMIT_KEYS:
-            raise _err(path, f"{key}.{k}", f"unknown key; known: {', '.join(_LIMIT_KEYS)}")
-    name = table.get("name")
+            raise _err(path, f"{key}.{k}", f"unknown key{_close(k, _LIMIT_KEYS)}; known: {', '.join(_LIMIT_KEYS)}")
     if not isinstance(name, str) or not _NAME_RE.match(name):
         raise _err(path, f"{key}.name", "every limit needs a name of letters, digits, '_', '-', '.'")
-    key = f"limit[{index}] ({name})"
     quantity = table.get("quantity")
     if not isinstance(quantity, str):
         raise _err(path, f"{key}.quantity", "every limit needs a quantity")
     quantity = QUANTITY_ALIASES.get(quantity, quantity)
     if quantity not in ALL:
-        raise _err(path, f"{key}.quantity", f"unknown quantity {table['quantity']!r}; known: {', '.join(ALL)}")
+        raise _err(path, f"{key}.quantity", f"unknown quantity {table['quantity']!r}{_close(quantity, ALL)}; "
+                   f"known: {', '.join(ALL)}")
     high = parse_quantity_value(table["high"], quantity, path, f"{key}.high") if "high" in table else None
     low = parse_quantity_value(table["low"], quantity, path, f"{key}.low") if "low" in table else None
     if high is None and low is None:
@@ -289,6 +297,9 @@ _OPTION_KEYS = ("flood_count", "flood_clear", "flood_window", "chatter_count", "
 
 
 def _parse_hook(raw: Any, path: str | Path | None, key: str) -> HookSpec:
+    if isinstance(raw, str):
+        raise _err(path, key, "a hook is an argument list such as [\"prog\", \"{alarm}\"]; "
+                   "a command string is refused because no shell is used")
     if isinstance(raw, list):
         raw = {"command": raw}
     if not isinstance(raw, Mapping):
@@ -316,7 +327,7 @@ def parse_alarm_options(table: Any, path: str | Path | None) -> AlarmOptions:
         raise _err(path, "alarms", "must be a table")
     for k in table:
         if k not in _OPTION_KEYS:
-            raise _err(path, f"alarms.{k}", f"unknown key; known: {', '.join(_OPTION_KEYS)}")
+            raise _err(path, f"alarms.{k}", f"unknown key{_close(k, _OPTION_KEYS)}; known: {', '.join(_OPTION_KEYS)}")
     d = AlarmOptions()
     g = table.get
     hooks_raw = g("hooks", {})

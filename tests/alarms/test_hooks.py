@@ -1,0 +1,102 @@
+"""Command hooks: real subprocesses, no shell, a timeout that kills, failures logged, never blocking."""
+
+from __future__ import annotations
+
+import logging
+import os
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from conftest import engine, frame
+from monitor.alarms.envelope import parse_alarm_options
+from monitor.alarms.hooks import HookRunner, expand
+from monitor.errors import ConfigError
+
+WRITE = "import sys, pathlib; pathlib.Path(sys.argv[1]).write_text(sys.argv[2] + '|' + sys.stdin.read())"
+HANG = "import os, sys, time, pathlib; pathlib.Path(sys.argv[1]).write_text(str(os.getpid())); time.sleep(60)"
+
+
+def _raise_event(priority: str = "urgent"):
+    eng = engine([{"name": "hot", "quantity": "Te", "high": 5.0, "priority": priority}])
+    return [e for e in eng.process(frame([0.0, 1.0], Te=[3.0, 9.0])) if e.state.value == "unacknowledged"][0]
+
+
+def _wait_for(cond, timeout: float = 10.0) -> bool:
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if cond():
+            return True
+        time.sleep(0.02)
+    return False
+
+
+def test_hook_runs_the_argument_list_with_the_event_on_stdin(tmp_path: Path) -> None:
+    out = tmp_path / "out.txt"
+    opts = parse_alarm_options({"hooks": {"urgent": [sys.executable, "-c", WRITE, str(out), "{alarm}:{state}"]}},
+                               "t.toml")
+    runner = HookRunner(opts.hooks)
+    event = _raise_event()
+    runner.on_alarm(event)
+    assert runner.wait(1, 20.0)
+    assert runner.results[0].returncode == 0
+    arg, stdin = out.read_text().split("|", 1)
+    assert arg == "hot:unacknowledged"
+    assert '"alarm": "hot"' in stdin and '"type": "alarm"' in stdin
+    runner.close()
+
+
+def test_hooks_only_for_their_priority_and_states(tmp_path: Path) -> None:
+    opts = parse_alarm_options({"hooks": {"urgent": [sys.executable, "-c", "pass"]}}, "t.toml")
+    runner = HookRunner(opts.hooks)
+    runner.on_alarm(_raise_event("high"))
+    assert runner._thread is None and runner.results == []     # nothing queued: no worker was even started
+    runner.close()
+
+
+def test_hanging_hook_is_killed_after_its_timeout_and_never_blocks(tmp_path: Path, caplog) -> None:
+    pid_file = tmp_path / "pid"
+    opts = parse_alarm_options({"hooks": {"urgent": {"command": [sys.executable, "-c", HANG, str(pid_file)],
+                                                     "timeout": "1s"}}}, "t.toml")
+    runner = HookRunner(opts.hooks)
+    caplog.set_level(logging.WARNING, logger="monitor.alarms.hooks")
+    runner.on_alarm(_raise_event())
+    assert runner.results == []          # on_alarm returned while the command still runs
+    assert _wait_for(pid_file.exists) and _wait_for(lambda: pid_file.read_text() != "")
+    pid = int(pid_file.read_text())
+    assert runner.wait(1, 20.0)
+    (result,) = runner.results
+    assert result.returncode is None and "timeout" in result.error
+    with pytest.raises(ProcessLookupError):
+        os.kill(pid, 0)                  # killed and reaped
+    assert any("killed after" in r.getMessage() for r in caplog.records)
+    runner.close()
+
+
+def test_failing_and_missing_commands_are_logged(tmp_path: Path, caplog) -> None:
+    caplog.set_level(logging.WARNING, logger="monitor.alarms.hooks")
+    opts = parse_alarm_options({"hooks": {"urgent": [sys.executable, "-c", "import sys; sys.exit(3)"],
+                                          "high": [str(tmp_path / "no-such-program")]}}, "t.toml")
+    runner = HookRunner(opts.hooks)
+    runner.on_alarm(_raise_event("urgent"))
+    runner.on_alarm(_raise_event("high"))
+    assert runner.wait(2, 20.0)
+    codes = sorted((r.returncode is None, r.returncode) for r in runner.results)
+    assert codes == [(False, 3), (True, None)]
+    messages = " ".join(r.getMessage() for r in caplog.records)
+    assert "exited 3" in messages and "could not start" in messages
+    runner.close()
+
+
+def test_placeholders_and_hook_config_errors() -> None:
+    event = _raise_event()
+    assert expand(("notify", "{alarm}", "{priority}", "{value}", "{nothing}"), event) == \
+        ["notify", "hot", "urgent", "9.0", "{nothing}"]
+    with pytest.raises(ConfigError, match="alarms.hooks.urgent: .*no shell"):
+        parse_alarm_options({"hooks": {"urgent": "notify-send alarm"}}, "t.toml")
+    with pytest.raises(ConfigError, match="alarms.hooks.loud"):
+        parse_alarm_options({"hooks": {"loud": ["x"]}}, "t.toml")
+    with pytest.raises(ConfigError, match="alarms.hooks.urgent.timeout"):
+        parse_alarm_options({"hooks": {"urgent": {"command": ["x"], "timeout": 0}}}, "t.toml")
