@@ -290,6 +290,22 @@ class AlarmEngine:
             self._load.record(events)
             return events
 
+    def on_seek(self, t: float) -> None:
+        """A replay jumped to ``t`` (time may go back): timing carries, windows and the load figures
+        start over; alarm states are kept (the next samples move them as usual)."""
+        with self._lock:
+            for lim in self._limits:
+                lim.det.run_start = None
+                if lim.predictor is not None:
+                    lim.predictor.restart()
+            for src in self._sources.values():
+                src.last_t = None
+                src.det.run_start = None
+                src.window.clear()
+            o = self.options
+            self._load = LoadTracker(o.flood_window, o.flood_count, o.flood_clear, o.chatter_window,
+                                     o.chatter_count)
+
     # -- operator actions -----------------------------------------------------------------
 
     def _core(self, alarm: str) -> AlarmCore:

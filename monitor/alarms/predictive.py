@@ -43,10 +43,15 @@ class SlopePredictor:
         self.reset()
 
     def reset(self) -> None:
+        """Start afresh (discharge off): no samples kept, warning not active."""
+        self.restart()
+        self.active = False
+
+    def restart(self) -> None:
+        """Drop the kept samples and the grid position (time jumped); the warning state stays."""
         self._t = np.empty(0, dtype=np.float64)
         self._v = np.empty(0, dtype=np.float64)
         self._last_k: int | None = None
-        self.active = False
 
     def _predict(self, g: float, b: float, vg: float) -> Prediction:
         best: tuple[float, float] | None = None

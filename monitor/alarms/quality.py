@@ -26,6 +26,11 @@ class QualityWindow:
         self._t = np.empty(0, dtype=np.float64)
         self._bad = np.empty(0, dtype=bool)
 
+    def clear(self) -> None:
+        """Forget the kept samples (time jumped)."""
+        self._t = np.empty(0, dtype=np.float64)
+        self._bad = np.empty(0, dtype=bool)
+
     def share(self, t: np.ndarray, bad: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(share, count) at each new sample, using the kept tail; updates the tail."""
         all_t = np.concatenate((self._t, t))
