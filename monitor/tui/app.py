@@ -22,7 +22,7 @@ __all__ = ["RegimeApp"]
 
 
 class RegimeApp(App[None]):
-    """The operator's screen. ``ticks`` counts rendered snapshots (the benchmark reads it)."""
+    """The operator's screen. ``ticks`` counts rendered snapshots (the benchmark reads it), ``bells`` the bells rung."""
 
     CSS_PATH = "regime.tcss"
     TITLE = "regime"
@@ -39,6 +39,7 @@ class RegimeApp(App[None]):
         self.settings = settings or ScreenSettings()
         self.stop = threading.Event()
         self.ticks = 0
+        self.bells = 0
         self._run_pipeline = run_pipeline
         self.watch = WatchScreen(feed, self.settings)
 
@@ -62,6 +63,10 @@ class RegimeApp(App[None]):
         if top is not self.watch and hasattr(top, "show"):
             top.show(snapshot, now)
         self.ticks += 1
+
+    def bell(self) -> None:
+        self.bells += 1
+        super().bell()
 
     def action_request_quit(self) -> None:
         recording = self.watch.last.recording if self.watch.last is not None else None

@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass
 
-__all__ = ["UNIT_SYSTEMS", "Shown", "show", "fmt_number", "fmt_value", "fmt_duration", "fmt_age"]
+__all__ = ["UNIT_SYSTEMS", "Shown", "show", "fmt_number", "fmt_value", "fmt_duration", "fmt_age", "fmt_data_time"]
 
 # Boltzmann constant over elementary charge (CODATA 2018, exact by the SI
 # definitions): one electronvolt of temperature is e/k = 11604.518... K.
@@ -118,3 +119,13 @@ def fmt_duration(seconds: float | None) -> str:
 def fmt_age(age: float | None) -> str:
     """Age of the last reading: ``0.1 s``, ``12 s``, ``never``."""
     return "never" if age is None else fmt_duration(max(0.0, age))
+
+
+def fmt_data_time(t: float | None) -> str:
+    """Data time: a clock time (local, tenths) when it looks like seconds since the epoch, else seconds."""
+    if t is None or not math.isfinite(t):
+        return "—"
+    if t > 1e8:
+        whole = time.localtime(t)
+        return time.strftime("%H:%M:%S", whole) + f".{int((t % 1.0) * 10)}"
+    return f"{t:.2f} s"

@@ -127,12 +127,12 @@ class RegimeMap:
             cv.dots(np.array([0.0]), np.array([(e - y0) * sy]), _L_AXIS)
         te_axis = np.logspace(y0, y1, 4 * cv.px_height)
         if d.length:
-            for k in range(0, 4):
+            for k in range(0, 7):
                 lam = d.length / 10.0 ** k
                 ne_line = density_at_debye_length(te_axis, lam)
                 xs, ys = px(ne_line), py(te_axis)
                 cv.dots(xs, ys, _L_DEBYE)
-                self._label(cv, xs, ys, "λD=L" if k == 0 else f"L/{10 ** k}", _L_LABEL)
+                self._label(cv, xs, ys, "λD=L" if k == 0 else (f"L/{10 ** k}" if k < 3 else f"L/1e{k}"), _L_LABEL)
         for n_d in (1.0, 1e3, 1e6):
             ne_line = density_at_debye_number(te_axis, n_d)
             xs, ys = px(ne_line), py(te_axis)
@@ -196,7 +196,7 @@ class RegimeMap:
                 label_rows[r] = f"{10.0 ** e * _K_PER_EV:.0e}".replace("e+0", "e").replace("e+", "e")
         unit = "eV" if practical else "K"
         for r, row in enumerate(rows):
-            lab = label_rows.get(r, unit if r == 0 and 0 not in label_rows else "")
+            lab = label_rows.get(r, "")
             out.append([Segment(lab.rjust(margin - 1)[: margin - 1] + "┤" if lab else " " * (margin - 1) + "│", palette.DIM)] + row)
         axis = [" "] * cv.width
         for e in range(int(x0), int(x1) + 1):
@@ -205,9 +205,9 @@ class RegimeMap:
             start = min(max(col - len(text) // 2, 0), cv.width - len(text))
             if all(c == " " for c in axis[max(0, start - 1): start + len(text) + 1]):
                 axis[start: start + len(text)] = list(text)
-        out.append([Segment(" " * (margin - 1) + "└", palette.DIM), Segment("".join(axis), palette.DIM)])
-        n_unit = "ne cm⁻³" if practical else "ne m⁻³"
-        state = "✖ OUTSIDE envelope" if outside else ("◆ now  ∙ trail  □ envelope" if self.data.point else "no operating point yet")
-        legend = f"{n_unit} →   {state}"
+        out.append([Segment(unit.rjust(margin - 1) + "└", palette.DIM), Segment("".join(axis), palette.DIM)])
+        n_unit = "ne cm⁻³→" if practical else "ne m⁻³→"
+        state = "✖ OUTSIDE box" if outside else ("◆ now ∙ trail □ box" if self.data.point else "no point yet")
+        legend = f"{n_unit}  {state}"
         out.append([Segment(" " * margin + legend[: max(0, cv.width)], palette.ALERT if outside else palette.DIM)])
         return out

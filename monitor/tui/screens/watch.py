@@ -35,7 +35,7 @@ class WatchScreen(Screen[None]):
 
     BINDINGS = [
         Binding("a", "acknowledge", "ack"),
-        Binding("A", "acknowledge_all", "ack all", key_display="A"),
+        Binding("A", "acknowledge_all", "ack all", show=False, key_display="A"),
         Binding("z", "shelve", "shelve"),
         Binding("Z", "unshelve", "unshelve", show=False, key_display="Z"),
         Binding("r", "reset", "reset latched", show=False),
@@ -176,7 +176,7 @@ class WatchScreen(Screen[None]):
 
     def action_step(self) -> None:
         if self._replay() is not None:
-            self._act("step")
+            self._act("step_replay")
 
     def action_seek(self, direction: int) -> None:
         r = self._replay()

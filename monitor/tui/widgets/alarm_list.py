@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rich.console import Group
 from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
@@ -34,9 +35,13 @@ _STATE_RANK = {AlarmState.UNACKNOWLEDGED: 0, AlarmState.RETURNED_UNACKNOWLEDGED:
 UNACKED = (AlarmState.UNACKNOWLEDGED, AlarmState.RETURNED_UNACKNOWLEDGED)
 
 
+HIDDEN = (AlarmState.NORMAL, AlarmState.SUPPRESSED, AlarmState.OUT_OF_SERVICE)
+
+
 def ordered(alarms: tuple[AlarmView, ...]) -> list[AlarmView]:
-    """Those not normal: unacknowledged first, then by priority, newest first."""
-    rows = [a for a in alarms if a.state != AlarmState.NORMAL]
+    """Those needing the operator (not normal, not suppressed by design, not out of service):
+    unacknowledged first, then by priority, newest first. Shelved ones stay listed so they can be unshelved."""
+    rows = [a for a in alarms if a.state not in HIDDEN]
     return sorted(rows, key=lambda a: (_STATE_RANK.get(a.state, 9), _PRIO_RANK.get(a.priority, 9), -(a.since or 0.0)))
 
 
@@ -78,15 +83,30 @@ class AlarmList(Widget, can_focus=True):
 
     def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(name=name, id=id, classes=classes)
+        self._shape: tuple[int, bool] = (-1, False)
 
     def watch_snapshot(self, snapshot: Snapshot | None) -> None:
         rows = ordered(snapshot.alarms) if snapshot is not None else []
         names = [a.alarm for a in rows]
         if self.selected not in names:
             self.selected = names[0] if names else None
+        shape = (len(rows), self._hidden_note(snapshot) != "")
+        if shape != self._shape:
+            self._shape = shape
+            self.refresh(layout=True)
 
     def watch_selected(self, alarm: str | None) -> None:
         self.post_message(self.Selected(alarm))
+
+    @staticmethod
+    def _hidden_note(snapshot: Snapshot | None) -> str:
+        if snapshot is None:
+            return ""
+        sup = sum(1 for a in snapshot.alarms if a.state == AlarmState.SUPPRESSED)
+        oos = sum(1 for a in snapshot.alarms if a.state == AlarmState.OUT_OF_SERVICE)
+        parts = ([f"{sup} suppressed by design" + ("" if snapshot.discharge_on else " (discharge off)")] if sup else []) + \
+                ([f"{oos} out of service"] if oos else [])
+        return "  + " + ", ".join(parts) if parts else ""
 
     def rows(self) -> list[AlarmView]:
         return ordered(self.snapshot.alarms) if self.snapshot is not None else []
@@ -94,15 +114,18 @@ class AlarmList(Widget, can_focus=True):
     def render(self) -> RenderResult:
         snap = self.snapshot
         rows = self.rows()
+        note = self._hidden_note(snap)
         if not rows:
-            return Text("○ every alarm normal", style=palette.DIM)
+            return Text("○ nothing to attend to" + note, style=palette.DIM)
         now = snap.data_time if snap is not None else None
         wide = (self.size.width or 80) >= 100
         table = Table.grid(padding=(0, 1), expand=False)
-        for _ in range(8 if wide else 7):
+        for _ in range(8 if wide else 6):
             table.add_column(no_wrap=True, overflow="ellipsis")
         for a in rows:
             table.add_row(*self._cells(a, now, wide))
+        if note:
+            return Group(table, Text(note, style=palette.DIM))
         return table
 
     def _cells(self, a: AlarmView, now: float | None, wide: bool) -> list[Text]:
@@ -115,6 +138,8 @@ class AlarmList(Widget, can_focus=True):
             style = palette.ALERT if a.priority in (Priority.URGENT, Priority.HIGH) else palette.CAUTION
         state_style = style + palette.BLINK if unacked and self.flash else style
         mark = "▶" if a.alarm == self.selected else " "
+        if self.has_focus is False and mark == "▶":
+            mark = "›"
         unit = ALL[a.quantity].unit if a.quantity in ALL else "1"
         value = fmt_value(a.value, None, unit, self.units) if a.value is not None else ("—", "", "")
         limit = fmt_value(a.limit, None, unit, self.units) if a.limit is not None else ("—", "", "")
@@ -124,22 +149,17 @@ class AlarmList(Widget, can_focus=True):
         ttl = ""
         if a.predicted_time is not None and now is not None:
             ttl = f"limit in {fmt_duration(a.predicted_time - now)}"
-        cells = [
-            Text(mark, style=palette.STRONG),
-            Text(PRIORITY_MARK.get(a.priority, str(a.priority)), style=style),
-            Text(STATE_WORDS.get(a.state, str(a.state)) + (" ⊡latched" if a.latched else ""), style=state_style),
-            Text(since, style=palette.DIM),
-            Text(a.alarm if wide else (a.quantity or a.alarm), style=palette.NORMAL),
-            Text(f"{value[0]} {value[2]}".strip(), style=palette.NORMAL),
-            Text(f"lim {limit[0]}", style=palette.DIM),
-            Text(ttl, style=palette.CAUTION if ttl else palette.DIM),
-        ]
-        if not wide:
-            cells[4] = Text(a.alarm, style=palette.NORMAL)
-            del cells[7]
-            if ttl:
-                cells[6] = Text(f"lim {limit[0]} · {ttl.replace('limit ', '')}", style=palette.CAUTION)
-        return cells
+        name = a.alarm.replace(":predict", " ⇢")
+        prio = Text(mark + PRIORITY_MARK.get(a.priority, str(a.priority)), style=style)
+        state = Text(STATE_WORDS.get(a.state, str(a.state)) + (" ⊡" if a.latched else ""), style=state_style)
+        value_text = Text(f"{value[0]} {value[2]}".strip(), style=palette.NORMAL)
+        if wide:
+            return [prio, state, Text(since, style=palette.DIM), Text(name, style=palette.NORMAL), value_text,
+                    Text(f"limit {limit[0]}", style=palette.DIM), Text(ttl, style=palette.CAUTION),
+                    Text(a.description, style=palette.DIM)]
+        short_limit = f"lim {fmt_value(a.limit, None, unit, self.units)[0]}" if a.limit is not None else ""
+        last = Text(ttl.replace("limit ", "→"), style=palette.CAUTION) if ttl else Text(short_limit, style=palette.DIM)
+        return [prio, state, Text(since, style=palette.DIM), Text(name, style=palette.NORMAL), value_text, last]
 
     def action_move(self, step: int) -> None:
         names = [a.alarm for a in self.rows()]

@@ -35,6 +35,13 @@ class DerivedTable(Widget):
 
     def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(name=name, id=id, classes=classes)
+        self._shape: object = None
+
+    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
+        shape = None if snapshot is None else tuple(sorted(snapshot.latest))
+        if shape != self._shape:
+            self._shape = shape
+            self.refresh(layout=True)
 
     def render(self) -> RenderResult:
         snap = self.snapshot

@@ -66,11 +66,16 @@ class SourcesPanel(Widget):
 
     def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(name=name, id=id, classes=classes)
+        self._shape: object = None
 
     def watch_snapshot(self, snapshot: Snapshot | None) -> None:
         trouble = snapshot is not None and any(
             source_trouble(snapshot, n, self.now, self.stale_after) for n in snapshot.sources)
         self.set_class(bool(trouble) or self.error is not None, "-trouble")
+        shape = (None if snapshot is None else len(set(snapshot.sources) | set(snapshot.counts)), self.error is not None)
+        if shape != self._shape:
+            self._shape = shape
+            self.refresh(layout=True)
 
     def render(self) -> RenderResult:
         snap = self.snapshot

@@ -10,6 +10,7 @@ from textual.widget import Widget
 from monitor.alarms.events import Priority
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
+from monitor.tui.formatting import fmt_data_time
 from monitor.tui.widgets.alarm_list import UNACKED
 
 __all__ = ["StatusStrip", "strip_text"]
@@ -23,7 +24,7 @@ def strip_text(snapshot: Snapshot | None, *, title: str, units: str, bell: bool,
         return Text.assemble(*parts)  # type: ignore[arg-type]
     parts.append(("  ◉ discharge ON " if snapshot.discharge_on else "  ○ discharge off", palette.NORMAL))
     if snapshot.data_time is not None:
-        parts.append((f"  t {snapshot.data_time:9.2f} s", palette.DIM))
+        parts.append((f"  t {fmt_data_time(snapshot.data_time)}", palette.DIM))
     unacked = [a for a in snapshot.alarms if a.state in UNACKED]
     active = [a for a in snapshot.alarms if a.state.value not in ("normal",)]
     if unacked:

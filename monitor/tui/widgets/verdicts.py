@@ -13,6 +13,7 @@ from textual.widget import Widget
 
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
+from monitor.tui.formatting import fmt_number
 
 __all__ = ["Verdicts", "verdict_rows"]
 
@@ -25,31 +26,55 @@ def _evaluator() -> Callable[[dict[str, float]], list[Any]] | None:
     return evaluate
 
 
-def verdict_rows(snapshot: Snapshot) -> list[tuple[str, str, Any, str]]:
-    """(glyph, word, style, text) per criterion, from the latest values."""
+_SYMBOL = {"L/lambda_D": "L/λD", "N_D": "ND", "omega_pe/nu": "ωpe/ν", "ne/n_c": "ne/nc",
+           "omega_ce/nu": "ωce/ν", "L/r_i": "L/ri"}
+_SHORT = {  # (holds, fails) labels short enough for 80 columns
+    "quasi_neutral": ("quasi-neutral", "NOT quasi-neutral"),
+    "many_particles": ("many per Debye sphere", "FEW per Debye sphere"),
+    "collective": ("collective", "COLLISION-DOMINATED"),
+    "under_cutoff": ("under cutoff", "OVER CUTOFF"),
+    "electrons_magnetised": ("electrons magnetised", "electrons NOT magnetised"),
+    "ions_magnetised": ("ions magnetised", "ions NOT magnetised"),
+}
+NEAR_FACTOR = 3.0
+"""A holding criterion within this factor of its threshold is shown as NEAR (our choice)."""
+
+
+def verdict_rows(snapshot: Snapshot) -> list[tuple[str, str, Any, str, str, str]]:
+    """(glyph, word, style, label, value text, margin text) per criterion, from the latest values."""
     evaluate = _evaluator()
     if evaluate is None:
-        return [("?", "n/a", palette.DIM, "criteria module not available")]
+        return [("?", "n/a", palette.DIM, "criteria module not available", "", "")]
+    from monitor.criteria import CRITERIA
+    by_name = {c.name: c for c in CRITERIA}
     values = {k: v for k, (v, _s) in snapshot.latest.items() if v is not None and math.isfinite(v)}
     rows = []
     for v in evaluate(values):
+        c = by_name.get(v.name)
+        yes, no = _SHORT.get(v.name, (c.yes, c.no) if c is not None else (v.text.split(":", 1)[0],) * 2)
+        label = yes if v.holds or v.holds is None else no
+        symbol = _SYMBOL.get(c.symbol, c.symbol) if c is not None else ""
+        value = values.get(c.quantity) if c is not None else None
+        shown = f"{symbol} {fmt_number(value)}" if value is not None else symbol
         if v.holds is None:
-            rows.append(("?", "unknown", palette.DIM, v.text))
+            rows.append(("?", "unknown", palette.DIM, label + "?", f"{symbol} unknown", ""))
         elif v.holds:
             close = _is_close(v.margin)
-            rows.append(("!" if close else "✓", "NEAR" if close else "holds", palette.CAUTION if close else palette.OK_MARK, v.text))
+            rows.append(("!" if close else "✓", "near limit" if close else "holds",
+                         palette.CAUTION if close else palette.OK_MARK, label + (" (near)" if close else ""), shown, f"margin ×{fmt_number(v.margin, 2)}"))
         else:
-            rows.append(("✗", "FAILS", palette.ALERT, v.text))
+            short = 1.0 / v.margin if v.margin > 0 else math.inf
+            rows.append(("✗", "FAILS", palette.ALERT, label, shown, f"short ×{fmt_number(short, 2)}"))
     return rows
 
 
 def _is_close(margin: float) -> bool:
-    """A holding verdict is near failing when its margin (decades to the threshold) is under half a decade."""
-    return margin is not None and math.isfinite(margin) and 0.0 <= margin < 0.5
+    """A holding verdict is near failing when its margin factor is under NEAR_FACTOR."""
+    return margin is not None and math.isfinite(margin) and 1.0 <= margin < NEAR_FACTOR
 
 
 class Verdicts(Widget):
-    """One line per criterion: glyph, word, and the criterion's own text with its margin."""
+    """One line per criterion: glyph, word, what holds or fails, the value and its margin factor."""
 
     DEFAULT_CSS = """
     Verdicts {
@@ -62,21 +87,35 @@ class Verdicts(Widget):
 
     def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
         super().__init__(name=name, id=id, classes=classes)
+        self._shape: object = None
+
+    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
+        shape = None if snapshot is None else (tuple(sorted(snapshot.latest)), snapshot.discharge_on)
+        if shape != self._shape:
+            self._shape = shape
+            self.refresh(layout=True)
 
     def render(self) -> RenderResult:
         snap = self.snapshot
         if snap is None or not snap.latest:
             return Text("no verdicts until ne and Te arrive", style=palette.DIM)
         if not snap.discharge_on:
-            note = Text("discharge off: verdicts held", style=palette.DIM)
+            note = Text("discharge off: no plasma to judge", style=palette.DIM)
         else:
             note = None
+        wide = (self.size.width or 44) >= 52
         table = Table.grid(padding=(0, 1))
         table.add_column(no_wrap=True)
-        table.add_column(no_wrap=True, min_width=7)
-        table.add_column(style=palette.NORMAL, overflow="ellipsis", no_wrap=True)
-        for glyph, word, style, text in verdict_rows(snap):
-            table.add_row(Text(glyph, style=style), Text(word, style=style), text)
+        table.add_column(no_wrap=True, overflow="ellipsis")
+        if wide:
+            table.add_column(style=palette.DIM, no_wrap=True)
+        table.add_column(no_wrap=True)
+        for glyph, word, style, label, shown, margin in verdict_rows(snap):
+            # the word (holds / near limit / FAILS) is carried by the label's own wording and the glyph
+            cells = [Text(glyph, style=style), Text(label, style=style if word != "holds" else palette.NORMAL)]
+            cells += [Text(shown)] if wide else []
+            cells.append(Text(margin, style=style if word != "holds" else palette.DIM))
+            table.add_row(*cells)
         if note is not None:
-            table.add_row("", "", note)
+            table.add_row("", note, *([""] * (2 if wide else 1)))
         return table

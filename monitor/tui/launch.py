@@ -1,0 +1,38 @@
+"""Open the screen on a Session: build the feed and settings from the config, run the app, close the session."""
+
+from __future__ import annotations
+
+import time
+from typing import Any, Callable
+
+from monitor.tui.feed import EventTap, SessionFeed
+from monitor.tui.settings import ScreenSettings, envelope_box
+
+__all__ = ["settings_for", "make_app", "run_screen"]
+
+
+def settings_for(config: Any, *, title: str = "regime", bell: bool | None = None, units: str = "practical",
+                 clock: Callable[[], float] = time.time) -> ScreenSettings:
+    """Screen settings from a monitor.config.Config (device guides, envelope box, bell, staleness)."""
+    device = config.device
+    alarm_bell = getattr(config.alarms, "bell", True) if config.alarms is not None else True
+    return ScreenSettings(title=title, length=device.length, wave_frequency=device.wave_frequency,
+                          box=envelope_box(config.limits), units=units,
+                          bell=alarm_bell if bell is None else bell, stale_after=config.stale_after, clock=clock)
+
+
+def make_app(session: Any, tap: EventTap, settings: ScreenSettings) -> Any:
+    """The RegimeApp on ``session`` (whose sinks must include ``tap``)."""
+    from monitor.tui.app import RegimeApp
+    return RegimeApp(SessionFeed(session, tap), settings)
+
+
+def run_screen(session: Any, tap: EventTap, settings: ScreenSettings) -> int:
+    """Run the screen until the operator quits; the session is closed afterwards. Exit code 0, or 3 if the source failed."""
+    app = make_app(session, tap, settings)
+    try:
+        app.run()
+    finally:
+        app.stop.set()
+        session.close()
+    return 3 if getattr(session, "failure", None) else 0
