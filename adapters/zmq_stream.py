@@ -29,9 +29,14 @@ from adapters.parsing import (KEEP_RAW, MAX_FRAME, MAX_LINE, merge_batches, pars
 
 __all__ = ["ZmqSource", "DEFAULT_RCVHWM", "is_loopback_endpoint"]
 
-# Receive queue in messages. The default 1,000 lost 4-13 % of a burst over tcp
-# and up to 89 % over ipc; 200,000 absorbs a 2 s burst of 100k single readings
-# per second (see tests/bench/bench_ingest.py and the docs for what was measured).
+# Receive queue in messages. Measured here: a publisher with ZeroMQ's default
+# send queue sending 40,000 JSON readings at 50,000/s over ipc while the
+# subscriber stalled for 0.8 s delivered 3,500 with RCVHWM 1,000, 12,500 with
+# 10,000, and all with 50,000 or more (over tcp the kernel's loopback buffers
+# hid the difference). 200,000 rides out a ~4 s stall at 50,000 messages/s.
+# Memory bound: RCVHWM x message size (JSON ~60 B: ~12 MB; binary batches of
+# 1,000 x 5 fields are 40 kB each, so a long stall there is bounded by the
+# publisher's rate, and a lower rcvhwm suits such streams).
 DEFAULT_RCVHWM = 200_000
 _DRAIN_MESSAGES = 50_000          # most messages handled in one poll
 _DRAIN_SECONDS = 0.05             # most time spent receiving in one poll
@@ -80,8 +85,9 @@ class ZmqSource:
         self._state = LinkState.CONNECTING
         self._message = f"connecting to {endpoint}"
         self._retries = 0
+        self._auth_failed = False
         self.messages = 0
-        self.bytes = 0
+
 
     # -- setup -----------------------------------------------------------------------------
 
@@ -152,14 +158,18 @@ class ZmqSource:
             if e == zmq.EVENT_CONNECTED and self.curve is None:
                 self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
             elif e == zmq.EVENT_HANDSHAKE_SUCCEEDED:
+                self._auth_failed = False
                 self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}" + (
                     " (CURVE)" if self.curve is not None else "")
             elif e == zmq.EVENT_DISCONNECTED:
-                self._retries += 1
-                self._state, self._message = LinkState.DISCONNECTED, f"publisher at {self.endpoint} went away; reconnecting"
+                if self._state is LinkState.CONNECTED:
+                    self._retries += 1
+                    self._state, self._message = LinkState.DISCONNECTED, f"publisher at {self.endpoint} went away; reconnecting"
+                elif not self._auth_failed:
+                    self._state, self._message = LinkState.DISCONNECTED, f"no session with {self.endpoint}; reconnecting"
             elif e in (getattr(zmq, "EVENT_HANDSHAKE_FAILED_AUTH", -1), getattr(zmq, "EVENT_HANDSHAKE_FAILED_PROTOCOL", -1),
                        getattr(zmq, "EVENT_HANDSHAKE_FAILED_NO_DETAIL", -1)):
-                self._state = LinkState.DISCONNECTED
+                self._state, self._auth_failed = LinkState.DISCONNECTED, True
                 self._message = f"handshake with {self.endpoint} failed (CURVE keys refused or mismatched); retrying"
             elif e == zmq.EVENT_CONNECT_RETRIED and self._state is not LinkState.CONNECTED:
                 if self._state is LinkState.CONNECTING:
