@@ -17,6 +17,7 @@ from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceSta
 from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent
 from monitor.config import Config
+from monitor.errors import UsageError
 from monitor.model import Frame
 from monitor.pipeline import Pipeline
 from monitor.pipeline.rolling import Trail
@@ -226,10 +227,8 @@ class Session:
         self._trail.add(frame.t, frame.values)
         self._fan("on_frame", frame)
         if self.engine is not None:
-            stats = self.pipeline.stats(frame.source)
-            events = list(self.engine.tick(float(frame.t[0]), frame.source))
-            events += list(self.engine.process(frame, stats))
-            self._dispatch(events)
+            # gaps inside and before the frame are the engine's to judge (stale in data time)
+            self._dispatch(self.engine.process(frame, self.pipeline.stats(frame.source)))
 
     def _dispatch(self, events: Iterable[AlarmEvent]) -> None:
         for ev in events:
@@ -285,12 +284,17 @@ class Session:
                 return []
             at = self.now()
             at = at if at is not None else 0.0
-            events = list(getattr(self.engine, name)(*args, at=at))
+            try:
+                events = list(getattr(self.engine, name)(*args, at=at))
+            except UsageError as exc:          # an unknown alarm id: the caller's mistake, not ours
+                raise KeyError(str(exc)) from None
             self._dispatch(events)
             return events
 
     def acknowledge(self, alarm: str | None = None) -> list[AlarmEvent]:
-        """Acknowledge one alarm, or every unacknowledged one with None."""
+        """Acknowledge one alarm, or every unacknowledged one with None.
+
+        The operator actions date their events at ``now()``; an unknown alarm id raises KeyError."""
         return self._action("acknowledge", alarm)
 
     def shelve(self, alarm: str, seconds: float | None = None) -> list[AlarmEvent]:

@@ -1,0 +1,195 @@
+"""Session: source -> pipeline -> alarm engine -> sinks, snapshots from another thread, source failure policy."""
+
+from __future__ import annotations
+
+import threading
+import time
+
+import numpy as np
+import pytest
+
+from adapters.base import FatalSourceError, LinkState, TransientSourceError
+from adapters.batch import Rejection
+from monitor.config import Config, parse_config
+from monitor.session import Session, make_engine
+from pipeline_helpers import CollectSink, ListSource, make_batch
+
+
+def steady(t0: float, n: int = 1000, ne: float = 1e17, seq0: int | None = None, **extra):
+    t = t0 + np.arange(n) * 1e-3
+    te = np.full(n, np.nan)
+    te[::50] = 3.0
+    seq = None if seq0 is None else seq0 + np.arange(n)
+    return make_batch(t, seq=seq, ne=np.full(n, ne), Te=te, **extra)
+
+
+def drive(session: Session, limit: int = 1000) -> None:
+    for _ in range(limit):
+        if not session.step(0.01):
+            return
+    raise AssertionError("the session did not end")
+
+
+def test_frames_rejections_and_counts_reach_the_sinks(collect: CollectSink) -> None:
+    bad = steady(1.0, 10, seq0=1000)
+    bad.columns["ne"][3] = -5.0
+    src = ListSource([steady(0.0, seq0=0), Rejection("probe", "malformed", b"ne=??", 0.0), bad])
+    s = Session(src, Config(), [collect], live=False)
+    drive(s)
+    assert s.ended and s.failure is None
+    assert [len(f) for f in collect.frames] == [1000, 9]
+    assert [r.reason for r in collect.rejections] == ["malformed", "ne_not_positive"]
+    assert collect.rejections[1].raw.startswith(b"t=1.003 seq=1003 ne=-5.0")
+    summary = s.summary()
+    assert summary["accepted"] == 1009
+    assert summary["rejected"] == {"malformed": 1, "ne_not_positive": 1}
+    assert summary["lost"] == 0      # 1000 follows 999
+    assert summary["state"] == "ended"
+    assert [st.state for st in collect.statuses][-1] is LinkState.ENDED
+    s.close()
+    assert collect.closed and src.closed.is_set()
+
+
+def test_snapshot_latest_trails_stats_and_discharge() -> None:
+    src = ListSource([steady(0.0, 3000)])
+    s = Session(src, parse_config({"device": {"length": 0.3}}, None), live=False)
+    drive(s)
+    snap = s.snapshot()
+    assert snap.data_time == pytest.approx(2.999)
+    assert snap.latest["ne"] == (1e17, None)
+    assert np.isfinite(snap.latest["debye_length"][0])
+    assert snap.stats["ne"].n == 3000 and snap.stats["ne"].mean == pytest.approx(1e17)
+    assert set(snap.trail) >= {"ne", "Te", "debye_length"}
+    assert 20 <= len(snap.trail_t) <= 600 and np.all(np.diff(snap.trail_t) > 0)
+    assert snap.discharge_on and not snap.live
+    assert snap.counts["probe"].accepted == 3000
+    assert snap.sources["probe"].state is LinkState.ENDED
+
+
+def test_transient_error_is_a_status_and_the_session_goes_on(collect: CollectSink) -> None:
+    src = ListSource([steady(0.0, 100), TransientSourceError("cable pulled"), steady(0.2, 100)])
+    s = Session(src, Config(), [collect], live=False)
+    drive(s)
+    states = [st.state for st in collect.statuses]
+    assert LinkState.DISCONNECTED in states and states[-1] is LinkState.ENDED
+    assert any("cable pulled" in st.message for st in collect.statuses)
+    assert s.failure is None and s.summary()["accepted"] == 200
+
+
+def test_fatal_error_ends_with_a_failure(collect: CollectSink) -> None:
+    src = ListSource([steady(0.0, 100), FatalSourceError("key file missing")])
+    s = Session(src, Config(), [collect], live=False)
+    drive(s)
+    assert s.failure == "key file missing"
+    assert s.summary()["failure"] == "key file missing" and s.summary()["accepted"] == 100
+    assert collect.statuses[-1].state is LinkState.FAILED
+
+
+def test_a_failing_sink_does_not_stop_the_session(collect: CollectSink) -> None:
+    class Broken:
+        def on_frame(self, frame) -> None:
+            raise OSError("disk full")
+
+    s = Session(ListSource([steady(0.0, 10), steady(0.1, 10)]), Config(), [Broken(), collect], live=False)
+    drive(s)
+    assert len(collect.frames) == 2 and s.sink_errors == 2
+
+
+def test_snapshots_from_another_thread_while_running() -> None:
+    batches = [steady(k * 0.1, 100, seq0=k * 100) for k in range(200)]
+    s = Session(ListSource(batches), Config(), live=False)
+    stop = threading.Event()
+    worker = threading.Thread(target=s.run, kwargs={"stop": stop})
+    worker.start()
+    seen = []
+    deadline = time.monotonic() + 30
+    while worker.is_alive() and time.monotonic() < deadline:
+        snap = s.snapshot()
+        c = snap.counts.get("probe")
+        if c is not None:
+            seen.append(c.accepted)
+            assert len(snap.trail_t) == len(snap.trail["ne"])
+    worker.join(10)
+    assert not worker.is_alive()
+    assert seen == sorted(seen)             # counts only grow
+    assert s.summary()["accepted"] == 20000
+
+
+LIMITS = {
+    "device": {"length": 0.3},
+    "limit": [{"name": "dense", "quantity": "ne", "high": 2e17, "priority": "high"}],
+}
+
+
+def test_alarm_engine_events_and_operator_actions(collect: CollectSink) -> None:
+    config = parse_config(LIMITS, None)
+    engine = make_engine(config)
+    if engine is None:
+        pytest.skip("the alarm engine is not installed")
+    src = ListSource([steady(0.0, 500), steady(0.5, 500, ne=3e17), steady(1.0, 500)])
+    s = Session(src, config, [collect], engine=engine, live=False)
+    drive(s)
+    # the first event takes the limit out of suppression when the discharge is seen on
+    dense = [e for e in collect.alarms if e.alarm == "dense" and e.previous.value != "suppressed"]
+    assert [e.state.value for e in dense] == ["unacknowledged", "returned_unacknowledged"]
+    assert dense[0].time == pytest.approx(0.5)
+    assert dense[1].time == pytest.approx(1.0)
+    views = {v.alarm: v for v in s.snapshot().alarms}
+    assert views["dense"].state.value == "returned_unacknowledged"
+    events = s.acknowledge("dense")
+    assert [e.state.value for e in events] == ["normal"] and events[0].action == "acknowledge"
+    assert collect.alarms[-1] is events[0]
+    with pytest.raises(KeyError):
+        s.acknowledge("no-such-alarm")
+    assert s.summary()["alarm_events"] == len(collect.alarms)
+
+
+def test_live_clock_raises_stale_when_the_source_goes_quiet(collect: CollectSink) -> None:
+    config = parse_config({"sources": {"stale_after": 2.0}}, None)
+    engine = make_engine(config)
+    if engine is None:
+        pytest.skip("the alarm engine is not installed")
+    wall = [1000.0]
+    src = ListSource([steady(50.0, 100)], end=False)
+    s = Session(src, config, [collect], engine=engine, live=True, wall=lambda: wall[0])
+    s.open()
+    s.step(0.01)
+    assert s.now() == pytest.approx(50.099)
+    wall[0] += 1.0
+    s.step(0.01)
+    assert not [e for e in collect.alarms if "stale" in e.alarm]
+    wall[0] += 1.5                   # 2.5 s of silence in data time
+    s.step(0.01)
+    stale = [e for e in collect.alarms if "stale" in e.alarm]
+    assert stale and stale[0].state.value == "unacknowledged"
+    assert stale[0].time == pytest.approx(52.099)     # dated when the data stopped + stale_after
+
+
+def test_replay_controls_are_forwarded_when_the_source_has_them() -> None:
+    class Player(ListSource):
+        def __init__(self) -> None:
+            super().__init__([steady(0.0, 10)])
+            self.calls = []
+
+        def pause(self) -> None:
+            self.calls.append("pause")
+
+        def seek(self, t: float) -> None:
+            self.calls.append(("seek", t))
+
+        def position(self):
+            return (1.5, 0.0, 10.0, None, True)
+
+    plain = Session(ListSource([]), Config(), live=False)
+    assert not plain.pause() and plain.replay_position() is None and not plain.can_replay
+    p = Player()
+    s = Session(p, Config(), live=False)
+    drive(s)
+    assert s.pause() and s.seek(0.0)
+    assert p.calls == ["pause", ("seek", 0.0)]
+    pos = s.replay_position()
+    assert (pos.time, pos.end, pos.speed, pos.paused) == (1.5, 10.0, None, True)
+    assert s.snapshot().replay == pos
+    # after a seek the same times are accepted again
+    s.pipeline.process(steady(0.0, 10))
+    assert s.summary()["rejected"] == {}

@@ -1,0 +1,183 @@
+"""`regime watch` as a real subprocess: headless JSON and human lines, end of file, signals, exit codes, ZeroMQ end to end."""
+
+from __future__ import annotations
+
+import json
+import os
+import selectors
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+
+
+def regime(*args: str, timeout: float = 60) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "monitor", *args], capture_output=True, text=True,
+                          timeout=timeout, cwd=ROOT)
+
+
+def json_lines(text: str) -> list[dict]:
+    out = [json.loads(line) for line in text.splitlines() if line.strip()]
+    assert all("type" in rec for rec in out)
+    return out
+
+
+def test_sim_headless_json_to_the_end() -> None:
+    out = regime("watch", "sim:steady?speed=max&duration=2&seed=3", "--headless", "--json")
+    assert out.returncode == 0, out.stderr
+    recs = json_lines(out.stdout)
+    summary = recs[-1]
+    assert summary["type"] == "summary"
+    assert set(summary) >= {"accepted", "rejected", "lost"}
+    assert summary["accepted"] == 2000 and summary["rejected"] == {} and summary["lost"] == 0
+    status = [r for r in recs if r["type"] == "status"]
+    assert status and status[-1]["accepted"] == 2000
+    assert status[-1]["latest"]["debye_length"] > 0
+
+
+def test_dropout_rejections_counted_by_reason() -> None:
+    out = regime("watch", "sim:dropout?speed=max", "--headless", "--json")
+    assert out.returncode == 0, out.stderr
+    summary = json_lines(out.stdout)[-1]
+    assert summary["accepted"] > 0
+    assert sum(summary["rejected"].values()) == summary["rejected_total"] > 0
+
+
+def test_duration_in_wall_time_with_human_lines() -> None:
+    t0 = time.monotonic()
+    out = regime("watch", "sim:steady", "--headless", "--duration", "1.5")
+    took = time.monotonic() - t0
+    assert out.returncode == 0, out.stderr
+    lines = out.stdout.splitlines()
+    assert any(line.startswith("[connected]") and "debye" in line for line in lines)
+    assert "summary of sim:steady: accepted" in out.stdout
+    accepted = int(out.stdout.split("summary of sim:steady: accepted ")[1].split(",")[0])
+    assert 500 <= accepted <= 3000      # about 1.5 s at 1 kHz
+    assert took >= 1.5
+
+
+@pytest.mark.parametrize("spec", ["nosuch://x", "sim:steady?bogus=1", "sim:steady?rate=-4", "/no/such/file.csv",
+                                  "sim:no-such-scenario", "tcp://192.0.2.7:5555"])
+def test_bad_source_spec_exits_2(spec: str) -> None:
+    out = regime("watch", spec, "--headless", "--duration", "1")
+    assert out.returncode == 2, (out.stdout, out.stderr)
+    assert out.stderr.strip() and "Traceback" not in out.stderr
+
+
+def test_csv_file_plays_to_its_end(tmp_path: Path) -> None:
+    p = tmp_path / "probe.csv"
+    rows = ["t,ne,Te"] + [f"{k * 0.001:.3f},{1e17 + k * 1e13:.6g},{3.0:.3f}" for k in range(500)]
+    rows[101] = "0.100,-1e17,3.0"      # refused by value
+    p.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    out = regime("watch", str(p), "--headless", "--json")
+    assert out.returncode == 0, out.stderr
+    summary = json_lines(out.stdout)[-1]
+    assert summary["accepted"] == 499 and summary["rejected"] == {"ne_not_positive": 1}
+
+
+def test_foreign_csv_through_a_channel_map(tmp_path: Path) -> None:
+    cfg = tmp_path / "probe.toml"
+    cfg.write_text('[channels]\ntime_ms = { quantity = "t", unit = "ms" }\n'
+                   'dens = { quantity = "ne", unit = "cm^-3" }\ntemp = { quantity = "Te", unit = "K" }\n',
+                   encoding="utf-8")
+    p = tmp_path / "log.csv"
+    p.write_text("time_ms,dens,temp,bias\n" + "".join(f"{k},{1e11},{35000},{-40}\n" for k in range(300)),
+                 encoding="utf-8")
+    out = regime("watch", str(p), "--config", str(cfg), "--headless", "--json")
+    assert out.returncode == 0, out.stderr
+    recs = json_lines(out.stdout)
+    assert recs[-1]["accepted"] == 300 and recs[-1]["unknown_keys"] == {"bias": 300}
+    status = [r for r in recs if r["type"] == "status"][-1]
+    assert status["latest"]["ne"] == pytest.approx(1e17)
+    assert status["latest"]["Te"] == pytest.approx(35000 * 1.380649e-23 / 1.602176634e-19)  # CODATA k/e
+    assert status["time"] == pytest.approx(0.299)
+
+
+def read_until(proc: subprocess.Popen, want, deadline: float) -> list[str]:
+    """Lines of proc.stdout until want(line) is true or the deadline passes."""
+    sel = selectors.DefaultSelector()
+    sel.register(proc.stdout, selectors.EVENT_READ)
+    lines: list[str] = []
+    while time.monotonic() < deadline:
+        if not sel.select(timeout=0.2):
+            continue
+        line = proc.stdout.readline()
+        if not line:
+            break
+        lines.append(line)
+        if want(line):
+            break
+    return lines
+
+
+@pytest.mark.parametrize("sig", [signal.SIGTERM, signal.SIGINT])
+def test_signal_prints_the_summary(sig: int) -> None:
+    proc = subprocess.Popen([sys.executable, "-m", "monitor", "watch", "sim:steady", "--headless", "--json"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    try:
+        first = read_until(proc, lambda line: '"type":"status"' in line, time.monotonic() + 30)
+        assert first, "no status line within 30 s"
+        proc.send_signal(sig)
+        rest, err = proc.communicate(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 0, err
+    summary = json_lines("".join(first) + rest)[-1]
+    assert summary["type"] == "summary" and summary["accepted"] > 0
+
+
+def test_zeromq_end_to_end_every_reading_accounted() -> None:
+    zmq = pytest.importorskip("zmq")
+    pytest.importorskip("adapters.zmq_stream")
+    ctx = zmq.Context()
+    pub = ctx.socket(zmq.XPUB)
+    pub.setsockopt(zmq.LINGER, 0)
+    pub.setsockopt(zmq.SNDHWM, 100_000)    # the publisher's own queue must hold the burst (else it drops)
+    port = pub.bind_to_random_port("tcp://127.0.0.1")
+    proc = subprocess.Popen([sys.executable, "-m", "monitor", "watch", f"tcp://127.0.0.1:{port}",
+                             "--headless", "--json"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    try:
+        poller = zmq.Poller()
+        poller.register(pub, zmq.POLLIN)
+        assert poller.poll(30_000), "the subscriber never subscribed"
+        pub.recv()                                     # the subscription message
+        sent, skipped, negative = 0, 0, 0
+        for seq in range(3000):
+            if seq % 100 == 50:
+                skipped += 1                           # never sent: lost by seq
+                continue
+            ne = -1e17 if seq % 250 == 7 else 1e17 + seq * 1e12
+            negative += ne < 0
+            pub.send(json.dumps({"t": 10 + seq * 1e-3, "seq": seq, "ne": ne, "Te": 2.5}).encode())
+            sent += 1
+        pub.send(b"ne=not-a-number seq=3000 t=13.0")    # refused by the parser
+        pub.send(json.dumps({"t": 13.001, "seq": 3001, "ne": 1e17, "Te": 2.5}).encode())
+        sent += 1
+        want = sent - negative
+
+        def done(line: str) -> bool:
+            rec = json.loads(line)
+            return rec.get("type") == "status" and rec["accepted"] >= want
+
+        lines = read_until(proc, done, time.monotonic() + 30)
+        proc.send_signal(signal.SIGTERM)
+        rest, err = proc.communicate(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        pub.close()
+        ctx.term()
+    assert proc.returncode == 0, err
+    summary = json_lines("".join(lines) + rest)[-1]
+    assert summary["accepted"] == want
+    assert summary["rejected"].get("ne_not_positive") == negative
+    assert sum(summary["rejected"].values()) == negative + 1
+    # seq 3000 was refused by the parser before it had a seq: it counts as rejected and as missing by seq
+    assert summary["lost"] == skipped + 1
