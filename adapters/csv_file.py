@@ -276,13 +276,11 @@ class CsvSource:
                 raise FatalSourceError(f"{self.path}: not open")
             if self._ended:
                 return Polled(status=self.status())
-            if self._paused and self._step_budget is None:
-                wait = timeout
-            else:
-                wait = 0.0
-        if wait > 0:
-            self._wake.wait(wait)
-            self._wake.clear()
+            held = self._paused and self._step_budget is None
+        if held:
+            if timeout > 0:
+                self._wake.wait(timeout)
+                self._wake.clear()
             return Polled(rejections=self._take_rejections(), status=self.status())
         with self._lock:
             out, wait = self._collect()
@@ -393,8 +391,15 @@ class CsvSource:
     def resume(self) -> None:
         with self._lock:
             self._paused = False
-            self._anchor = None
+            self._reanchor()
         self._wake.set()
+
+    def _reanchor(self) -> None:
+        """Speed counts from now, at the current position in data time."""
+        if self._current is not None:
+            self._anchor = (self._clock(), self._current)
+        else:
+            self._anchor = None
 
     def step(self, seconds: float | None = None) -> None:
         """While paused, release the next ``seconds`` of data time (default ``step_seconds``)."""
@@ -409,7 +414,7 @@ class CsvSource:
             raise ValueError("speed must be positive, or None for as fast as possible")
         with self._lock:
             self._speed = speed
-            self._anchor = None
+            self._reanchor()
         self._wake.set()
 
     def seek(self, t: float) -> None:
@@ -438,7 +443,7 @@ class CsvSource:
                     break
             self._start = old_start
             self._current = t
-            self._anchor = None
+            self._reanchor()
         self._wake.set()
 
     def position(self) -> tuple[float, float, float | None, float | None, bool]:
