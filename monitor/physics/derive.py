@@ -166,7 +166,7 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
     if dc.cutoff_density is not None:
         V["cutoff_density"] = dc.cutoff_density
         if ne is not None:
-            V["cutoff_ratio"] = ne * (1.0 / dc.cutoff_density)
+            V["cutoff_ratio"] = ne / dc.cutoff_density
     S = propagate(M.sqrt, V, aux, Q) if Q else {}
     return V, S, W
 
@@ -223,12 +223,15 @@ def _bad_len(key: str, got: int, n: int) -> np.ndarray:
     raise ValueError(f"sigma {key!r} has {got} samples, inputs have {n}")
 
 
-def _squares(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts) -> dict[str, Any] | None:
+def _squares(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts, ieee: bool) -> dict[str, Any] | None:
     """Squared relative uncertainties of the inputs and device constants that have a sigma."""
     if not sig:
         return None
     values = dict(x)
-    values.update(L=dc.length, f=dc.frequency, Tgas=dc.gas_temperature, sigma_en=dc.sigma_en)
+    for key, v in (("L", dc.length), ("f", dc.frequency), ("Tgas", dc.gas_temperature), ("sigma_en", dc.sigma_en)):
+        if v is not None:
+            # vector pass: IEEE division (a zero gives inf); the scalar pass falls back on ZeroDivisionError
+            values[key] = np.float64(v) if ieee else v
     return relative_squares(sig, values)
 
 
@@ -259,7 +262,7 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         _warm_allocator()
     with np.errstate(all="ignore"):
         x, invalid = validate_vector(cols, n)
-        V, S, W = _core(_VECTOR, x, dc, _squares(sig, x, dc))
+        V, S, W = _core(_VECTOR, x, dc, _squares(sig, x, dc, True))
     if "plasma_beta" in V and "Ti" not in x:
         W["plasma_beta_electrons_only"] = True
     invalid.update(_device_invalid(dc, n))
@@ -289,7 +292,7 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         x = {k: v[i] for k, v in lists.items()}
         for reason in validate_scalar(x):
             reasons.setdefault(reason, []).append(i)
-        V, S, W = _core(_SCALAR, x, dc, _squares({k: v[i] for k, v in slists.items()}, x, dc))
+        V, S, W = _core(_SCALAR, x, dc, _squares({k: v[i] for k, v in slists.items()}, x, dc, False))
         if i == 0:
             vnames, snames = list(V), list(S)
         vrows.append([V[k] for k in vnames])

@@ -51,32 +51,33 @@ def _positive(value: float | None, name: str, bad: list[str], allow_zero: bool =
 
 @lru_cache(maxsize=64)
 def device_consts(device: Device) -> DeviceConsts:
-    """Fold a Device into the scalars the hot path multiplies by."""
+    """Fold a Device into the scalars the hot path multiplies by (never raises: IEEE arithmetic)."""
     bad: list[str] = []
     length = None if device.length is None else _positive(device.length, "L", bad)
     freq = None if device.wave_frequency is None else _positive(device.wave_frequency, "f", bad)
-    a = _positive(device.ion_mass_u, "A", bad)
-    z = _positive(device.ion_charge, "Z", bad)
-    tgas = _positive(device.gas_temperature, "Tgas", bad)
-    sigma_en = _positive(device.sigma_en, "sigma_en", bad, allow_zero=True)
-    mi = a * C.ATOMIC_MASS
-    nc = None
-    if freq is not None:
-        w = 2.0 * math.pi * freq
-        nc = C.EPSILON_0 * C.ELECTRON_MASS * w * w / C.ELEMENTARY_CHARGE**2
-    ln_z = math.log(z) if z > 0 else math.nan
-    return DeviceConsts(
-        length=length, frequency=freq, gas_temperature=tgas, sigma_en=sigma_en, cutoff_density=nc,
-        wpi_factor=math.sqrt(z * C.ELECTRON_MASS / mi) if mi > 0 else math.nan,
-        wci_factor=z * C.ELEMENTARY_CHARGE / mi if mi > 0 else math.nan,
-        vti_factor=math.sqrt(C.ELEMENTARY_CHARGE / mi) if mi > 0 else math.nan,
-        mass_ratio=C.ELECTRON_MASS / mi if mi > 0 else math.nan,
-        inv_z=1.0 / z if z > 0 else math.nan, ln_z=ln_z,
-        coulomb_low=COULOMB_LOW_CONST - ln_z, coulomb_high=COULOMB_HIGH_CONST,
-        coulomb_branch=COULOMB_BRANCH_EV * z * z,
-        n0_factor=1.0 / (C.BOLTZMANN * tgas) if tgas > 0 else math.nan,
-        invalid=tuple(bad),
-    )
+    with np.errstate(all="ignore"):
+        a = np.float64(_positive(device.ion_mass_u, "A", bad))
+        z = np.float64(_positive(device.ion_charge, "Z", bad))
+        tgas = np.float64(_positive(device.gas_temperature, "Tgas", bad))
+        sigma_en = _positive(device.sigma_en, "sigma_en", bad, allow_zero=True)
+        mi = a * C.ATOMIC_MASS
+        nc = None
+        if freq is not None:
+            w = 2.0 * np.pi * np.float64(freq)
+            nc = float(C.EPSILON_0 * C.ELECTRON_MASS * w * w / C.ELEMENTARY_CHARGE**2)
+        ln_z = np.log(z)
+        return DeviceConsts(
+            length=length, frequency=freq, gas_temperature=float(tgas), sigma_en=sigma_en, cutoff_density=nc,
+            wpi_factor=float(np.sqrt(z * C.ELECTRON_MASS / mi)),
+            wci_factor=float(z * C.ELEMENTARY_CHARGE / mi),
+            vti_factor=float(np.sqrt(C.ELEMENTARY_CHARGE / mi)),
+            mass_ratio=float(C.ELECTRON_MASS / mi),
+            inv_z=float(1.0 / z), ln_z=float(ln_z),
+            coulomb_low=float(COULOMB_LOW_CONST - ln_z), coulomb_high=COULOMB_HIGH_CONST,
+            coulomb_branch=float(COULOMB_BRANCH_EV * z * z),
+            n0_factor=float(1.0 / (C.BOLTZMANN * tgas)),
+            invalid=tuple(bad),
+        )
 
 
 def validate_scalar(x: dict[str, float]) -> list[str]:
