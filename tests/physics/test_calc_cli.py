@@ -1,0 +1,112 @@
+"""`regime calc`: the table, the --json contract, and clear exit-2 errors (installed script and in process)."""
+
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from monitor.cli import main
+from monitor.physics import REQUIRES
+from monitor.quantities import ALL, DERIVED
+
+SCRIPT = Path(sys.executable).with_name("regime")
+FULL_ARGS = ["ne=5e16m-3", "Te=3eV±10%", "Ti=0.05eV", "L=0.3m", "f=2.45GHz", "B=0.05T", "p0=2Pa"]
+
+
+def _calc_json(capsys: pytest.CaptureFixture[str], *args: str) -> dict:
+    assert main(["calc", "--json", *args]) == 0
+    return json.loads(capsys.readouterr().out)
+
+
+def test_installed_script_prints_the_table() -> None:
+    out = subprocess.run([str(SCRIPT), "calc", *FULL_ARGS], capture_output=True, text=True, timeout=60)
+    assert out.returncode == 0, out.stderr
+    for q in DERIVED:
+        assert q.name in out.stdout
+    assert "quasi-neutral: L/lambda_D" in out.stdout
+    assert "many particles per Debye sphere" in out.stdout
+    assert "under cutoff" in out.stdout and "electrons magnetised" in out.stdout
+    assert "± " in out.stdout and "not a safety interlock" in out.stdout
+
+
+def test_installed_script_json_is_the_contract() -> None:
+    out = subprocess.run([str(SCRIPT), "calc", "--json", *FULL_ARGS], capture_output=True, text=True, timeout=60)
+    assert out.returncode == 0, out.stderr
+    data = json.loads(out.stdout)
+    assert set(data) == {q.name for q in DERIVED}
+    for name, entry in data.items():
+        assert set(entry) == {"value", "unit", "sigma"}
+        assert isinstance(entry["value"], float) and math.isfinite(entry["value"])
+        assert entry["unit"] == ALL[name].unit
+        assert entry["sigma"] is None or (isinstance(entry["sigma"], float) and entry["sigma"] >= 0)
+    # Te carries 10 %: lambda_D ~ Te^1/2 gets 5 %
+    assert data["debye_length"]["sigma"] == pytest.approx(0.05 * data["debye_length"]["value"])
+    assert data["electron_cyclotron_frequency"]["sigma"] is None      # B given exactly
+
+
+@pytest.mark.parametrize("args", [
+    ["ne=1e17", "Te=2"], ["ne=1e17cm-3", "Te=2eV", "B=0.1T"], ["B=875G"], ["f=2.45GHz"],
+    ["Te=5eV", "p0=10mTorr"], ["ne=1e17", "Te=2", "Ti=0.1", "B=0.1", "L=10cm", "A=4.0026", "Z=1"],
+])
+def test_json_gives_every_quantity_its_inputs_allow(capsys: pytest.CaptureFixture[str], args: list[str]) -> None:
+    data = _calc_json(capsys, *args)
+    have = {a.split("=")[0] for a in args}
+    assert set(data) == {name for name, needs in REQUIRES.items() if set(needs) <= have}
+
+
+def test_json_values_match_the_nrl_formulary(capsys: pytest.CaptureFixture[str]) -> None:
+    data = _calc_json(capsys, "ne=1e10cm-3", "Te=2eV", "B=1000G")
+    # NRL Plasma Formulary: lambda_D = 7.43e2 Te^1/2 ne^-1/2 cm; omega_ce = 1.76e7 B rad/s (B in gauss)
+    assert data["debye_length"]["value"] == pytest.approx(7.43e2 * math.sqrt(2 / 1e10) * 1e-2, rel=5e-3)
+    assert data["electron_cyclotron_frequency"]["value"] == pytest.approx(1.76e7 * 1000, rel=5e-3)
+
+
+def test_device_uncertainties_propagate(capsys: pytest.CaptureFixture[str]) -> None:
+    data = _calc_json(capsys, "ne=5e16", "Te=3", "L=0.3m±1cm", "f=2.45GHz±1%")
+    assert data["debye_ratio"]["sigma"] == pytest.approx(data["debye_ratio"]["value"] / 30)
+    assert data["cutoff_density"]["sigma"] == pytest.approx(0.02 * data["cutoff_density"]["value"])
+
+
+def test_table_says_beta_is_electrons_only_without_ti(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["calc", "ne=5e16", "Te=3", "B=0.05"]) == 0
+    out = capsys.readouterr().out
+    assert "electrons only: Ti not given" in out
+    assert "ion_gyroradius [Ti]" in out
+
+
+def test_table_shows_a_failed_criterion(capsys: pytest.CaptureFixture[str]) -> None:
+    # a dense, cold, atmospheric-pressure case: collision-dominated and over the 2.45 GHz cutoff
+    assert main(["calc", "ne=1e19", "Te=0.5", "p0=1000mbar", "f=2.45GHz", "L=0.1"]) == 0
+    out = capsys.readouterr().out
+    assert "NO  collision-dominated" in out
+    assert "NO  over cutoff" in out
+
+
+@pytest.mark.parametrize(("args", "message"), [
+    (["ne=-5", "Te=3"], "ne=-5 is not a meaningful reading"),
+    (["ne=nan", "Te=3"], "ne=nan is not a meaningful reading"),
+    (["ne=1e17", "Te=1e9"], "Te=1e+09 is not a meaningful reading"),
+    (["ne=5e16", "Te=3furlong"], "unknown unit 'furlong'"),
+    (["foo=3"], "unknown key 'foo'"),
+    (["ne"], "expected KEY=VALUE"),
+    (["ne=1e17", "ne=2e17"], "ne given twice"),
+    (["ne=1e17", "Te=3", "L=0m"], "L must be finite and > 0"),
+    (["ne=1e17", "Te=3", "Z=1±0.1"], "Z takes no uncertainty"),
+    ([], "nothing to derive"),
+])
+def test_bad_arguments_exit_2_with_a_clear_message(capsys: pytest.CaptureFixture[str], args: list[str],
+                                                   message: str) -> None:
+    assert main(["calc", *args]) == 2
+    err = capsys.readouterr().err
+    assert message in err and err.startswith("regime calc: ")
+
+
+def test_installed_script_exit_code_on_bad_input() -> None:
+    out = subprocess.run([str(SCRIPT), "calc", "ne=-1", "Te=3"], capture_output=True, text=True, timeout=60)
+    assert out.returncode == 2
+    assert "ne=-1 is not a meaningful reading" in out.stderr and out.stdout == ""
