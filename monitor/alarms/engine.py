@@ -155,9 +155,9 @@ class AlarmEngine:
             keep(self._quality(src, t, valid))
             on = self._discharge(frame)
             segments = self._segments(on, n)
-            ok_cache: dict[str, np.ndarray | None] = {}
+            cache: dict[Any, Any] = {}
             for lim in self._limits:
-                keep(self._evaluate(lim, frame, t, valid, segments, ok_cache))
+                keep(self._evaluate(lim, frame, t, valid, segments, cache))
             for core in self._cores.values():
                 keep(core.fire_due(float(t[-1]), strict=False))
             if on is not None:
@@ -205,16 +205,34 @@ class AlarmEngine:
                                              self.options.quality_above)
         return events
 
+    @staticmethod
+    def _samples(cache: dict[Any, Any], frame: Frame, t: np.ndarray, valid: np.ndarray, quantity: str,
+                 a: int, b: int, with_sigma: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+        """The evaluable samples (valid, finite) of ``quantity`` in [a, b): shared by its limits."""
+        key = (quantity, a, b, with_sigma)
+        hit = cache.get(key)
+        if hit is not None:
+            return hit
+        v = frame.values[quantity]
+        if quantity not in cache:
+            mask = valid & np.isfinite(v)
+            cache[quantity] = None if mask.all() else mask
+        ok = cache[quantity]
+        sigma = frame.sigma.get(quantity) if with_sigma else None
+        ts, vs = t[a:b], v[a:b]
+        ss = sigma[a:b] if sigma is not None else None
+        if ok is not None:
+            sel = np.flatnonzero(ok[a:b])
+            ts, vs = ts[sel], vs[sel]
+            ss = ss[sel] if ss is not None else None
+        cache[key] = (ts, vs, ss)
+        return ts, vs, ss
+
     def _evaluate(self, lim: _Limit, frame: Frame, t: np.ndarray, valid: np.ndarray,
-                  segments: list[tuple[int, int, bool]], ok_cache: dict[str, np.ndarray | None]) -> list[AlarmEvent]:
+                  segments: list[tuple[int, int, bool]], cache: dict[Any, Any]) -> list[AlarmEvent]:
         spec, core = lim.spec, lim.core
         v = frame.values.get(spec.quantity)
         events: list[AlarmEvent] = []
-        if v is not None and spec.quantity not in ok_cache:
-            mask = valid & np.isfinite(v)
-            ok_cache[spec.quantity] = None if mask.all() else mask
-        ok = ok_cache.get(spec.quantity)
-        sigma = frame.sigma.get(spec.quantity) if spec.uncertainty != "none" else None
         cores = [c for c in (core, lim.pcore) if c is not None]
         for a, b, flag in segments:
             if spec.only_when_on and not flag:
@@ -233,12 +251,7 @@ class AlarmEngine:
                     events += c.set_suppressed(False, float(t[a]), value)
             if v is None:
                 continue
-            ts, vs = t[a:b], v[a:b]
-            ss = sigma[a:b] if sigma is not None else None
-            if ok is not None:
-                sel = np.flatnonzero(ok[a:b])
-                ts, vs = ts[sel], vs[sel]
-                ss = ss[sel] if ss is not None else None
+            ts, vs, ss = self._samples(cache, frame, t, valid, spec.quantity, a, b, spec.uncertainty != "none")
             if len(ts):
                 events += self._limit_toggles(lim, ts, vs, ss)
             if lim.predictor is not None and lim.pcore is not None:
