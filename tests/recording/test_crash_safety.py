@@ -70,9 +70,9 @@ def publisher():
     pub.join(timeout=5)
 
 
-@pytest.mark.parametrize("kill_after_rows", [1, 3000, 9000])
+@pytest.mark.parametrize(("kill_after_rows", "then"), [(1, 0.0), (3000, 0.137), (9000, 0.071), (6000, 0.29)])
 def test_sigkill_leaves_whole_lines_and_loses_at_most_the_last_flush(tmp_path: Path, publisher: Publisher,
-                                                                      kill_after_rows: int) -> None:
+                                                                      kill_after_rows: int, then: float) -> None:
     rec = tmp_path / "rec"
     proc = subprocess.Popen([*REGIME, "watch", f"tcp://127.0.0.1:{publisher.port}", "--record", str(rec),
                              "--headless", "--json"], cwd=ROOT, env=env(),
@@ -80,6 +80,7 @@ def test_sigkill_leaves_whole_lines_and_loses_at_most_the_last_flush(tmp_path: P
     try:
         assert wait_for(lambda: any(_rows(p) >= kill_after_rows for p in rec.glob("shot-*.csv")), timeout=60), \
             "the recording never reached the kill point"
+        threading.Event().wait(then)      # not a synchronisation: moves the kill away from the last flush
         killed_at = time.time()
         os.kill(proc.pid, signal.SIGKILL)
         proc.wait(timeout=10)
