@@ -9,7 +9,7 @@ import math
 import sys
 import threading
 import time
-from typing import Any, Callable, Iterable, Mapping
+from typing import Any, Callable, Iterable, Iterator, Mapping
 
 import numpy as np
 
@@ -21,7 +21,7 @@ from monitor.errors import UsageError
 from monitor.model import Frame
 from monitor.pipeline import Pipeline
 from monitor.pipeline.rolling import Trail
-from monitor.snapshot import ReplayPosition, Snapshot
+from monitor.snapshot import ReplayPosition, Snapshot, Stats
 
 __all__ = ["Session", "make_engine", "TRAIL_BASE"]
 
@@ -39,6 +39,28 @@ def make_engine(config: Config) -> Any | None:
         return None
     module = importlib.import_module("monitor.alarms.engine")
     return module.AlarmEngine.from_config(config)
+
+
+class _LazyStats(Mapping[str, Stats]):
+    """The rolling statistics of one source, computed only if the engine reads them."""
+
+    def __init__(self, pipeline: Pipeline, source: str) -> None:
+        self._pipeline, self._source = pipeline, source
+        self._stats: dict[str, Stats] | None = None
+
+    def _get(self) -> dict[str, Stats]:
+        if self._stats is None:
+            self._stats = self._pipeline.stats(self._source)
+        return self._stats
+
+    def __getitem__(self, key: str) -> Stats:
+        return self._get()[key]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._get())
+
+    def __len__(self) -> int:
+        return len(self._get())
 
 
 class Session:
@@ -228,7 +250,7 @@ class Session:
         self._fan("on_frame", frame)
         if self.engine is not None:
             # gaps inside and before the frame are the engine's to judge (stale in data time)
-            self._dispatch(self.engine.process(frame, self.pipeline.stats(frame.source)))
+            self._dispatch(self.engine.process(frame, _LazyStats(self.pipeline, frame.source)))
 
     def _dispatch(self, events: Iterable[AlarmEvent]) -> None:
         for ev in events:

@@ -3,8 +3,9 @@
 The window of ``window`` seconds is cut into ``bins`` buckets of equal width
 (aligned to multiples of the width in data time). Each bucket keeps, per
 quantity, the count, min, max and the sums of t, t^2, x, x^2 and t*x, taken
-relative to the bucket's start time and the bucket's first value so that
-large times (epoch seconds) and large values (1e17 m^-3) lose no precision.
+relative to the bucket's start time and a reference value near the data
+(the first value seen in the batch that opened it) so that large times
+(epoch seconds) and large values (1e17 m^-3) lose no precision.
 The statistics cover the buckets of the last ``bins`` bucket widths up to the
 newest reading: the window is bucket-aligned, its resolution window/bins.
 Memory is (quantities x bins) numbers, whatever the rate or the run length.
@@ -74,25 +75,22 @@ class Rolling:
             return
         names = list(values)
         self._grow(names)
-        rows = np.array([self._index[k] for k in names])
-        x = np.vstack([np.asarray(values[k], dtype=np.float64) for k in names])
         b = np.floor(t / self.width).astype(np.int64)
         if self._last_bin is not None and b[0] < self._last_bin:
             raise ValueError("rolling statistics need non-decreasing time")
         starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
         seg_bin = b[starts]
+        cut = 0
         keep = seg_bin > seg_bin[-1] - self.nbins          # older buckets would be overwritten at once
         if not keep.all():
             first = int(np.flatnonzero(keep)[0])
             cut = int(starts[first])
-            t, x, b = t[cut:], x[:, cut:], b[cut:]
+            t, b = t[cut:], b[cut:]
             starts, seg_bin = starts[first:] - cut, seg_bin[first:]
             n = len(t)
         m = len(starts)
         lengths = np.diff(np.concatenate((starts, [n])))
-        seg_of = np.repeat(np.arange(m), lengths)
         slots = seg_bin % self.nbins
-        mask = np.isfinite(x)
         # buckets met for the first time are cleared; a continuing bucket keeps its reference
         cont = self._bin_id[slots] == seg_bin
         fresh_slots = slots[~cont]
@@ -103,34 +101,66 @@ class Rolling:
             self._min[:, fresh_slots] = np.inf
             self._max[:, fresh_slots] = -np.inf
             self._bin_id[fresh_slots] = seg_bin[~cont]
-        idx = np.where(mask, np.arange(n), n)
-        first_idx = np.minimum.reduceat(idx, starts, axis=1)            # (q, m)
-        first_val = np.take_along_axis(np.where(mask, x, 0.0), np.minimum(first_idx, n - 1), axis=1)
-        first_val = np.where(first_idx < n, first_val, 0.0)
-        old_ref = self._ref[rows][:, slots]
-        old_n = self._n[rows][:, slots]
-        ref = np.where(cont[None, :] & (old_n > 0), old_ref, first_val)   # (q, m)
-        dt = t - b * self.width                                            # in [0, width)
-        dx = np.where(mask, x - ref[:, seg_of], 0.0)
-        dtm = np.where(mask, dt[None, :], 0.0)
-        cnt = np.add.reduceat(mask.astype(np.int64), starts, axis=1)
-        sums = {
-            "st": np.add.reduceat(dtm, starts, axis=1),
-            "stt": np.add.reduceat(dtm * dt[None, :], starts, axis=1),
-            "sx": np.add.reduceat(dx, starts, axis=1),
-            "sxx": np.add.reduceat(dx * dx, starts, axis=1),
-            "stx": np.add.reduceat(dtm * dx, starts, axis=1),
-        }
-        mn = np.minimum.reduceat(np.where(mask, x, np.inf), starts, axis=1)
-        mx = np.maximum.reduceat(np.where(mask, x, -np.inf), starts, axis=1)
-        ix = np.ix_(rows, slots)
-        self._n[ix] += cnt
-        for k in _MOMENTS:
-            self._m[k][ix] += sums[k]
-        self._ref[ix] = ref
-        self._min[ix] = np.minimum(self._min[ix], mn)
-        self._max[ix] = np.maximum(self._max[ix], mx)
+        # split the quantities into those with every value finite (no masks needed) and the rest;
+        # each is taken relative to a reference value c (its first finite value in this batch)
+        full: list[tuple[str, np.ndarray, float]] = []
+        part: list[tuple[str, np.ndarray, float]] = []
+        for name in names:
+            col = np.asarray(values[name], dtype=np.float64)
+            col = col[cut:] if cut else col
+            if math.isfinite(float(np.add.reduce(col))):
+                full.append((name, col, float(col[0])))
+            else:
+                fin = np.isfinite(col)
+                i = int(fin.argmax())
+                part.append((name, col, float(col[i]) if fin[i] else 0.0))
+        dt = t - b * self.width                                  # in [0, width)
+        for group, masked in ((full, False), (part, True)):
+            if group:
+                self._add_group(group, masked, dt, starts, lengths, slots)
         self._last_bin = int(seg_bin[-1])
+
+    def _add_group(self, group: list[tuple[str, np.ndarray, float]], masked: bool, dt: np.ndarray,
+                   starts: np.ndarray, lengths: np.ndarray, slots: np.ndarray) -> None:
+        q, n = len(group), len(dt)
+        rows = np.array([self._index[name] for name, _, _ in group])
+        c = np.array([ref for _, _, ref in group])
+        dx = np.empty((q, n))
+        for i, (_, col, ref) in enumerate(group):
+            np.subtract(col, ref, out=dx[i])
+        if masked:
+            fin = np.isfinite(dx)
+            dx[~fin] = 0.0
+            dtm = np.where(fin, dt, 0.0)
+            cnt = np.add.reduceat(fin.astype(np.int64), starts, axis=1)
+            st = np.add.reduceat(dtm, starts, axis=1)
+            stt = np.add.reduceat(dtm * dt, starts, axis=1)
+            stx = np.add.reduceat(dx * dt, starts, axis=1)
+            mn = np.minimum.reduceat(np.where(fin, dx, np.inf), starts, axis=1)
+            mx = np.maximum.reduceat(np.where(fin, dx, -np.inf), starts, axis=1)
+        else:
+            cnt = np.broadcast_to(lengths, (q, len(starts)))
+            st = np.broadcast_to(np.add.reduceat(dt, starts), (q, len(starts)))
+            stt = np.broadcast_to(np.add.reduceat(dt * dt, starts), (q, len(starts)))
+            stx = np.add.reduceat(dx * dt, starts, axis=1)
+            mn = np.minimum.reduceat(dx, starts, axis=1)
+            mx = np.maximum.reduceat(dx, starts, axis=1)
+        sx = np.add.reduceat(dx, starts, axis=1)
+        sxx = np.add.reduceat(dx * dx, starts, axis=1)
+        ix = np.ix_(rows, slots)
+        old_n = self._n[ix]
+        cc = c[:, None]
+        ref = np.where(old_n > 0, self._ref[ix], cc)             # a bucket keeps its first reference
+        e = cc - ref                                              # x - ref = (x - c) + e
+        self._n[ix] = old_n + cnt
+        self._m["st"][ix] += st
+        self._m["stt"][ix] += stt
+        self._m["sx"][ix] += sx + cnt * e
+        self._m["sxx"][ix] += sxx + 2.0 * e * sx + cnt * e * e
+        self._m["stx"][ix] += stx + e * st
+        self._ref[ix] = ref
+        self._min[ix] = np.minimum(self._min[ix], mn + cc)
+        self._max[ix] = np.maximum(self._max[ix], mx + cc)
 
     def window_start(self) -> float | None:
         """Data time from which the current window counts readings."""
