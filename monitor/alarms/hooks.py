@@ -16,7 +16,7 @@ from monitor.alarms.events import AlarmEvent, Priority
 from monitor.alarms.journal import event_line
 from monitor.model import Frame
 
-__all__ = ["HookResult", "HookRunner", "expand"]
+__all__ = ["HookResult", "HookRunner", "expand", "hook_sink"]
 
 log = logging.getLogger("monitor.alarms.hooks")
 _FIELDS = ("alarm", "state", "previous", "priority", "quantity", "value", "limit", "time", "kind", "message")
@@ -123,3 +123,9 @@ class HookRunner:
             except queue.Full:
                 pass
             self._thread.join(timeout)
+
+
+def hook_sink(options: object | None) -> HookRunner | None:
+    """A HookRunner for the hooks of an AlarmOptions (``config.alarms``), or None when none are configured."""
+    hooks = getattr(options, "hooks", None)
+    return HookRunner(hooks) if hooks else None

@@ -136,3 +136,28 @@ def test_certain_mode_returns_only_when_clear_by_k_sigma_too() -> None:
     eng = engine([{"name": "u", "quantity": "Te", "high": 10.0, "uncertainty": "certain", "k": 1}])
     eng.process(frame([0.0, 1.0, 2.0], Te=[5.0, 12.0, 10.5], sigma={"Te": [0.1, 0.5, 1.0]}))
     assert eng.state("u").value == "returned_unacknowledged"   # 10.5 - 1.0 < 10
+
+
+def test_re_alarm_of_a_standing_alarm_in_data_time() -> None:
+    eng = engine([{"name": "hot", "quantity": "Te", "high": 5.0, "realarm_after": 2.0}])
+    events = eng.process(frame(T[:200], Te=np.where(T[:200] >= 1.0, 9.0, 3.0)))
+    assert summary(events, "hot")[1:] == [(1.0, "normal", "unacknowledged")]
+    eng.acknowledge("hot", 1.5)
+    events = eng.process(frame(T[200:700], Te=np.full(500, 9.0)))        # still in alarm until 7 s
+    realarms = [(round(e.time, 6), e.previous.value, e.state.value, e.message) for e in events if e.alarm == "hot"]
+    assert realarms == [(3.0, "acknowledged", "unacknowledged", "re-alarm"),
+                        (5.0, "unacknowledged", "unacknowledged", "re-alarm")]
+
+
+def test_engine_from_the_full_config_loader(tmp_path) -> None:
+    from monitor.alarms.engine import AlarmEngine
+    from monitor.config import load_config
+
+    path = tmp_path / "c.toml"
+    path.write_text('[discharge]\non_above = "1e10 cm^-3"\n[sources]\nstale_after = 0.5\n'
+                    '[alarms]\nmax_shelve = "10 s"\n[[limit]]\nname = "hot"\nquantity = "Te"\nhigh = "5 eV"\n')
+    eng = AlarmEngine.from_config(load_config(path))
+    assert eng.on_above == pytest.approx(1e16) and eng.stale_after == 0.5 and eng.options.max_shelve == 10.0
+    eng.process(frame([0.0, 1.0], Te=[3.0, 9.0]))
+    (ev,) = eng.shelve("hot", 60.0, 1.0)
+    assert ev.state.value == "shelved" and "maximum is 10 s" in ev.message
