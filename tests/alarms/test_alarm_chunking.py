@@ -7,7 +7,7 @@ from typing import Any
 import numpy as np
 from hypothesis import given, settings, strategies as st
 
-from conftest import OFF, ON, engine, frame
+from alarm_helpers import OFF, ON, engine, frame
 from monitor.alarms.events import AlarmEvent
 from monitor.model import Frame
 

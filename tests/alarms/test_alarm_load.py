@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from conftest import engine, frame
+from alarm_helpers import engine, frame
 from monitor.alarms.events import AlarmEvent, AlarmState, Priority
 from monitor.alarms.load import LoadTracker, is_activation
 

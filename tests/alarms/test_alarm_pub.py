@@ -8,7 +8,7 @@ import time
 import pytest
 import zmq
 
-from conftest import engine, frame
+from alarm_helpers import engine, frame
 from monitor.alarms.publisher import AlarmPublisher, normalise_endpoint
 from monitor.errors import UsageError
 

@@ -6,7 +6,7 @@ from typing import Any
 
 import pytest
 
-from conftest import FakeClock, engine, frame
+from alarm_helpers import FakeClock, engine, frame
 from monitor.alarms.events import AlarmState as S, Priority
 from monitor.alarms.states import AlarmCore
 from monitor.errors import UsageError

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import engine, frame, summary
+from alarm_helpers import engine, frame, summary
 
 DT = 0.01
 T = np.arange(0, 1000) * DT          # 10 s at 100 Hz

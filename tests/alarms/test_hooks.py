@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from conftest import engine, frame
+from alarm_helpers import engine, frame
 from monitor.alarms.envelope import parse_alarm_options
 from monitor.alarms.hooks import HookRunner, expand
 from monitor.errors import ConfigError

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from conftest import engine, frame
+from alarm_helpers import engine, frame
 from monitor.alarms.journal import JournalSink, read_journal
 
 REQUIRED = {"type", "time", "wall", "alarm", "quantity", "value", "limit", "state", "previous", "priority",

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import engine, frame
+from alarm_helpers import engine, frame
 
 DT = 0.01
 

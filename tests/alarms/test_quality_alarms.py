@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from conftest import engine, frame, summary
+from alarm_helpers import engine, frame, summary
 
 DT = 0.01
 

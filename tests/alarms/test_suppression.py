@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from conftest import OFF, ON, engine, frame, summary
+from alarm_helpers import OFF, ON, engine, frame, summary
 
 DT = 0.01
 T = np.arange(0, 1000) * DT

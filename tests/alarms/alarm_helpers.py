@@ -1,4 +1,4 @@
-"""Shared helpers for the alarm tests: frames from plain arrays, an injected wall clock, an engine builder."""
+"""Shared helpers for the alarm tests (imported by name; no fixtures): frames from arrays, an injected wall clock."""
 
 from __future__ import annotations
 
@@ -6,7 +6,6 @@ import itertools
 from typing import Any, Iterable, Mapping
 
 import numpy as np
-import pytest
 
 from monitor.alarms.engine import AlarmEngine
 from monitor.alarms.envelope import AlarmOptions, LimitSpec, parse_alarm_options, parse_limits
@@ -50,8 +49,3 @@ def engine(limits: list[dict[str, Any]] | tuple[LimitSpec, ...], options: dict[s
 def summary(events: list[AlarmEvent], alarm: str | None = None) -> list[tuple[float, str, str]]:
     """(time rounded to 1 us, previous, state) of the events, optionally of one alarm."""
     return [(round(e.time, 6), e.previous.value, e.state.value) for e in events if alarm is None or e.alarm == alarm]
-
-
-@pytest.fixture
-def clock() -> FakeClock:
-    return FakeClock()
