@@ -139,7 +139,7 @@ class AlarmEngine:
         n = len(frame)
         if n == 0:
             return []
-        with self._lock:
+        with self._lock, np.errstate(all="ignore"):
             t = np.asarray(frame.t, dtype=np.float64)
             out: list[tuple[float, int, int, AlarmEvent]] = []
             seq = [0]
@@ -266,7 +266,7 @@ class AlarmEngine:
         spec = lim.spec
         v_hi = v_lo = vs
         if ss is not None and spec.uncertainty != "none":
-            ks = spec.k * np.where(np.isfinite(ss), ss, 0.0)
+            ks = spec.k * np.where(np.isfinite(ss), np.abs(ss), 0.0)
             sign = -1.0 if spec.uncertainty == "certain" else 1.0
             v_hi, v_lo = vs + sign * ks, vs - sign * ks
         if spec.high is not None and spec.low is not None:

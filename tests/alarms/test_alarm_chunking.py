@@ -80,3 +80,23 @@ def test_the_scenario_exercises_the_engine() -> None:
     assert ("limit", "unacknowledged") in kinds and ("stale", "unacknowledged") in kinds
     assert ("limit", "suppressed") in kinds and ("quality", "unacknowledged") in kinds
     assert len(journal) > 20
+
+
+@settings(max_examples=60)
+@given(data=st.data())
+def test_odd_frames_never_raise(data) -> None:
+    """Unsorted or repeated times, NaN/inf values, negative sigma, empty frames: events, never an exception."""
+    n = data.draw(st.integers(0, 60))
+    floats = st.floats(allow_nan=True, allow_infinity=True, width=64)
+    t = np.array(data.draw(st.lists(st.floats(-1e3, 1e3), min_size=n, max_size=n)), dtype=np.float64)
+    te = np.array(data.draw(st.lists(floats, min_size=n, max_size=n)), dtype=np.float64)
+    ne = np.array(data.draw(st.lists(st.sampled_from([1e17, 1e13, np.nan, -1.0, np.inf]), min_size=n, max_size=n)))
+    sig = np.array(data.draw(st.lists(floats, min_size=n, max_size=n)), dtype=np.float64)
+    valid = np.array(data.draw(st.lists(st.booleans(), min_size=n, max_size=n)), dtype=bool)
+    eng = engine(LIMITS, OPTIONS, stale_after=0.5)
+    f = frame(t, Te=te, ne=ne, debye_length=np.abs(te) * 1e-5, valid=valid, sigma={"Te": sig})
+    events = eng.process(f, {})
+    events += eng.tick(float(np.nanmax(t)) + 5.0 if n else 5.0, "probe")
+    for e in events:
+        assert e.to_json()["type"] == "alarm"
+    assert len(eng.views()) >= len(LIMITS)
