@@ -2,12 +2,20 @@
 
 from __future__ import annotations
 
+import io
+import time
+from typing import Any, Callable
+
 import numpy as np
 import pytest
+from rich.console import Console
 
 from adapters.base import LinkState, SourceStatus
 from monitor.alarms.events import AlarmState, Priority
 from monitor.snapshot import AlarmView, ReplayPosition, Snapshot, SourceCounts, Stats
+from monitor.commands.demo import envelope_path
+from monitor.config import load_config
+from monitor.tui.feed import EventTap, SessionFeed
 from monitor.tui.settings import ScreenSettings
 
 FIXED_NOW = 1_800_000_000.0   # the injected wall clock of the frozen scenes (s since the epoch)
@@ -57,3 +65,58 @@ def alarm(name: str = "ne_high", state: AlarmState = AlarmState.UNACKNOWLEDGED,
 def fixed_settings() -> ScreenSettings:
     return ScreenSettings(title="regime", length=0.3, wave_frequency=2.45e9,
                           box=(1.0e16, 2.5e17, 1.0, 8.0), clock=lambda: FIXED_NOW, refresh_hz=15.0)
+
+
+# -- real sessions for the key and flow tests -------------------------------------------------------
+
+
+
+def demo_config() -> Any:
+    return load_config(envelope_path())
+
+
+def demo_session(spec: str = "sim:demo?seed=3&speed=max&loop=0", *, config: Any = None,
+                 sinks: tuple[Any, ...] = (), live: bool = True, wall: Callable[[], float] = time.time):
+    """A real Session on a real source with the demo envelope, and the tap the screen reads."""
+    from monitor.session import Session, make_engine
+    from monitor.sources import open_source
+    config = config or demo_config()
+    tap = EventTap()
+    session = Session(open_source(spec, config), config, sinks=[tap, *sinks], engine=make_engine(config),
+                      live=live, wall=wall)
+    return session, tap
+
+
+def state_of(session: Any, alarm: str) -> Any:
+    for v in session.snapshot().alarms:
+        if v.alarm == alarm:
+            return v.state
+    return None
+
+
+def step_until(session: Any, condition: Callable[[], bool], timeout: float = 20.0) -> None:
+    """Step the session in this thread until ``condition`` holds (deadline, no sleeping)."""
+    deadline = time.monotonic() + timeout
+    while not condition():
+        assert time.monotonic() < deadline, "condition not reached before the deadline"
+        assert session.step(0.05), "the source ended before the condition was reached"
+
+
+async def wait_for(pilot: Any, condition: Callable[[], bool], timeout: float = 20.0) -> None:
+    """Let the app run until ``condition`` holds (polled with a deadline)."""
+    deadline = time.monotonic() + timeout
+    while not condition():
+        assert time.monotonic() < deadline, "condition not reached before the deadline"
+        await pilot.pause(0.05)
+
+
+def text_of(widget: Any) -> str:
+    """What a widget draws, as plain text at its current width."""
+    console = Console(width=max(20, widget.size.width or 100), file=io.StringIO(), record=True,
+                      color_system=None, legacy_windows=False)
+    console.print(widget.render())
+    return console.export_text()
+
+
+def screen_feed(session: Any, tap: EventTap) -> SessionFeed:
+    return SessionFeed(session, tap)

@@ -18,13 +18,34 @@ _KEY_NAMES = {"space": "space", "full_stop": ".", "left_square_bracket": "[", "r
               "ctrl+p": "ctrl+p", "up": "↑", "down": "↓", "home": "home", "end": "end", "f1": "F1"}
 
 
+_LONG = {
+    "acknowledge": "acknowledge the selected alarm (▶ marks it)",
+    "acknowledge_all": "acknowledge every alarm waiting for it",
+    "shelve": "shelve the selected alarm for a chosen time",
+    "unshelve": "unshelve the selected alarm",
+    "reset": "reset the selected latched alarm (⊡) once returned and acknowledged",
+    "pause": "replay: pause or run",
+    "step": "replay: step forward while paused",
+    "seek(-1)": "replay: seek back 5 s", "seek(1)": "replay: seek forward 5 s",
+    "speed(-1)": "replay: slower", "speed(1)": "replay: faster (up to max)",
+    "units": "switch SI / practical units (cm⁻³, eV, G, mTorr, Hz)",
+    "derived": "narrow terminals: show the derived table instead of the map",
+    "bell": "terminal bell on a new urgent/high alarm: on or off",
+    "journal": "the alarm journal: every transition and operator action",
+    "request_quit": "quit (asks first only while recording)",
+    "help": "this page",
+}
+
+
 def key_rows(groups: list[tuple[str, list[Binding]]]) -> list[tuple[str, str, str]]:
     """(group, keys, what it does) for each binding."""
     rows = []
     for group, bindings in groups:
         for b in bindings:
             keys = ", ".join(_KEY_NAMES.get(k.strip(), k.strip()) for k in b.key.split(","))
-            rows.append((group, keys, b.description or b.action))
+            does = b.description or b.action
+            long = _LONG.get(b.action)
+            rows.append((group, keys, f"{does} — {long}" if long and long != does else does))
     return rows
 
 
@@ -44,9 +65,13 @@ class HelpScreen(ModalScreen[None]):
         table.add_column("does", style=palette.NORMAL)
         for group, keys, does in key_rows(self.groups):
             table.add_row(group, keys, does)
+        self.table = table
         with VerticalScroll(id="help-box"):
             yield Static("Keys — the footer shows the main ones; ctrl+p lists every action by name.", classes="hint")
             yield Static(table)
+            yield Static("Marks: ▲▲ urgent  ▲ high  △ advisory  ⊡ latched  ⇢ predicted  ◆ operating point  "
+                         "✖ outside the box  ◼ STALE source. Colour always comes with one of these words or marks.",
+                         classes="hint")
 
     def action_close(self) -> None:
         self.dismiss(None)

@@ -7,6 +7,7 @@ from typing import Any
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.css.query import NoMatches
 from textual.screen import Screen
 from textual.widgets import Footer
 
@@ -91,8 +92,14 @@ class WatchScreen(Screen[None]):
         """Push ``snapshot`` into every widget; flash and bell follow the unacknowledged alarms."""
         if snapshot is not None:
             self.last = snapshot
-        if not self._ready:
+        if not self._ready or not self.is_attached:
             return
+        try:
+            self._push(now)
+        except NoMatches:  # the screen is being torn down while the timer fires
+            return
+
+    def _push(self, now: float) -> None:
         snap = self.last
         unacked = bool(snap and any(a.state in UNACKED for a in snap.alarms))
         flash = unacked and int(now * 2.0) % 2 == 0

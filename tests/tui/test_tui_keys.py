@@ -1,0 +1,245 @@
+"""Every operator key on the real app driven by the pilot, against a real Session and alarm engine."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from adapters.csv_file import CsvSource
+from monitor.alarms.events import AlarmState
+from monitor.session import Session, make_engine
+from monitor.tui.app import RegimeApp
+from monitor.tui.launch import settings_for
+from monitor.tui.screens.help import HelpScreen
+from monitor.tui.screens.journal import JournalScreen
+from monitor.tui.screens.shelve import ShelveDialog
+from monitor.tui.screens.watch import WatchScreen
+from monitor.tui.widgets.alarm_list import UNACKED, AlarmList
+from monitor.tui.widgets.playback import PlaybackBar
+from monitor.tui.widgets.readings import Readings
+
+from conftest import EventTap, SessionFeed, demo_config, demo_session, state_of, step_until, text_of, wait_for
+
+SIZE = (100, 30)
+
+
+def _plain(renderable) -> str:
+    import io
+    from rich.console import Console
+    console = Console(width=200, file=io.StringIO(), record=True, color_system=None)
+    console.print(renderable)
+    return console.export_text()
+
+
+def _app(session, tap, *, run_pipeline: bool = False) -> RegimeApp:
+    return RegimeApp(SessionFeed(session, tap), settings_for(session.config, bell=False), run_pipeline=run_pipeline)
+
+
+async def _select(pilot, app: RegimeApp, alarm: str) -> None:
+    alarms = app.watch.query_one(AlarmList)
+    await wait_for(pilot, lambda: alarm in [a.alarm for a in alarms.rows()])
+    await pilot.press("home")
+    for _ in range(len(alarms.rows())):
+        if alarms.selected == alarm:
+            return
+        await pilot.press("down")
+    assert alarms.selected == alarm
+
+
+@pytest.fixture
+def raised():
+    """The demo excursion has raised ne_high (unacknowledged)."""
+    session, tap = demo_session()
+    step_until(session, lambda: state_of(session, "ne_high") in UNACKED)
+    yield session, tap
+    session.close()
+
+
+async def test_acknowledge_selected(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await _select(pilot, app, "ne_high")
+        await pilot.press("a")
+        await wait_for(pilot, lambda: state_of(session, "ne_high") in (AlarmState.ACKNOWLEDGED, AlarmState.NORMAL))
+        await wait_for(pilot, lambda: "acknowledged" in text_of(app.watch.query_one(AlarmList)))
+        assert any(e.action == "acknowledge" and e.alarm == "ne_high" for e in tap.events())
+
+
+async def test_acknowledge_all(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        assert any(v.state in UNACKED for v in session.snapshot().alarms)
+        await pilot.press("A")
+        await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))
+        assert "to acknowledge" not in text_of(app.watch.query_one("#strip"))
+
+
+async def test_shelve_then_unshelve(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await _select(pilot, app, "ne_high")
+        await pilot.press("z")
+        await wait_for(pilot, lambda: isinstance(app.screen, ShelveDialog))
+        await pilot.press("1")                       # 10 minutes
+        await wait_for(pilot, lambda: state_of(session, "ne_high") == AlarmState.SHELVED)
+        view = next(v for v in session.snapshot().alarms if v.alarm == "ne_high")
+        assert view.shelved_until is not None and view.shelved_until - session.now() == pytest.approx(600.0, abs=5.0)
+        await wait_for(pilot, lambda: "shelved" in text_of(app.watch.query_one(AlarmList)))
+        await _select(pilot, app, "ne_high")
+        await pilot.press("Z")
+        await wait_for(pilot, lambda: state_of(session, "ne_high") not in (AlarmState.SHELVED, None))
+
+
+async def test_shelve_cancelled_changes_nothing(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await _select(pilot, app, "ne_high")
+        await pilot.press("z")
+        await wait_for(pilot, lambda: isinstance(app.screen, ShelveDialog))
+        await pilot.press("escape")
+        await wait_for(pilot, lambda: isinstance(app.screen, WatchScreen))
+        assert state_of(session, "ne_high") in UNACKED
+
+
+async def test_reset_latched_after_return_and_acknowledge() -> None:
+    session, tap = demo_session()
+    try:
+        step_until(session, lambda: state_of(session, "over_cutoff") in UNACKED)
+        # the recovery brings the density back under the cutoff; the latched alarm stays
+        step_until(session, lambda: session.latest().get("cutoff_ratio", (9.0, None))[0] < 0.8)
+        assert state_of(session, "over_cutoff") != AlarmState.NORMAL
+        app = _app(session, tap)
+        async with app.run_test(size=SIZE) as pilot:
+            await _select(pilot, app, "over_cutoff")
+            await pilot.press("a")
+            await wait_for(pilot, lambda: state_of(session, "over_cutoff") == AlarmState.ACKNOWLEDGED)
+            await pilot.press("r")
+            await wait_for(pilot, lambda: state_of(session, "over_cutoff") == AlarmState.NORMAL)
+            assert any(e.action == "reset" and e.alarm == "over_cutoff" for e in tap.events())
+    finally:
+        session.close()
+
+
+@pytest.fixture
+def replay(tmp_path):
+    """A 60 s plain CSV shot replayed at real speed through a real Session in the app's worker."""
+    t = np.arange(0.0, 60.0, 0.01)
+    rows = "\n".join(f"{x:.2f},5.0e16,3.0" for x in t)
+    path = tmp_path / "shot.csv"
+    path.write_text("t,ne,Te\n" + rows + "\n")
+    config = demo_config()
+    tap = EventTap()
+    session = Session(CsvSource(path, speed=1.0), config, sinks=[tap], engine=make_engine(config), live=False)
+    yield session, tap
+    session.close()
+
+
+async def test_pause_step_seek_speed(replay) -> None:
+    session, tap = replay
+    app = _app(session, tap, run_pipeline=True)
+    async with app.run_test(size=SIZE) as pilot:
+        pos = lambda: session.replay_position()  # noqa: E731
+        await wait_for(pilot, lambda: pos() is not None and pos().time > 0.2)
+        await pilot.press("space")
+        await wait_for(pilot, lambda: pos().paused)
+        await wait_for(pilot, lambda: "PAUSED" in text_of(app.watch.query_one(PlaybackBar)))
+        here = pos().time
+        await pilot.press("full_stop")
+        await wait_for(pilot, lambda: pos().time > here)
+        assert pos().paused
+        here = pos().time
+        await pilot.press("right_square_bracket")
+        await wait_for(pilot, lambda: pos().time >= here + 4.9)
+        here = pos().time
+        await pilot.press("left_square_bracket")
+        await wait_for(pilot, lambda: pos().time <= here - 4.9)
+        await pilot.press("plus")
+        await wait_for(pilot, lambda: pos().speed == 2.0)
+        await pilot.press("minus")
+        await wait_for(pilot, lambda: pos().speed == 1.0)
+        await pilot.press("space")
+        await wait_for(pilot, lambda: not pos().paused)
+
+
+async def test_replay_keys_on_a_live_source_say_so(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("space")
+        await wait_for(pilot, lambda: any("live source" in str(n.message) for n in app._notifications))
+        assert "LIVE" in text_of(app.watch.query_one(PlaybackBar))
+
+
+async def test_unit_switch(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        readings = app.watch.query_one(Readings)
+        await wait_for(pilot, lambda: "cm⁻³" in text_of(readings))
+        await pilot.press("u")
+        await wait_for(pilot, lambda: "m⁻³" in text_of(readings) and "cm⁻³" not in text_of(readings))
+        assert " K" in text_of(readings)          # Te in kelvin in SI
+        await pilot.press("u")
+        await wait_for(pilot, lambda: "cm⁻³" in text_of(readings) and " eV" in text_of(readings))
+
+
+async def test_help_lists_every_key(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("question_mark")
+        await wait_for(pilot, lambda: isinstance(app.screen, HelpScreen))
+        shown = _plain(app.screen.table)
+        for b in WatchScreen.BINDINGS + AlarmList.BINDINGS + RegimeApp.BINDINGS:
+            assert b.description in shown, b.description
+        await pilot.press("escape")
+        await wait_for(pilot, lambda: isinstance(app.screen, WatchScreen))
+
+
+async def test_journal_screen_lists_events(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("j")
+        await wait_for(pilot, lambda: isinstance(app.screen, JournalScreen))
+        log = app.screen.query_one("#journal")
+        await wait_for(pilot, lambda: any("ne_high" in line.text for line in log.lines))
+        await pilot.press("escape")
+        await wait_for(pilot, lambda: isinstance(app.screen, WatchScreen))
+
+
+async def test_quit_without_recording_exits(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("q")
+        await wait_for(pilot, lambda: app._exit)
+    assert app.stop.is_set()
+
+
+async def test_quit_while_recording_asks_first(tmp_path) -> None:
+    from monitor.recording.recorder import Recorder
+    from monitor.tui.screens.confirm_quit import ConfirmQuit
+    config = demo_config()
+    session, tap = demo_session("sim:steady?seed=1&speed=max&duration=5", config=config)
+    session.add_sink(Recorder(tmp_path, config, source_name=session.name))
+    step_until(session, lambda: session.snapshot().recording is not None)
+    app = _app(session, tap)
+    try:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.press("q")
+            await wait_for(pilot, lambda: isinstance(app.screen, ConfirmQuit))
+            await pilot.press("n")
+            await wait_for(pilot, lambda: isinstance(app.screen, WatchScreen))
+            assert not app._exit
+            await pilot.press("q")
+            await wait_for(pilot, lambda: isinstance(app.screen, ConfirmQuit))
+            await pilot.press("y")
+            await wait_for(pilot, lambda: app._exit)
+    finally:
+        session.close()
