@@ -44,13 +44,34 @@ def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dic
     return out
 
 
-def _rss(sqrt: Callable[[Num], Num], *terms: Num | None) -> Num | None:
-    """sqrt of the sum of the terms that are not None; None when all are."""
+def _sum(*terms: Num | None) -> tuple[Num | None, bool]:
+    """Sum of the terms that are not None, and whether it is a fresh temporary (safe to modify)."""
     total = None
+    fresh = False
     for t in terms:
-        if t is not None:
-            total = t if total is None else total + t
-    return None if total is None else sqrt(total)
+        if t is None:
+            continue
+        if total is None:
+            total = t
+        elif fresh:
+            total += t                  # in place on arrays, rebinding on floats
+        else:
+            total = total + t
+            fresh = True
+    return total, fresh
+
+
+class _Root:
+    """sqrt of a sum of squares; in place when the sum is a fresh array."""
+
+    def __init__(self, sqrt: Callable[[Num], Num], isqrt: Callable[[Num], Num]) -> None:
+        self.sqrt, self.isqrt = sqrt, isqrt
+
+    def __call__(self, *terms: Num | None) -> Num | None:
+        total, fresh = _sum(*terms)
+        if total is None:
+            return None
+        return self.isqrt(total) if fresh else self.sqrt(total)
 
 
 def _c(coef: Num, q: Num | None) -> Num | None:
@@ -58,8 +79,8 @@ def _c(coef: Num, q: Num | None) -> Num | None:
     return None if q is None else coef * q
 
 
-def propagate(sqrt: Callable[[Num], Num], V: Mapping[str, Num], aux: Mapping[str, Any],
-              Q: Mapping[str, Num]) -> dict[str, Num]:
+def propagate(sqrt: Callable[[Num], Num], isqrt: Callable[[Num], Num], V: Mapping[str, Num],
+              aux: Mapping[str, Any], Q: Mapping[str, Num]) -> dict[str, Num]:
     """Absolute standard uncertainties of the quantities in ``V``.
 
     ``Q`` maps input keys to squared relative uncertainties; ``aux`` holds
@@ -69,57 +90,58 @@ def propagate(sqrt: Callable[[Num], Num], V: Mapping[str, Num], aux: Mapping[str
     qn, qt, qi, qb, qp = Q.get("ne"), Q.get("Te"), Q.get("Ti"), Q.get("B"), Q.get("p0")
     ql, qf = Q.get("L"), Q.get("f")
     S: dict[str, Num] = {}
+    rss = _Root(sqrt, isqrt)
 
     def put(name: str, rel: Num | None) -> None:
         if rel is not None and name in V:
             S[name] = V[name] * rel
 
     # Power laws in ne alone, Te alone, B alone.
-    rn = _rss(sqrt, qn)
+    rn = rss(qn)
     if rn is not None:
         half = 0.5 * rn
         put("electron_plasma_frequency", half)
         put("ion_plasma_frequency", half)
-    rt = _rss(sqrt, qt)
+    rt = rss(qt)
     if rt is not None:
         half = 0.5 * rt
         for name in ("electron_most_probable_speed", "electron_mean_speed", "electron_rms_speed",
                      "electron_thermal_speed"):
             put(name, half)
-    rb = _rss(sqrt, qb)
+    rb = rss(qb)
     if rb is not None:
         put("electron_cyclotron_frequency", rb)
         put("ion_cyclotron_frequency", rb)
 
     # Debye family: lambda_D ~ ne^-1/2 Te^1/2, N_D ~ ne^-1/2 Te^3/2, L/lambda_D.
     if "debye_length" in V:
-        rl = _rss(sqrt, qn, qt)
+        rl = rss(qn, qt)
         put("debye_length", None if rl is None else 0.5 * rl)
-        put("debye_number", _rss(sqrt, _c(0.25, qn), _c(2.25, qt)))
-        put("debye_ratio", _rss(sqrt, _c(0.25, qn), _c(0.25, qt), ql))
+        put("debye_number", rss(_c(0.25, qn), _c(2.25, qt)))
+        put("debye_ratio", rss(_c(0.25, qn), _c(0.25, qt), ql))
 
     # Coulomb logarithm (absolute sigma) and nu_ei.
     if "coulomb_logarithm" in V and (qn is not None or qt is not None):
         bt = aux["branch_slope"]                 # 1.5 below 10 Z^2 eV, 1 above
-        s = _rss(sqrt, _c(0.25, qn), _c(bt * bt, qt))
+        s = rss(_c(0.25, qn), _c(bt * bt, qt))
         S["coulomb_logarithm"] = s
         inv = 1.0 / V["coulomb_logarithm"]
         an = 1.0 - 0.5 * inv                     # d ln nu_ei / d ln ne
         at = bt * inv - 1.5                      # d ln nu_ei / d ln Te
-        put("electron_ion_collision_frequency", _rss(sqrt, _c(an * an, qn), _c(at * at, qt)))
+        put("electron_ion_collision_frequency", rss(_c(an * an, qn), _c(at * at, qt)))
     else:
         an = at = None
 
     # Neutrals: n0 ~ p0 / Tgas, nu_en ~ p0 Tgas^-1 sigma_en Te^1/2, x = ne / (ne + n0).
     q_gas = None
     if "neutral_density" in V:
-        q_gas = _rss(lambda v: v, qp, Q.get("Tgas"))     # sum of squares, no root
-        put("neutral_density", _rss(sqrt, q_gas))
+        q_gas = _sum(qp, Q.get("Tgas"))[0]     # sum of squares, no root
+        put("neutral_density", rss(q_gas))
         if "ionization_fraction" in V:
-            r = _rss(sqrt, qn, q_gas)
+            r = rss(qn, q_gas)
             put("ionization_fraction", None if r is None else (1.0 - V["ionization_fraction"]) * r)
-        q_gas_en = _rss(lambda v: v, q_gas, Q.get("sigma_en"))
-        put("electron_neutral_collision_frequency", _rss(sqrt, q_gas_en, _c(0.25, qt)))
+        q_gas_en = _sum(q_gas, Q.get("sigma_en"))[0]
+        put("electron_neutral_collision_frequency", rss(q_gas_en, _c(0.25, qt)))
     else:
         q_gas_en = None
 
@@ -138,29 +160,29 @@ def propagate(sqrt: Callable[[Num], Num], V: Mapping[str, Num], aux: Mapping[str
         q_dn = _c(dn * dn, qn) if an is not None else None
         # mean free path = v_T / nu: d/d ln Te = 1/2 - dt
         mt = 0.5 - dt
-        put("electron_mean_free_path", _rss(sqrt, q_dn, _c(mt * mt, qt), q_g))
-        put("knudsen_number", _rss(sqrt, q_dn, _c(mt * mt, qt), q_g, ql))
+        put("electron_mean_free_path", rss(q_dn, _c(mt * mt, qt), q_g))
+        put("knudsen_number", rss(q_dn, _c(mt * mt, qt), q_g, ql))
         # collectivity = omega_pe / nu: d/d ln ne = 1/2 - dn
         cn = 0.5 - dn
         q_dt = _c(dt * dt, qt) if at is not None else None
-        put("collectivity", _rss(sqrt, _c(cn * cn, qn), q_dt, q_g))
+        put("collectivity", rss(_c(cn * cn, qn), q_dt, q_g))
         # hall = omega_ce / nu
-        put("hall_parameter", _rss(sqrt, q_dn, q_dt, q_g, qb))
+        put("hall_parameter", rss(q_dn, q_dt, q_g, qb))
 
     # Gyroradii: r_e ~ Te^1/2 / B, r_i ~ Ti^1/2 / B.
-    put("electron_gyroradius", _rss(sqrt, _c(0.25, qt), qb))
-    put("ion_gyroradius", _rss(sqrt, _c(0.25, qi), qb))
+    put("electron_gyroradius", rss(_c(0.25, qt), qb))
+    put("ion_gyroradius", rss(_c(0.25, qi), qb))
 
     # beta ~ ne (Te + Ti/Z) / B^2; g = Te / (Te + Ti/Z) (1 without Ti).
     if "plasma_beta" in V:
         g = aux.get("beta_te_share")
         if g is None:
-            put("plasma_beta", _rss(sqrt, qn, qt, _c(4.0, qb)))
+            put("plasma_beta", rss(qn, qt, _c(4.0, qb)))
         else:
             h = 1.0 - g
-            put("plasma_beta", _rss(sqrt, qn, _c(g * g, qt), _c(h * h, qi), _c(4.0, qb)))
+            put("plasma_beta", rss(qn, _c(g * g, qt), _c(h * h, qi), _c(4.0, qb)))
 
     # Cutoff density ~ f^2 and ratio ne / n_c.
-    put("cutoff_density", _c(2.0, _rss(sqrt, qf)))
-    put("cutoff_ratio", _rss(sqrt, qn, _c(4.0, qf)))
+    put("cutoff_density", _c(2.0, rss(qf)))
+    put("cutoff_ratio", rss(qn, _c(4.0, qf)))
     return S

@@ -168,3 +168,21 @@ def test_scalar_inputs_broadcast_against_arrays() -> None:
     assert all(v.shape == (N,) for v in d.sigma.values())
     with pytest.raises(ValueError):
         derive({"ne": np.ones(3), "Te": np.ones(4)}, FULL)      # a programming error, not bad numbers
+
+
+def test_chunked_batches_give_the_same_results(monkeypatch: pytest.MonkeyPatch) -> None:
+    inputs = {k: v.copy() for k, v in INPUTS.items()}
+    inputs["ne"][5] = -1.0                                     # a bad sample inside the second block
+    inputs["Te"][40] = 2e5                                     # a warning inside the third block
+    whole = derive(inputs, FULL, SIGMA)
+    monkeypatch.setattr(derive_module, "CHUNK", 17)
+    chunked = derive(inputs, FULL, SIGMA)
+    assert set(chunked.values) == set(whole.values) and set(chunked.sigma) == set(whole.sigma)
+    for name in whole.values:
+        np.testing.assert_array_equal(chunked.values[name], whole.values[name])
+    for name in whole.sigma:
+        np.testing.assert_array_equal(chunked.sigma[name], whole.sigma[name])
+    for masks_a, masks_b in ((whole.invalid, chunked.invalid), (whole.warnings, chunked.warnings)):
+        assert set(masks_a) == set(masks_b)
+        for code in masks_a:
+            np.testing.assert_array_equal(masks_a[code], masks_b[code])
