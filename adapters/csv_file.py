@@ -200,30 +200,36 @@ class CsvSource:
                 return True
             body, self._carry, unterminated = buf[: cut + 1], buf[cut + 1:], False
         first_line = self._line
-        self._line += body.count(b"\n") + (1 if unterminated else 0)
-        rows, lines = self._parse(body, first_line, unterminated)
+        newlines = body.count(b"\n")
+        self._line += newlines + (1 if unterminated else 0)
+        rows, lines = self._parse(body, first_line, unterminated, newlines)
         if len(rows):
             self._index.append((start_offset, first_line, float(rows[0, self._tcol])))
         self._rows, self._row_lines, self._pos = rows, lines, 0
         return True
 
-    def _parse(self, body: bytes, first_line: int, unterminated: bool) -> tuple[np.ndarray, np.ndarray]:
+    def _parse(self, body: bytes, first_line: int, unterminated: bool, newlines: int) -> tuple[np.ndarray, np.ndarray]:
         ncol = len(self.header.columns) if self.header else 0
         if unterminated and self.header is not None and self.header.ours:
             # our recorder writes whole lines only: an unterminated last line is a cut-off write
             return self._fallback(body, first_line, force_bad_last=True)
-        text = _EMPTY_FIELD.sub(b"nan", body) if b",," in body or b",\n" in body or body.startswith(b",") else body
         try:
-            rows = np.loadtxt(io.BytesIO(text), delimiter=",", comments="#", ndmin=2, dtype=np.float64)
+            rows = np.loadtxt(io.BytesIO(body), delimiter=",", comments="#", ndmin=2, dtype=np.float64)
         except ValueError:
-            return self._fallback(body, first_line, force_bad_last=False)
+            # empty fields (missing values in a foreign file) are NaN; only then is the block rewritten
+            try:
+                rows = np.loadtxt(io.BytesIO(_EMPTY_FIELD.sub(b"nan", body)), delimiter=",", comments="#",
+                                  ndmin=2, dtype=np.float64)
+            except ValueError:
+                return self._fallback(body, first_line, force_bad_last=False)
         if rows.shape[0] and rows.shape[1] != ncol:
             return self._fallback(body, first_line, force_bad_last=False)
-        if rows.shape[0] != body.count(b"\n") + (1 if unterminated else 0):
+        if rows.shape[0] != newlines + (1 if unterminated else 0):
             # comment or blank lines inside the block: line numbers come from the slow path
             return self._fallback(body, first_line, force_bad_last=False)
         rows = rows.reshape(-1, ncol)
-        rows[:, self._tcol] *= self._time_scale
+        if self._time_scale != 1.0:
+            rows[:, self._tcol] *= self._time_scale
         return rows, np.arange(first_line, first_line + len(rows), dtype=np.int64)
 
     def _fallback(self, body: bytes, first_line: int, force_bad_last: bool) -> tuple[np.ndarray, np.ndarray]:
