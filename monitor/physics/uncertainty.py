@@ -40,7 +40,8 @@ def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dic
         x = values.get(key)
         if x is not None and s is not None:
             r = s / x
-            out[key] = r * r
+            r *= r                      # fresh: in place on arrays
+            out[key] = r
     return out
 
 
