@@ -42,6 +42,15 @@ class _Source:
     first_seen: float | None = None
 
 
+_BLOCK = 32768     # samples evaluated at a time
+
+
+def _slice(frame: Frame, a: int, b: int) -> Frame:
+    return Frame(source=frame.source, t=frame.t[a:b], values={k: v[a:b] for k, v in frame.values.items()},
+                 sigma={k: v[a:b] for k, v in frame.sigma.items()},
+                 valid=None if frame.valid is None else frame.valid[a:b])
+
+
 def _first(x: float) -> float | None:
     return float(x) if np.isfinite(x) else None
 
@@ -139,6 +148,11 @@ class AlarmEngine:
         n = len(frame)
         if n == 0:
             return []
+        if n > _BLOCK:     # the result does not depend on the chunking; blocks stay in the CPU cache
+            events: list[AlarmEvent] = []
+            for a in range(0, n, _BLOCK):
+                events += self.process(_slice(frame, a, a + _BLOCK), stats)
+            return events
         with self._lock, np.errstate(all="ignore"):
             t = np.asarray(frame.t, dtype=np.float64)
             out: list[tuple[float, int, int, AlarmEvent]] = []

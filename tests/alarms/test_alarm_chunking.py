@@ -100,3 +100,13 @@ def test_odd_frames_never_raise(data) -> None:
     for e in events:
         assert e.to_json()["type"] == "alarm"
     assert len(eng.views()) >= len(LIMITS)
+
+
+def test_a_frame_larger_than_the_internal_block_gives_the_same_journal() -> None:
+    from monitor.alarms import engine as engine_module
+
+    n = engine_module._BLOCK * 2 + 777
+    f = _scenario(11, n)
+    whole = _journal([f])                       # evaluated internally in blocks
+    assert whole == _journal(_cut(f, list(range(1000, n, 1000))))
+    assert len(whole) > 20
