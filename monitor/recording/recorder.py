@@ -17,7 +17,7 @@ import numpy as np
 
 from adapters.base import SourceStatus
 from adapters.batch import Rejection
-from monitor.alarms.events import AlarmEvent
+from monitor.alarms.events import AlarmEvent, AlarmState, Priority
 from monitor.model import Frame
 from monitor.recording.csvformat import BASE_ORDER, RowFormatter, dump_toml, header_block
 from monitor.recording.files import LineFile, json_line, rejection_json
@@ -109,19 +109,24 @@ class Recorder:
 
     def __init__(self, directory: str | os.PathLike[str], config: Any, *, source_name: str,
                  options: RecordingOptions | None = None, clock: Callable[[], float] = time.time,
-                 on_problem: Callable[[str], None] | None = None) -> None:
+                 on_problem: Callable[[str], None] | None = None,
+                 emit: Callable[[AlarmEvent], None] | None = None) -> None:
         self.directory = Path(directory)
         self.config = config
         self.source_name = source_name
         self.options = options or self._options_from(config)
         self._clock = clock
         self._on_problem = on_problem
+        self._emit = emit
+        self._data_time = 0.0
+        self.alarm_events: collections.deque[AlarmEvent] = collections.deque(maxlen=100)
         self.on_above = float(getattr(config, "on_above", 1e15) or 1e15)
         self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split)
         self._journal_factory = _journal_factory()
         self._lock = threading.RLock()
         self._stream: _Stream | None = None
         self._pending: list[str] = []
+        self._pending_rows = 0
         self._pending_bytes = 0
         self._pending_since: float | None = None
         self._last_fsync = 0.0
@@ -191,6 +196,7 @@ class Recorder:
         n = len(frame.t)
         if n == 0 or self._closed:
             return
+        self._data_time = float(frame.t[-1])
         # the values as read (before the alignment hold), so that a replay aligns as this run did;
         # frames built without ``raw`` (by hand, in tests) record their values as they are
         source = frame.raw if frame.raw else frame.values
@@ -336,10 +342,9 @@ class Recorder:
             return
         self._maybe_flush(force=True)
         if self._pending:
-            lost = sum(p.count("\n") for p in self._pending)
+            lost = self._pending_rows
             self._dropped += lost
-            self._rows_written -= lost
-            self._pending, self._pending_bytes, self._pending_since = [], 0, None
+            self._pending, self._pending_bytes, self._pending_since, self._pending_rows = [], 0, None, 0
             self._problem(f"{lost} readings of {self._stream.csv.path.name} could not be written before it closed")
         try:
             self._stream.close()
@@ -377,7 +382,7 @@ class Recorder:
             return
         self._pending.append(text)
         self._pending_bytes += len(text)
-        self._rows_written += len(t[rows])
+        self._pending_rows += len(t[rows])
         if self._pending_since is None:
             self._pending_since = self._clock()
         if self._pending_bytes > _MAX_BACKLOG:
@@ -385,7 +390,7 @@ class Recorder:
             self._pending_bytes -= len(dropped)
             lost = dropped.count("\n")
             self._dropped += lost
-            self._rows_written -= lost
+            self._pending_rows -= lost
             self._problem(f"the disk refuses writes and the backlog is full: {self._dropped} readings dropped")
 
     def _keep_idle(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
@@ -462,17 +467,17 @@ class Recorder:
             self._next_retry = now + _RETRY_EVERY
             self._problem(f"cannot write {self._stream.csv.path}: {exc}; keeping {self._pending_bytes} bytes "
                           f"in memory and retrying")
-            if force and self._closed:
-                self._dropped += sum(p.count("\n") for p in self._pending)
-                self._pending.clear()
-                self._pending_bytes = 0
             return
+        self._rows_written += self._pending_rows
+        self._pending_rows = 0
         self._pending = []
         self._pending_bytes = 0
         self._pending_since = None
         if self._error is not None:
             self._error = None
             self._report("recording resumed: the disk accepts writes again")
+            self._alarm(AlarmState.RETURNED_UNACKNOWLEDGED, AlarmState.UNACKNOWLEDGED,
+                        "recording resumed: the disk accepts writes again")
 
     def _flush_loop(self) -> None:
         period = self.options.flush_interval / 4
@@ -489,9 +494,30 @@ class Recorder:
     def _problem(self, message: str) -> None:
         self._errors += 1
         first = self._error != message
+        raised = self._error is None
         self._error = message
         if first:
             self._report(message)
+        if raised:
+            self._alarm(AlarmState.UNACKNOWLEDGED, AlarmState.NORMAL, message)
+
+    def _alarm(self, state: AlarmState, previous: AlarmState, message: str) -> None:
+        """The recorder's own data-quality alarm (``recorder:write``), kept in ``alarm_events``, written
+        to the session journal when it can be, and handed to ``emit`` (the session's dispatch)."""
+        event = AlarmEvent(time=self._data_time, wall=self._clock(), alarm="recorder:write", state=state,
+                           previous=previous, quantity=None, value=None, limit=None, priority=Priority.HIGH,
+                           kind="quality", message=message)
+        self.alarm_events.append(event)
+        if self._session is not None:
+            try:
+                self._session[0].on_alarm(event)
+            except OSError:
+                pass
+        if self._emit is not None:
+            try:
+                self._emit(event)
+            except Exception:   # a listener's failure must not stop the recording
+                pass
 
     def _report(self, message: str) -> None:
         print(f"regime recorder: {message}", file=sys.stderr, flush=True)

@@ -12,6 +12,7 @@ import resource
 import subprocess
 import sys
 import tempfile
+import threading
 import time
 from pathlib import Path
 
@@ -85,15 +86,33 @@ def make_recording(path: Path, rows: int, config_path: Path) -> float:
     return time.perf_counter() - start
 
 
-def timed(args: list[str]) -> tuple[float, float, str]:
+def timed(args: list[str], samples: list[float] | None = None) -> tuple[float, float, str]:
+    """Wall seconds, peak RSS (MB, from wait4) and the last stdout line of one child process;
+    ``samples`` collects its RSS (MB) every 0.2 s while it runs (psutil, when installed)."""
     start = time.perf_counter()
     proc = subprocess.Popen(args, cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
-    out = proc.stdout.read() if proc.stdout else ""
+    lines: list[str] = []
+    reader = threading.Thread(target=lambda: lines.extend(proc.stdout or []), daemon=True)
+    reader.start()
+    if samples is not None:
+        try:
+            import psutil
+
+            child = psutil.Process(proc.pid)
+            while proc.poll() is None:
+                try:
+                    samples.append(child.memory_info().rss / 1e6)
+                except psutil.Error:
+                    break
+                threading.Event().wait(0.2)
+        except ImportError:
+            pass
     _, status, usage = os.wait4(proc.pid, 0)
     wall = time.perf_counter() - start
+    reader.join(timeout=10)
     if status != 0:
         raise SystemExit(f"child failed ({status}): {' '.join(args)}")
-    return wall, usage.ru_maxrss / 1024.0, out.strip().splitlines()[-1] if out.strip() else ""
+    return wall, usage.ru_maxrss / 1024.0, lines[-1].strip() if lines else ""
 
 
 def recording_throughput(rows: int, tmp: Path) -> tuple[float, int, int]:
@@ -152,7 +171,7 @@ def pipeline_with_recorder(rows: int, tmp: Path, config_path: Path) -> tuple[flo
 def main() -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("--rows", type=int, default=1_000_000)
-    ap.add_argument("--big-rows", type=int, default=4_000_000, help="rows of the file for the RSS figure")
+    ap.add_argument("--big-rows", type=int, default=3_000_000, help="rows of the file for the RSS figure")
     args = ap.parse_args()
     py = sys.executable
     with tempfile.TemporaryDirectory() as d:
@@ -193,12 +212,16 @@ def main() -> int:
             big = tmp / "big.csv"
             make_recording(big, args.big_rows, cfg)
             bsize = big.stat().st_size
+            rss: list[float] = []
             big_t, big_rss, last = timed([py, "-m", "monitor", "replay", str(big), "--config", str(cfg),
-                                          "--headless", "--json", "--quiet", "--speed", "max"])
+                                          "--headless", "--json", "--quiet", "--speed", "max"], rss)
+            quarters = [rss[int(q * (len(rss) - 1))] for q in (0.25, 0.5, 0.75, 1.0)] if rss else []
+            growth = (big_rss - replay_rss) / max(bsize - size, 1)
             print(f"RSS: {size / 1e6:.0f} MB file -> {replay_rss:.0f} MB peak; {bsize / 1e6:.0f} MB file -> "
-                  f"{big_rss:.0f} MB peak ({big_t:.1f} s). Streaming: the replay holds one 4 MB block at a "
-                  f"time, so a 1 GB file is extrapolated at about {big_rss + (big_rss - replay_rss) * (1e9 - bsize) / max(bsize - size, 1):.0f} MB"
-                  f" (linear in the growth between the two; target < 300 MB)")
+                  f"{big_rss:.0f} MB peak ({big_t:.1f} s); RSS during the {bsize / 1e6:.0f} MB replay at 1/4, 1/2, "
+                  f"3/4, end: {', '.join(f'{x:.0f}' for x in quarters)} MB")
+            print(f"RSS for a 1 GB file, extrapolated (not measured) linearly from the two peaks: "
+                  f"{big_rss + growth * (1e9 - bsize):.0f} MB  (target < 300 MB)")
     return 0
 
 
