@@ -68,6 +68,7 @@ class AlarmEngine:
         self.clock = clock
         self._lock = threading.RLock()
         self._on: bool | None = None
+        self._discharge_run = RunState()
         self._order: dict[str, int] = {}
         self._cores: dict[str, AlarmCore] = {}
         self._limits: list[_Limit] = []
@@ -124,18 +125,26 @@ class AlarmEngine:
     def discharge_on(self) -> bool:
         return bool(self._on)
 
-    def _discharge(self, frame: Frame) -> np.ndarray | None:
-        """Per-sample discharge-on flags (NaN density holds the last state); None: unchanged all frame."""
+    def _discharge(self, frame: Frame, t: np.ndarray) -> np.ndarray | None:
+        """Per-sample discharge-on flags; None: no density in this frame, the state holds.
+
+        On at ne >= on_above; off below on_above * (1 - discharge_deadband); either change only
+        after it has held for discharge_delay. A NaN density neither continues nor breaks a run."""
         if self.on_above is None:
-            return np.ones(len(frame), dtype=bool)
+            return np.ones(len(t), dtype=bool)
         ne = frame.values.get("ne")
         if ne is None:
             return None
-        on = ne >= self.on_above
         fin = np.isfinite(ne)
-        if not fin.all():
-            last = np.maximum.accumulate(np.where(fin, np.arange(len(ne)), -1))
-            on = np.where(last >= 0, on[np.maximum(last, 0)], bool(self._on))
+        idx = None if fin.all() else np.flatnonzero(fin)
+        tt, nn = (t, ne) if idx is None else (t[idx], ne[idx])
+        on = np.full(len(t), bool(self._on))
+        if len(tt) == 0:
+            return on
+        off_below = self.on_above * (1.0 - self.options.discharge_deadband)
+        delay = self.options.discharge_delay
+        for i, flag in toggles(tt, nn >= self.on_above, lambda: nn < off_below, delay, delay, self._discharge_run):
+            on[(i if idx is None else int(idx[i])):] = flag
         return on
 
     def process(self, frame: Frame, stats: Mapping[str, Stats] | None = None) -> list[AlarmEvent]:
@@ -167,7 +176,7 @@ class AlarmEngine:
             keep(self._stale(src, t))
             valid = np.ones(n, dtype=bool) if frame.valid is None else np.asarray(frame.valid, dtype=bool)
             keep(self._quality(src, t, valid))
-            on = self._discharge(frame)
+            on = self._discharge(frame, t)
             segments = self._segments(on, n)
             cache: dict[Any, Any] = {}
             for lim in self._limits:
@@ -321,6 +330,7 @@ class AlarmEngine:
         """A replay jumped to ``t`` (time may go back): timing carries, windows and the load figures
         start over; alarm states are kept (the next samples move them as usual)."""
         with self._lock:
+            self._discharge_run.run_start = None
             for lim in self._limits:
                 lim.det.run_start = None
                 if lim.predictor is not None:

@@ -100,6 +100,8 @@ class AlarmOptions:
     predict_window: float = 1.0     # s of data for the slope fit
     predict_step: float = 0.1       # s between evaluations, on a fixed data-time grid
     predict_priority: Priority = Priority.ADVISORY
+    discharge_deadband: float = 0.1  # off only below on_above * (1 - this): no flicker near the threshold
+    discharge_delay: float = 0.0    # s a change of discharge state must hold
     bell: bool = False
     hooks: Mapping[Priority, HookSpec] = field(default_factory=dict)
 
@@ -293,7 +295,8 @@ def parse_limits(tables: Any, path: str | Path | None) -> tuple[LimitSpec, ...]:
 
 _OPTION_KEYS = ("flood_count", "flood_clear", "flood_window", "chatter_count", "chatter_window", "max_shelve",
                 "stale_priority", "quality_priority", "quality_window", "quality_above", "quality_below",
-                "quality_min_samples", "predict_window", "predict_step", "predict_priority", "bell", "hooks")
+                "quality_min_samples", "predict_window", "predict_step", "predict_priority", "discharge_deadband",
+                "discharge_delay", "bell", "hooks")
 
 
 def _parse_hook(raw: Any, path: str | Path | None, key: str) -> HookSpec:
@@ -355,6 +358,9 @@ def parse_alarm_options(table: Any, path: str | Path | None) -> AlarmOptions:
                                      allow_zero=False),
         predict_step=parse_seconds(g("predict_step", d.predict_step), path, "alarms.predict_step", allow_zero=False),
         predict_priority=_priority(g("predict_priority", d.predict_priority.value), path, "alarms.predict_priority"),
+        discharge_deadband=_number(g("discharge_deadband", d.discharge_deadband), path,
+                                   "alarms.discharge_deadband", 0.0, 0.99),
+        discharge_delay=parse_seconds(g("discharge_delay", d.discharge_delay), path, "alarms.discharge_delay"),
         bell=_bool(g("bell", d.bell), path, "alarms.bell"),
         hooks=hooks,
     )

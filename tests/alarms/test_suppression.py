@@ -61,3 +61,22 @@ def test_predictive_warning_is_suppressed_with_its_limit() -> None:
     eng = engine([{"name": "hot", "quantity": "Te", "high": 50.0, "predict_within": 100.0}])
     eng.process(frame(T, Te=1.0 + T, ne=np.full(len(T), OFF)))
     assert eng.state("hot:predict").value == "suppressed"
+
+
+def test_density_noise_at_the_threshold_does_not_flicker_the_suppression() -> None:
+    rng = np.random.default_rng(5)
+    ne = 1e15 * (1.0 + 0.03 * rng.standard_normal(len(T)))     # 3 % noise right at on_above
+    ne[:100] = 1e13
+    eng = engine([{"name": "hot", "quantity": "Te", "high": 5.0}])
+    events = summary(eng.process(frame(T, Te=np.full(len(T), 3.0), ne=ne)), "hot")
+    first_on = round(float(T[np.argmax(ne >= 1e15)]), 6)
+    assert events == [(first_on, "suppressed", "normal")]     # on once; off needs < 0.9 on_above
+
+
+def test_discharge_delay_and_deadband_options() -> None:
+    ne = np.where((T >= 1.0) & (T < 5.0), ON, OFF)
+    ne[(T >= 3.0) & (T < 3.05)] = OFF                            # a 50 ms dip
+    eng = engine([{"name": "hot", "quantity": "Te", "high": 5.0}],
+                 {"discharge_delay": "0.1 s", "discharge_deadband": 0.5})
+    events = summary(eng.process(frame(T, Te=np.full(len(T), 3.0), ne=ne)), "hot")
+    assert events == [(1.1, "suppressed", "normal"), (5.1, "normal", "suppressed")]
