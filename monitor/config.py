@@ -29,7 +29,7 @@ _DEVICE_KEYS: dict[str, tuple[str, str]] = {
     "wave_frequency": ("wave_frequency", "frequency"),
     "sigma_en": ("sigma_en", "area"),
 }
-_SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key"}
+_SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key", "allow_remote"}
 _PIPELINE_KEYS = {"window", "bins", "trail_seconds", "trail_points", "keep_rejected"}
 
 
@@ -55,7 +55,9 @@ class Config:
     ``max_age_by_key`` overrides it per canonical key. ``limits`` holds the
     alarm helper's LimitSpec values, ``alarms`` its AlarmOptions (None when the
     parser is not installed), ``recording`` the recorder's options (likewise).
-    ``raw`` is the parsed TOML as read.
+    ``curve_server_key``/``curve_client_key`` name the zmq.auth key files of a
+    CURVE-secured ZeroMQ source; ``allow_remote`` lets a ZeroMQ source connect
+    beyond loopback without CURVE. ``raw`` is the parsed TOML as read.
     """
 
     path: str | None = None
@@ -71,6 +73,7 @@ class Config:
     pipeline: PipelineOptions = field(default_factory=PipelineOptions)
     curve_server_key: str | None = None
     curve_client_key: str | None = None
+    allow_remote: bool = False
     raw: Mapping[str, Any] = field(default_factory=dict)
 
     def hold_for(self, key: str) -> float:
@@ -113,6 +116,9 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
     stale_after = _number(sources, "stale_after", "time", 2.0, path, "sources", positive=True)
     max_age, by_key = _parse_max_age(sources.get("max_age"), path)
     curve = {k: _string(sources, k, path, "sources") for k in ("curve_server_key", "curve_client_key")}
+    allow_remote = sources.get("allow_remote", False)
+    if not isinstance(allow_remote, bool):
+        raise ConfigError(path, "sources.allow_remote", f"must be true or false, got {allow_remote!r}")
     if (curve["curve_server_key"] is None) != (curve["curve_client_key"] is None):
         raise ConfigError(path, "sources.curve_client_key", "CURVE needs both curve_server_key and curve_client_key")
     channels_table = raw.get("channels", {})
@@ -135,7 +141,7 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
         max_age=max_age, max_age_by_key=by_key, channels=channels,
         limits=limits, alarms=alarms, recording=recording, pipeline=pipeline,
         curve_server_key=curve["curve_server_key"], curve_client_key=curve["curve_client_key"],
-        raw=dict(raw),
+        allow_remote=allow_remote, raw=dict(raw),
     )
 
 

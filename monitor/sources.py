@@ -56,7 +56,10 @@ def open_source(spec: str, config: Config | None = None) -> Source:
         curve = None
         if config.curve_server_key and config.curve_client_key:
             curve = (config.curve_server_key, config.curve_client_key)
-        return _construct(ZmqSource, spec, spec, curve=curve)
+        kwargs = {"curve": curve}
+        if config.allow_remote:
+            kwargs["allow_remote"] = True
+        return _construct(ZmqSource, spec, spec, **kwargs)
     if spec.startswith("serial:"):
         rest = spec[len("serial:"):]
         m = _BAUD.match(rest)

@@ -39,14 +39,15 @@ def _module(name: str) -> Any | None:
 
 def _sinks(args: argparse.Namespace, config: Any, source_name: str) -> list[Any]:
     sinks: list[Any] = []
-    if args.record:
+    directory = args.record or getattr(config.recording, "directory", None)
+    if directory:
         recording = _module("monitor.recording")
         if recording is None or not hasattr(recording, "Recorder"):
             raise UsageError("--record: the recorder is not available in this build")
         try:
-            sinks.append(recording.Recorder(args.record, config, source_name=source_name))
+            sinks.append(recording.Recorder(directory, config, source_name=source_name))
         except OSError as exc:
-            raise UsageError(f"--record {args.record}: {exc.strerror or exc}") from None
+            raise UsageError(f"--record {directory}: {exc.strerror or exc}") from None
     if args.alarm_pub:
         publisher = _module("monitor.alarms.publisher")
         if publisher is None:

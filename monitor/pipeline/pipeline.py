@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import collections
 import math
+import re
 import time
 from dataclasses import dataclass, field
 from typing import Callable, Iterable, Mapping
@@ -22,6 +23,8 @@ __all__ = ["Pipeline"]
 
 _RATE_SPAN = 2.0      # s of data time over which the reading rate is measured
 _RATE_BUCKET = 0.1
+_KEEP_REFUSED = 100_000     # seq numbers of refused lines remembered until their gap is seen
+_SEQ_IN_RAW = re.compile(rb'(?:\bseq\s*=\s*|"seq"\s*:\s*)(\d{1,18})\b')
 
 
 @dataclass
@@ -35,6 +38,7 @@ class _Counts:
     last_wall_time: float | None = None
     rate_buckets: dict[int, int] = field(default_factory=dict)
     first_time: float | None = None
+    refused_seqs: collections.deque = field(default_factory=lambda: collections.deque(maxlen=_KEEP_REFUSED))
 
     def add_rate(self, t: np.ndarray) -> None:
         if len(t) == 0:
@@ -100,10 +104,17 @@ class Pipeline:
         return c
 
     def reject(self, rejections: Iterable[Rejection]) -> None:
-        """Count and keep rejections an adapter made (malformed lines, bad frames, ...)."""
+        """Count and keep rejections an adapter made (malformed lines, bad frames, ...).
+
+        A refused line or JSON frame that still shows its ``seq`` is remembered,
+        so that the gap it leaves is not counted once more as lost."""
         for r in rejections:
-            self._c(r.source).rejected[r.reason] += 1
+            c = self._c(r.source)
+            c.rejected[r.reason] += 1
             self.rejected_samples.append(r)
+            m = _SEQ_IN_RAW.search(r.raw[:4096]) if b'"fields"' not in r.raw[:4096] else None
+            if m is not None:
+                c.refused_seqs.append(int(m.group(1)))
 
     def drain_rejections(self) -> list[Rejection]:
         """Rejections the pipeline itself made since the last call (for the sinks)."""
@@ -155,7 +166,7 @@ class Pipeline:
         for key, n in mapped.unknown.items():
             counts.unknown[key] += n
         verdict = validate(mapped.t, mapped.values, seq, state)
-        counts.lost += verdict.lost
+        counts.lost += verdict.lost - _refused_in_gaps(counts, verdict, state.last_seq)
         ok = verdict.accepted
         n_ok = int(ok.sum())
         if n_ok < len(ok):
@@ -217,6 +228,30 @@ class Pipeline:
                             detail=f"reading at t={float(t[i])!r}: {reason.replace('_', ' ')}")
             self._pending.append(rej)
             self.rejected_samples.append(rej)
+
+
+def _refused_in_gaps(counts: _Counts, verdict: Verdict, last_seq: int | None) -> int:
+    """How many seq numbers in this batch's gaps belong to readings an adapter refused
+    (they were received, so they are rejected, not lost); forgets those and older ones."""
+    if not counts.refused_seqs:
+        return 0
+    found = 0
+    r = np.sort(np.fromiter(counts.refused_seqs, dtype=np.int64, count=len(counts.refused_seqs)))
+    if verdict.gap_lo is not None and len(verdict.gap_lo):
+        lo = np.searchsorted(r, verdict.gap_lo, side="right")
+        hi = np.searchsorted(r, verdict.gap_hi, side="left")
+        inside = np.zeros(len(r) + 1, dtype=np.int64)
+        np.add.at(inside, lo, 1)
+        np.add.at(inside, hi, -1)
+        in_gap = np.cumsum(inside)[:-1] > 0
+        # a seq refused twice (a duplicate) still fills one gap position only
+        found = int(len(np.unique(r[in_gap])))
+    if last_seq is not None:
+        keep = r[r > last_seq]
+        if len(keep) != len(r):
+            counts.refused_seqs.clear()
+            counts.refused_seqs.extend(keep.tolist())
+    return found
 
 
 def _fmt(x: float) -> str:

@@ -38,6 +38,8 @@ class Verdict:
     code: np.ndarray
     reasons: tuple[str, ...]
     lost: int
+    gap_lo: np.ndarray | None = None     # each seq gap is the open interval (gap_lo, gap_hi)
+    gap_hi: np.ndarray | None = None
 
     @property
     def accepted(self) -> np.ndarray:
@@ -84,8 +86,8 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     absurd, and it carries at least one known channel. The first failing
     check names the reason (time first, then seq, then values). Only accepted
     readings move the time reference on; every reading with a seq moves the
-    seq reference on (a refused reading was received, so it is not lost). Seq gaps between readings that pass the seq check
-    count as lost readings.
+    seq reference on (a refused reading was received, so it is not lost).
+    Seq gaps between readings that pass the seq check count as lost readings.
     """
     n = len(t)
     reasons: list[str] = list(_FIXED)
@@ -110,6 +112,7 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     for name, mask in reversed(checks):
         _set(code, mask, reasons, name)
     lost = 0
+    gap_lo = gap_hi = None
     if seq is not None:
         s = seq.astype(np.int64, copy=False)
         # the first seq ever seen sets the baseline: nothing before it counts as lost
@@ -118,7 +121,11 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
         _set(code, s < before, reasons, "seq_backwards")
         _set(code, s == before, reasons, "seq_duplicate")
         fresh = s > before
-        lost = int((s[fresh] - before[fresh] - 1).sum())
+        gaps = s[fresh] - before[fresh] - 1
+        lost = int(gaps.sum())
+        if lost:
+            where = gaps > 0
+            gap_lo, gap_hi = before[fresh][where], s[fresh][where]
         state.last_seq = int(max(int(s.max()), start))
     tf = np.isfinite(t)
     # only readings that passed every other check set the time reference, so a
@@ -128,7 +135,7 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     _set(code, tf & (t < tbefore), reasons, "time_backwards")
     _set(code, ~tf, reasons, "time_not_finite")
     state.last_t = float(max(state.last_t, tt.max()))
-    return Verdict(code, tuple(reasons), lost)
+    return Verdict(code, tuple(reasons), lost, gap_lo, gap_hi)
 
 
 def _order(key: str) -> tuple[int, str]:

@@ -86,3 +86,18 @@ def test_adapter_rejections_are_counted_too() -> None:
 def test_other_base_keys(key: str, bad: float) -> None:
     p, (frame,) = run(make_batch([0.0, 0.1], ne=[1e17, 1e17], **{key: [1.0, bad]}))
     assert len(frame) == 1 and sum(p.counts()["probe"].rejected.values()) == 1
+
+
+def test_a_refused_line_with_a_seq_is_rejected_not_lost() -> None:
+    from adapters.batch import Rejection
+    p = Pipeline(Config())
+    p.process(make_batch([0.0, 0.1], seq=[1, 2], ne=[1e17, 1e17]))
+    p.reject([Rejection("probe", "malformed", b"t=0.2 seq=3 ne=??", 0.0),
+              Rejection("probe", "bad_json", b'{"t": 0.3, "seq": 4, "ne": }', 0.0),
+              Rejection("probe", "malformed", b"no seq here", 0.0)])
+    p.process(make_batch([0.5, 0.6], seq=[6, 7], ne=[1e17, 1e17]))     # 3, 4 refused; 5 really lost
+    c = p.counts()["probe"]
+    assert c.lost == 1 and sum(c.rejected.values()) == 3 and c.accepted == 4
+    # a later gap that covers an already settled seq number counts in full
+    p.process(make_batch([0.9], seq=[10], ne=[1e17]))
+    assert p.counts()["probe"].lost == 3
