@@ -146,15 +146,17 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
     if p0 is not None:
         n0 = p0 * dc.n0_factor
         V["neutral_density"] = n0
+        aux["n0_per_p0"] = dc.n0_factor
         if ne is not None:
-            V["ionization_fraction"] = ne / (ne + n0)
+            aux["ne_plus_n0"] = total = ne + n0
+            V["ionization_fraction"] = ne / total
         if te is not None:
-            nu_en = n0 * vmean
-            nu_en *= dc.sigma_en
-            V["electron_neutral_collision_frequency"] = nu_en
+            aux["nu_en_per_n0"] = k_en = vmean * dc.sigma_en
+            V["electron_neutral_collision_frequency"] = nu_en = n0 * k_en
             if nu is not None:
                 nu = nu + nu_en
                 aux["w_en"] = nu_en / nu
+                aux["nu_total"] = nu
     if nu is not None:
         V["electron_mean_free_path"] = mfp = vt / nu
         if dc.length is not None:

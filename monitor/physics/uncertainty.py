@@ -34,11 +34,14 @@ Num = Any  # a float or a float64 array
 
 
 def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dict[str, Num]:
-    """(sigma_x / x)^2 for every key that has both a value and a sigma."""
+    """(sigma_x / x)^2 for every key that has both a value and a sigma; for p0 also sigma^2 ("p0_abs2")."""
     out: dict[str, Num] = {}
     for key, s in sigma.items():
         x = values.get(key)
         if x is not None and s is not None:
+            if key == "p0":                 # neutrals propagate in absolute terms (p0 may be 0)
+                out["p0_abs2"] = s * s
+                continue
             r = s / x
             r *= r                      # fresh: in place on arrays
             out[key] = r
@@ -88,7 +91,7 @@ def propagate(sqrt: Callable[[Num], Num], isqrt: Callable[[Num], Num], V: Mappin
     the intermediate results of the value pass (branch mask, collision-rate
     shares, ...). Returns name -> sigma for the quantities that have one.
     """
-    qn, qt, qi, qb, qp = Q.get("ne"), Q.get("Te"), Q.get("Ti"), Q.get("B"), Q.get("p0")
+    qn, qt, qi, qb = Q.get("ne"), Q.get("Te"), Q.get("Ti"), Q.get("B")
     ql, qf = Q.get("L"), Q.get("f")
     S: dict[str, Num] = {}
     rss = _Root(sqrt, isqrt)
@@ -133,18 +136,29 @@ def propagate(sqrt: Callable[[Num], Num], isqrt: Callable[[Num], Num], V: Mappin
     else:
         an = at = None
 
-    # Neutrals: n0 ~ p0 / Tgas, nu_en ~ p0 Tgas^-1 sigma_en Te^1/2, x = ne / (ne + n0).
-    q_gas = None
+    # Neutrals in absolute variances, so that p0 = 0 (gas off) keeps a finite sigma:
+    # n0 = p0 / (k Tgas), x = ne / (ne + n0), nu_en = n0 sigma_en <v> with <v> ~ Te^1/2.
+    var_en_gas = None
     if "neutral_density" in V:
-        q_gas = _sum(qp, Q.get("Tgas"))[0]     # sum of squares, no root
-        put("neutral_density", rss(q_gas))
+        n0 = V["neutral_density"]
+        n0_per_p0 = aux["n0_per_p0"]
+        var_n0 = _sum(_c(n0_per_p0 * n0_per_p0, Q.get("p0_abs2")), _c(n0 * n0, Q.get("Tgas")))[0]
+        if var_n0 is not None:
+            S["neutral_density"] = sqrt(var_n0)
         if "ionization_fraction" in V:
-            r = rss(qn, q_gas)
-            put("ionization_fraction", None if r is None else (1.0 - V["ionization_fraction"]) * r)
-        q_gas_en = _sum(q_gas, Q.get("sigma_en"))[0]
-        put("electron_neutral_collision_frequency", rss(q_gas_en, _c(0.25, qt)))
-    else:
-        q_gas_en = None
+            x = V["ionization_fraction"]
+            xx = x * (1.0 - x)
+            y = x / aux["ne_plus_n0"]             # -dx/dn0 = ne / (ne + n0)^2
+            s = rss(_c(xx * xx, qn), _c(y * y, var_n0))
+            if s is not None:
+                S["ionization_fraction"] = s
+        if "electron_neutral_collision_frequency" in V:
+            nu_en = V["electron_neutral_collision_frequency"]
+            k = aux["nu_en_per_n0"]
+            var_en_gas = _sum(_c(k * k, var_n0), _c(nu_en * nu_en, Q.get("sigma_en")))[0]  # all but Te
+            s = rss(var_en_gas, _c(0.25 * nu_en * nu_en, qt))
+            if s is not None:
+                S["electron_neutral_collision_frequency"] = s
 
     # Total electron collision rate nu = nu_ei + nu_en: shares weigh the log-derivatives.
     if "electron_mean_free_path" in V or "collectivity" in V or "hall_parameter" in V:
@@ -155,7 +169,8 @@ def propagate(sqrt: Callable[[Num], Num], isqrt: Callable[[Num], Num], V: Mappin
             w_ei = 1.0 - w_en
             dn = w_ei * dn
             dt = w_ei * dt + 0.5 * w_en
-            q_g = _c(w_en * w_en, q_gas_en)
+            nu = aux["nu_total"]
+            q_g = None if var_en_gas is None else var_en_gas / (nu * nu)
         else:
             q_g = None
         q_dn = _c(dn * dn, qn) if an is not None else None

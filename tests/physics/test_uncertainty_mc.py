@@ -80,3 +80,17 @@ def test_missing_sigma_counts_as_exact_and_sign_is_ignored() -> None:
     negative = derive(inputs, DEVICE, {"ne": -5e15})
     assert negative.sigma["debye_length"][0] == only_ne.sigma["debye_length"][0]
     assert derive(inputs, DEVICE).sigma == {}
+
+
+def test_gas_off_keeps_a_finite_sigma() -> None:
+    # p0 = 0 +- 0.1 Pa: the first-order sigma comes from the slope at zero, not from a relative uncertainty
+    inputs = {"ne": 5e16, "Te": 3.0, "B": 0.05, "p0": 0.0}
+    d = derive(inputs, DEVICE, {"p0": 0.1, "Te": 0.3})
+    up = derive(inputs | {"p0": 1e-9}, DEVICE).values
+    for name in ("neutral_density", "ionization_fraction", "electron_neutral_collision_frequency",
+                 "electron_mean_free_path", "collectivity", "hall_parameter"):
+        assert np.isfinite(d.sigma[name][0]), name
+    slope_n0 = up["neutral_density"][0] / 1e-9
+    assert d.sigma["neutral_density"][0] == pytest.approx(0.1 * slope_n0, rel=1e-9)
+    slope_x = (1.0 - up["ionization_fraction"][0]) / 1e-9
+    assert d.sigma["ionization_fraction"][0] == pytest.approx(0.1 * slope_x, rel=1e-5)
