@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import json
 import math
+import signal
 import sys
 import threading
-from typing import Any, Mapping, TextIO
+from typing import Any, Iterable, Mapping, TextIO
 
 from adapters.base import SourceStatus
 from adapters.batch import Rejection
@@ -14,7 +15,8 @@ from monitor.alarms.events import AlarmEvent
 from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
-__all__ = ["HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary"]
+__all__ = ["HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary", "run_headless",
+           "install_signals", "restore_signals"]
 
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
 
@@ -191,3 +193,51 @@ class HeadlessPrinter:
             self._json(summary)
         else:
             self._write(human_summary(summary))
+
+
+def install_signals(stop: threading.Event) -> dict[int, Any]:
+    """SIGINT and SIGTERM set ``stop`` (main thread only); returns the previous handlers."""
+    previous: dict[int, Any] = {}
+    if threading.current_thread() is not threading.main_thread():
+        return previous
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        previous[sig] = signal.signal(sig, lambda *_: stop.set())
+    return previous
+
+
+def restore_signals(previous: dict[int, Any]) -> None:
+    for sig, handler in previous.items():
+        signal.signal(sig, handler)
+
+
+_AUTO = object()
+
+
+def run_headless(source: Any, config: Any, *, json: bool = False, duration: float | None = None,
+                 live: bool = True, sinks: Iterable[Any] = (), engine: Any = _AUTO,
+                 stream: TextIO | None = None, stop: threading.Event | None = None) -> int:
+    """Run ``source`` through a Session with status lines once a second and a summary at the end
+    (after ``duration`` wall seconds, the source's end, SIGINT or SIGTERM). Exit code 0, or 3 if
+    the source failed. ``engine`` defaults to the alarm engine built from ``config``."""
+    from monitor.errors import EXIT_OK, EXIT_SOURCE
+    from monitor.session import Session, make_engine
+
+    if engine is _AUTO:
+        engine = make_engine(config)
+    session = Session(source, config, list(sinks), engine=engine, live=live)
+    printer = HeadlessPrinter(stream if stream is not None else sys.stdout, as_json=json)
+    session.add_sink(printer)
+    stop = stop if stop is not None else threading.Event()
+    previous = install_signals(stop)
+    try:
+        session.open()
+        session.run(duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
+    finally:
+        restore_signals(previous)
+        session.close()
+        printer.status(session.snapshot())
+        printer.summary(session.summary())
+    if session.failure is not None:
+        print(f"regime: source failed: {session.failure}", file=sys.stderr)
+        return EXIT_SOURCE
+    return EXIT_OK

@@ -5,12 +5,11 @@ from __future__ import annotations
 import argparse
 import importlib.util
 import math
-import signal
 import sys
 import threading
 from typing import Any
 
-from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
+from monitor.errors import EXIT_SOURCE, EXIT_USAGE, UsageError
 
 __all__ = ["register", "run"]
 
@@ -58,7 +57,7 @@ def _sinks(args: argparse.Namespace, config: Any, source_name: str) -> list[Any]
 
 def run(args: argparse.Namespace) -> int:
     from monitor.config import load_config
-    from monitor.headless import HeadlessPrinter
+    from monitor.headless import run_headless
     from monitor.session import Session, make_engine
     from monitor.sources import is_live, open_source
 
@@ -70,62 +69,38 @@ def run(args: argparse.Namespace) -> int:
     source = open_source(args.source, config)
     engine = make_engine(config)
     sinks = _sinks(args, config, getattr(source, "name", args.source))
+    if args.headless:
+        return run_headless(source, config, json=args.json, duration=args.duration, live=is_live(args.source),
+                            sinks=sinks, engine=engine)
     session = Session(source, config, sinks, engine=engine, live=is_live(args.source))
-    if not args.headless:
-        return _screen(session, args)
-    printer = HeadlessPrinter(sys.stdout, as_json=args.json)
-    session.add_sink(printer)
-    stop = threading.Event()
-    previous = _install_signals(stop)
-    try:
-        session.open()
-        session.run(args.duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
-    finally:
-        _restore_signals(previous)
-        session.close()
-        printer.status(session.snapshot())
-        printer.summary(session.summary())
-    if session.failure is not None:
-        print(f"regime watch: source failed: {session.failure}", file=sys.stderr)
-        return EXIT_SOURCE
-    return EXIT_OK
+    return _screen(session, config)
 
 
+# kept for the other commands that share the signal handling
 def _install_signals(stop: threading.Event) -> dict[int, Any]:
-    previous: dict[int, Any] = {}
-    if threading.current_thread() is not threading.main_thread():
-        return previous
-    for sig in (signal.SIGINT, signal.SIGTERM):
-        previous[sig] = signal.signal(sig, lambda *_: stop.set())
-    return previous
+    from monitor.headless import install_signals
+    return install_signals(stop)
 
 
 def _restore_signals(previous: dict[int, Any]) -> None:
-    for sig, handler in previous.items():
-        signal.signal(sig, handler)
+    from monitor.headless import restore_signals
+    restore_signals(previous)
 
 
-def _screen(session: Any, args: argparse.Namespace) -> int:
-    if _module("monitor.tui.app") is None:
+def _screen(session: Any, config: Any) -> int:
+    if _module("monitor.tui.app") is None or _module("monitor.tui.launch") is None:
+        for sink in session.sinks:
+            close = getattr(sink, "close", None)
+            if callable(close):
+                close()
         print("regime watch: the screen is not available in this build; use --headless", file=sys.stderr)
         return EXIT_USAGE
-    from monitor.tui.app import RegimeApp
-    from monitor.tui.feed import EventTap, SessionFeed
+    from monitor.headless import human_summary
+    from monitor.tui.feed import EventTap
+    from monitor.tui.launch import run_screen, settings_for
 
     tap = EventTap()
     session.add_sink(tap)
-    feed = SessionFeed(session, tap)
-    app = RegimeApp(feed)
-    session.open()
-    try:
-        app.run()
-    finally:
-        app.stop.set()
-        feed.finished.wait(5.0)
-        session.close()
-    summary = session.summary()
-    from monitor.headless import human_summary
-    print(human_summary(summary))
-    if session.failure is not None:
-        return EXIT_SOURCE
-    return EXIT_OK
+    code = run_screen(session, tap, settings_for(config, title=f"regime watch {session.name}"))
+    print(human_summary(session.summary()))
+    return EXIT_SOURCE if session.failure is not None else code

@@ -120,3 +120,24 @@ def test_same_readings_in_different_batches_give_the_same_results(cuts: list[int
         np.testing.assert_allclose([a.min, a.max], [b.min, b.max], rtol=1e-15, atol=0, err_msg=name)
         np.testing.assert_allclose([a.mean, a.std, a.slope], [b.mean, b.std, b.slope], rtol=1e-9, atol=0,
                                    err_msg=name)
+
+
+def test_pipeline_memory_stays_bounded_over_a_long_run() -> None:
+    from adapters.batch import Rejection
+    p = Pipeline(parse_config({"pipeline": {"window": 1.0, "bins": 10, "keep_rejected": 50}}, None))
+    sizes = []
+    for k in range(300):
+        t = k * 0.1 + np.arange(100) * 1e-3
+        ne = np.full(100, 1e17)
+        ne[::10] = -1.0                                   # refused readings, kept in a ring
+        p.process(make_batch(t, seq=k * 100 + np.arange(100), ne=ne, Te=3.0))
+        p.reject([Rejection("probe", "malformed", b"t=%d seq=x" % k, 0.0)])
+        p.drain_rejections()
+        r = p.rolling("probe")
+        c = p._counts["probe"]
+        sizes.append((r.memory_cells(), len(p.rejected_samples), len(c.rate_buckets), len(c.refused_seqs)))
+    assert len(set(s[0] for s in sizes[1:])) == 1
+    assert max(s[1] for s in sizes) == 50
+    assert max(s[2] for s in sizes) <= 21
+    assert max(s[3] for s in sizes) == 0
+    assert p.counts()["probe"].accepted == 300 * 90

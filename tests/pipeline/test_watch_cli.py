@@ -275,3 +275,73 @@ def test_serial_line_over_a_socket_url() -> None:
     assert summary["accepted"] == 199
     assert sum(summary["rejected"].values()) == 1
     assert summary["lost"] == 0             # seq 50 arrived, refused: rejected, not lost
+
+
+def test_without_headless_the_screen_runs_in_a_real_terminal() -> None:
+    import pty
+    import select
+    pytest.importorskip("monitor.tui.launch")
+    master, slave = pty.openpty()
+    env = dict(os.environ, TERM="xterm-256color", COLUMNS="120", LINES="40")
+    proc = subprocess.Popen([sys.executable, "-m", "monitor", "watch", "sim:steady"], stdin=slave, stdout=slave,
+                            stderr=slave, env=env, cwd=ROOT, start_new_session=True)
+    os.close(slave)
+    buf = b""
+
+    def pump(until, seconds: float) -> None:
+        nonlocal buf
+        deadline = time.monotonic() + seconds
+        while time.monotonic() < deadline and not until():
+            ready, _, _ = select.select([master], [], [], 0.2)
+            if ready:
+                try:
+                    buf += os.read(master, 65536)
+                except OSError:
+                    return
+
+    try:
+        pump(lambda: b"debye" in buf.lower(), 30)
+        assert b"debye" in buf.lower(), buf[-500:]
+        os.write(master, b"q")
+        pump(lambda: proc.poll() is not None, 30)
+        pump(lambda: b"alarm events" in buf, 5)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        os.close(master)
+    assert proc.returncode == 0
+    assert b"summary of sim:steady: accepted" in buf
+
+
+def test_ipc_endpoint(tmp_path: Path) -> None:
+    zmq = pytest.importorskip("zmq")
+    pytest.importorskip("adapters.zmq_stream")
+    endpoint = f"ipc://{tmp_path}/feed.ipc"
+    ctx = zmq.Context()
+    pub = ctx.socket(zmq.XPUB)
+    pub.setsockopt(zmq.LINGER, 0)
+    pub.setsockopt(zmq.SNDHWM, 100_000)
+    pub.bind(endpoint)
+    proc = subprocess.Popen([sys.executable, "-m", "monitor", "watch", endpoint, "--headless", "--json"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    try:
+        assert pub.poll(30_000), "the subscriber never subscribed"
+        pub.recv()
+        for seq in range(500):
+            pub.send(f"t={seq * 0.002:.3f} seq={seq} ne=2e17 Te=4".encode())
+
+        def done(line: str) -> bool:
+            rec = json.loads(line)
+            return rec.get("type") == "status" and rec["accepted"] >= 500
+
+        lines = read_until(proc, done, time.monotonic() + 30)
+        proc.send_signal(signal.SIGINT)
+        rest, err = proc.communicate(timeout=30)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        pub.close()
+        ctx.term()
+    assert proc.returncode == 0, err
+    summary = json_lines("".join(lines) + rest)[-1]
+    assert (summary["accepted"], summary["rejected"], summary["lost"]) == (500, {}, 0)
