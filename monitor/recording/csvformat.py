@@ -77,6 +77,12 @@ class RowFormatter:
         return (self._row_format(has_seq) * n) % tuple(flat)
 
 
+def _exact(value: float) -> str:
+    """The shortest of ``%g`` and ``repr`` that reads back as the same float."""
+    short = f"{value:g}"
+    return short if float(short) == value else repr(value)
+
+
 def dump_toml(table: Mapping[str, Any]) -> str:
     """A small TOML writer for configuration dicts (scalars, strings, lists, tables, arrays of tables)."""
     out: list[str] = []
@@ -137,7 +143,7 @@ def header_block(columns: Sequence[str], *, shot: int, start_wall: float, source
              f"# source: {source}",
              f"# tool: regime {__version__}",
              "# units: " + ", ".join(f"{c}={unit_of(c)}" for c in columns),
-             f"# on_above: {on_above!r}"]
+             f"# on_above: {_exact(on_above)}"]
     lines += [f"# {k}: {v}" for k, v in extra]
     if config_path:
         lines.append(f"# config_file: {config_path}")

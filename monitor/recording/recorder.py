@@ -49,12 +49,23 @@ def _utc_stamp(wall: float) -> str:
     return _dt.datetime.fromtimestamp(wall, _dt.timezone.utc).strftime("%Y%m%dT%H%M%SZ")
 
 
+def _short(value: Any) -> str:
+    """A number as short as it can be while it still reads back the same (15 digits for display)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return str(getattr(value, "value", value))
+    return f"{value:.15g}"
+
+
 def _limit_text(spec: Any) -> str:
     parts = [str(getattr(spec, "name", "?")), str(getattr(spec, "quantity", "?"))]
     for key in ("low", "high", "deadband", "on_delay", "off_delay", "latch", "priority"):
         value = getattr(spec, key, None)
-        if value is not None:
-            parts.append(f"{key}={getattr(value, 'value', value)}")
+        if value is None:
+            continue
+        if key == "deadband" and getattr(spec, "deadband_relative", False):
+            parts.append(f"deadband={_short(100 * value)}%")
+        else:
+            parts.append(f"{key}={_short(value)}")
     return " ".join(parts)
 
 

@@ -94,20 +94,26 @@ def timed(args: list[str], samples: list[float] | None = None) -> tuple[float, f
     lines: list[str] = []
     reader = threading.Thread(target=lambda: lines.extend(proc.stdout or []), daemon=True)
     reader.start()
+    done = None
     if samples is not None:
         try:
             import psutil
 
             child = psutil.Process(proc.pid)
-            while proc.poll() is None:
-                try:
-                    samples.append(child.memory_info().rss / 1e6)
-                except psutil.Error:
-                    break
-                threading.Event().wait(0.2)
         except ImportError:
-            pass
-    _, status, usage = os.wait4(proc.pid, 0)
+            child = None
+        while child is not None:
+            pid, status, usage = os.wait4(proc.pid, os.WNOHANG)
+            if pid:
+                done = (pid, status, usage)
+                break
+            try:
+                samples.append(child.memory_info().rss / 1e6)
+            except psutil.Error:
+                pass
+            threading.Event().wait(0.2)
+    _, status, usage = done if done is not None else os.wait4(proc.pid, 0)
+    proc.returncode = status
     wall = time.perf_counter() - start
     reader.join(timeout=10)
     if status != 0:
