@@ -220,8 +220,23 @@ def bench_latency(seconds: float) -> None:
             sink = _LatencySink()
             source = ZmqSource(endpoint, name="bench")
             engine = AlarmEngine.from_config(config)
+            spent: list[float] = []
+            inner = engine.process
+
+            def timed(frame: Any, stats: Any = None) -> Any:
+                t0 = time.perf_counter()
+                try:
+                    return inner(frame, stats)
+                finally:
+                    spent.append(time.perf_counter() - t0)
+
+            engine.process = timed  # type: ignore[method-assign]
             session = Session(source, config, [sink], engine=engine, live=True)
             session.run(duration=seconds, timeout=0.01)
+            if spent:
+                us = [x * 1e6 for x in spent]
+                print(f"  (engine.process alone: {len(us)} frames, median {statistics.median(us):.0f} us, "
+                      f"p99 {_pct(us, 99):.0f} us, max {max(us):.0f} us)")
             session_close = getattr(session, "close", None)
             if callable(session_close):
                 session_close()
