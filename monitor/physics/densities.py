@@ -13,7 +13,10 @@ __all__ = ["neutral_density", "cutoff_density"]
 
 
 def neutral_density(p0: ArrayLike, Tgas: float = 300.0) -> np.ndarray:
-    """Ideal-gas neutral density n0 = p0 / (k Tgas), m^-3; p0 in Pa, Tgas in K (300 K default)."""
+    """Ideal-gas neutral density n0 = p0 / (k Tgas), m^-3; p0 in Pa, Tgas in K (300 K default).
+
+    Checked against the Loschmidt constant (CODATA via scipy.constants).
+    """
     return np.asarray(p0, dtype=np.float64) / (BOLTZMANN * Tgas)
 
 

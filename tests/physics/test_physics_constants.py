@@ -60,3 +60,13 @@ def test_physics_never_imports_scipy_on_the_calc_path() -> None:
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() == "[]"
     assert math.isfinite(C.PI)
+
+
+def test_neutral_density_against_loschmidt() -> None:
+    from monitor.physics.densities import neutral_density
+
+    # CODATA via scipy.constants: Loschmidt constant n0 at 273.15 K and 101.325 kPa
+    loschmidt = sc.physical_constants["Loschmidt constant (273.15 K, 101.325 kPa)"][0]
+    assert float(neutral_density(101325.0, 273.15)) == pytest.approx(loschmidt, rel=1e-9)
+    # common practice: about 2.4e20 m^-3 per pascal at room temperature
+    assert float(neutral_density(1.0)) == pytest.approx(2.4e20, rel=1e-2)
