@@ -73,8 +73,8 @@ class Derived:
 
     @property
     def valid(self) -> np.ndarray:
-        n = len(next(iter(self.values.values()))) if self.values else 0
-        ok = np.ones(n, dtype=bool)
+        arrays = [*self.values.values(), *self.invalid.values()]
+        ok = np.ones(len(arrays[0]) if arrays else 0, dtype=bool)
         for mask in self.invalid.values():
             ok &= ~mask
         return ok
