@@ -79,6 +79,7 @@ class AlarmEngine:
             core = self._add(AlarmCore(spec.name, "limit", spec.quantity, spec.priority, clock, spec.description,
                                        spec.latch, spec.realarm_after, spec.max_shelve or o.max_shelve,
                                        suppressed=spec.only_when_on, out_of_service=spec.out_of_service))
+            core.limit = spec.high if spec.high is not None else spec.low
             lim = _Limit(spec, core)
             if spec.predict_within is not None:
                 lim.predictor = SlopePredictor(spec.high, spec.low, spec.predict_within,
@@ -88,6 +89,8 @@ class AlarmEngine:
                                                 f"{spec.name} expected within {spec.predict_within:g} s",
                                                 max_shelve=spec.max_shelve or o.max_shelve,
                                                 suppressed=spec.only_when_on, out_of_service=spec.out_of_service))
+            if lim.pcore is not None:
+                lim.pcore.limit = core.limit
             self._limits.append(lim)
 
     @classmethod
@@ -114,6 +117,7 @@ class AlarmEngine:
             quality = self._add(AlarmCore(f"{name}:quality", "quality", None, o.quality_priority, self.clock,
                                           f"more than {o.quality_above:.0%} of samples from {name} invalid "
                                           f"over {o.quality_window:g} s", max_shelve=o.max_shelve))
+            stale.limit, quality.limit = self.stale_after, o.quality_above
             src = _Source(stale, quality, QualityWindow(o.quality_window, o.quality_above, o.quality_below,
                                                         o.quality_min_samples), first_seen=seen)
             self._sources[name] = src

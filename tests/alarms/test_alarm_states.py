@@ -153,3 +153,17 @@ def test_engine_actions_by_id_and_acknowledge_all() -> None:
     assert views["hot"].shelved_until == 14.0 and views["hot"].state == SH
     assert {"probe:stale", "probe:quality"} <= set(views)
     assert eng.set_out_of_service("cold", True, 5.0)[0].state == OOS
+
+
+def test_views_show_every_alarm_with_its_limit_before_any_data() -> None:
+    eng = engine([{"name": "band", "quantity": "Te", "low": 1.0, "high": 5.0, "predict_within": 3.0,
+                   "description": "electrons too hot or too cold"}])
+    views = {v.alarm: v for v in eng.views()}
+    assert set(views) == {"band", "band:predict"}
+    assert views["band"].state == SU and views["band"].limit == 5.0 and views["band"].kind == "limit"
+    assert views["band"].description == "electrons too hot or too cold"
+    assert views["band:predict"].kind == "predictive" and views["band:predict"].priority == Priority.ADVISORY
+    eng.process(frame([0.0], Te=[3.0]))
+    views = {v.alarm: v for v in eng.views()}
+    assert views["band"].state == N and views["band"].since == 0.0
+    assert views["probe:stale"].limit == 2.0 and views["probe:quality"].limit == 0.2
