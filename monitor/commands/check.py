@@ -41,6 +41,7 @@ def _describe(lim: Any) -> str:
     from monitor.quantities import ALL
 
     unit = ALL[lim.quantity].unit
+    unit = "(dimensionless)" if unit == "1" else unit
     side = []
     if lim.low is not None:
         side.append(f"low {lim.low:g}")
