@@ -22,7 +22,10 @@ from monitor.snapshot import Stats
 
 __all__ = ["Rolling", "Trail"]
 
-_MOMENTS = ("st", "stt", "sx", "sxx", "stx")
+# per quantity and bucket: count, sums of t, t^2, x, x^2, t*x (t and x relative to the bucket's
+# start and reference), min and max of x
+_N, _ST, _STT, _SX, _SXX, _STX, _MIN, _MAX = range(8)
+_FRESH = np.array([0.0, 0.0, 0.0, 0.0, 0.0, 0.0, np.inf, -np.inf])
 
 
 class Rolling:
@@ -38,12 +41,9 @@ class Rolling:
         self._index: dict[str, int] = {}
         self._bin_id = np.full(self.nbins, np.iinfo(np.int64).min, dtype=np.int64)
         self._last_bin: int | None = None
-        q = 0
-        self._n = np.zeros((q, self.nbins), dtype=np.int64)
-        self._m = {k: np.zeros((q, self.nbins)) for k in _MOMENTS}
-        self._ref = np.zeros((q, self.nbins))
-        self._min = np.full((q, self.nbins), np.inf)
-        self._max = np.full((q, self.nbins), -np.inf)
+        self._acc = np.zeros((0, 8, self.nbins))
+        self._ref = np.zeros((0, self.nbins))
+        self._all8 = np.arange(8)
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -51,7 +51,7 @@ class Rolling:
 
     def memory_cells(self) -> int:
         """Numbers held (for the bounded-memory check)."""
-        return int(self._n.size * (3 + len(_MOMENTS)) + self._bin_id.size)
+        return int(self._acc.size + self._ref.size + self._bin_id.size)
 
     def _grow(self, names: list[str]) -> None:
         new = [k for k in names if k not in self._index]
@@ -60,13 +60,9 @@ class Rolling:
         for k in new:
             self._index[k] = len(self._names)
             self._names.append(k)
-        extra = len(new)
-        self._n = np.vstack([self._n, np.zeros((extra, self.nbins), dtype=np.int64)])
-        for k in _MOMENTS:
-            self._m[k] = np.vstack([self._m[k], np.zeros((extra, self.nbins))])
-        self._ref = np.vstack([self._ref, np.zeros((extra, self.nbins))])
-        self._min = np.vstack([self._min, np.full((extra, self.nbins), np.inf)])
-        self._max = np.vstack([self._max, np.full((extra, self.nbins), -np.inf)])
+        block = np.broadcast_to(_FRESH[None, :, None], (len(new), 8, self.nbins))
+        self._acc = np.concatenate([self._acc, block], axis=0)
+        self._ref = np.vstack([self._ref, np.zeros((len(new), self.nbins))])
 
     def add(self, t: np.ndarray, values: Mapping[str, np.ndarray]) -> None:
         """Add readings at times ``t`` (non-decreasing); NaN/inf values are left out."""
@@ -78,89 +74,95 @@ class Rolling:
         b = np.floor(t / self.width).astype(np.int64)
         if self._last_bin is not None and b[0] < self._last_bin:
             raise ValueError("rolling statistics need non-decreasing time")
-        starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
+        if b[0] == b[-1]:
+            starts = np.zeros(1, dtype=np.int64)
+        else:
+            starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
         seg_bin = b[starts]
         cut = 0
-        keep = seg_bin > seg_bin[-1] - self.nbins          # older buckets would be overwritten at once
-        if not keep.all():
-            first = int(np.flatnonzero(keep)[0])
+        if seg_bin[0] <= seg_bin[-1] - self.nbins:          # older buckets would be overwritten at once
+            first = int(np.flatnonzero(seg_bin > seg_bin[-1] - self.nbins)[0])
             cut = int(starts[first])
             t, b = t[cut:], b[cut:]
             starts, seg_bin = starts[first:] - cut, seg_bin[first:]
             n = len(t)
-        m = len(starts)
-        lengths = np.diff(np.concatenate((starts, [n])))
+        lengths = np.diff(np.append(starts, n))
         slots = seg_bin % self.nbins
         # buckets met for the first time are cleared; a continuing bucket keeps its reference
         cont = self._bin_id[slots] == seg_bin
-        fresh_slots = slots[~cont]
-        if len(fresh_slots):
-            self._n[:, fresh_slots] = 0
-            for k in _MOMENTS:
-                self._m[k][:, fresh_slots] = 0.0
-            self._min[:, fresh_slots] = np.inf
-            self._max[:, fresh_slots] = -np.inf
+        if not cont.all():
+            fresh_slots = slots[~cont]
+            self._acc[:, :, fresh_slots] = _FRESH[None, :, None]
             self._bin_id[fresh_slots] = seg_bin[~cont]
-        # split the quantities into those with every value finite (no masks needed) and the rest;
-        # each is taken relative to a reference value c (its first finite value in this batch)
-        full: list[tuple[str, np.ndarray, float]] = []
-        part: list[tuple[str, np.ndarray, float]] = []
-        for name in names:
-            col = np.asarray(values[name], dtype=np.float64)
-            col = col[cut:] if cut else col
-            if math.isfinite(float(np.add.reduce(col))):
-                full.append((name, col, float(col[0])))
-            else:
-                fin = np.isfinite(col)
-                i = int(fin.argmax())
-                part.append((name, col, float(col[i]) if fin[i] else 0.0))
+        rows = np.fromiter((self._index[k] for k in names), dtype=np.int64, count=len(names))
+        x = np.vstack([values[k] for k in names]).astype(np.float64, copy=False)     # (q, n)
+        if cut:
+            x = x[:, cut:]
         dt = t - b * self.width                                  # in [0, width)
-        for group, masked in ((full, False), (part, True)):
-            if group:
-                self._add_group(group, masked, dt, starts, lengths, slots)
+        # each quantity is taken relative to a reference value c near its data (its first
+        # finite value in this batch); quantities with every value finite need no masks
+        full = np.isfinite(np.add.reduce(x, axis=1))
+        c = x[:, 0].copy()
+        if full.all():
+            self._add_group(rows, x - c[:, None], c, None, dt, starts, lengths, slots)
+        else:
+            part = ~full
+            xp = x[part]
+            fin = np.isfinite(xp)
+            cp = xp[np.arange(len(xp)), fin.argmax(axis=1)]
+            c[part] = np.where(np.isfinite(cp), cp, 0.0)
+            dx = x - c[:, None]
+            if full.any():
+                self._add_group(rows[full], dx[full], c[full], None, dt, starts, lengths, slots)
+            self._add_group(rows[part], dx[part], c[part], fin, dt, starts, lengths, slots)
         self._last_bin = int(seg_bin[-1])
 
-    def _add_group(self, group: list[tuple[str, np.ndarray, float]], masked: bool, dt: np.ndarray,
-                   starts: np.ndarray, lengths: np.ndarray, slots: np.ndarray) -> None:
-        q, n = len(group), len(dt)
-        rows = np.array([self._index[name] for name, _, _ in group])
-        c = np.array([ref for _, _, ref in group])
-        dx = np.empty((q, n))
-        for i, (_, col, ref) in enumerate(group):
-            np.subtract(col, ref, out=dx[i])
-        if masked:
-            fin = np.isfinite(dx)
-            dx[~fin] = 0.0
-            dtm = np.where(fin, dt, 0.0)
-            cnt = np.add.reduceat(fin.astype(np.int64), starts, axis=1)
-            st = np.add.reduceat(dtm, starts, axis=1)
-            stt = np.add.reduceat(dtm * dt, starts, axis=1)
-            stx = np.add.reduceat(dx * dt, starts, axis=1)
-            mn = np.minimum.reduceat(np.where(fin, dx, np.inf), starts, axis=1)
-            mx = np.maximum.reduceat(np.where(fin, dx, -np.inf), starts, axis=1)
+    def _add_group(self, rows: np.ndarray, dx: np.ndarray, c: np.ndarray, fin: np.ndarray | None,
+                   dt: np.ndarray, starts: np.ndarray, lengths: np.ndarray, slots: np.ndarray) -> None:
+        """Add the deviations ``dx`` (quantities x readings) from references ``c``; ``fin`` marks
+        the finite ones (None: all are)."""
+        q, n = dx.shape
+        m = len(starts)
+        new = np.empty((q, 8, m))
+        y = np.empty((q, 3, n))
+        if fin is None:
+            y[:, 0] = dx
+            np.multiply(dx, dx, out=y[:, 1])
+            np.multiply(dx, dt, out=y[:, 2])
+            new[:, _N] = lengths
+            tsum = np.add.reduceat(np.stack((dt, dt * dt)), starts, axis=1)      # (2, m)
+            new[:, _ST] = tsum[0]
+            new[:, _STT] = tsum[1]
+            new[:, _MIN] = np.minimum.reduceat(dx, starts, axis=1)
+            new[:, _MAX] = np.maximum.reduceat(dx, starts, axis=1)
         else:
-            cnt = np.broadcast_to(lengths, (q, len(starts)))
-            st = np.broadcast_to(np.add.reduceat(dt, starts), (q, len(starts)))
-            stt = np.broadcast_to(np.add.reduceat(dt * dt, starts), (q, len(starts)))
-            stx = np.add.reduceat(dx * dt, starts, axis=1)
-            mn = np.minimum.reduceat(dx, starts, axis=1)
-            mx = np.maximum.reduceat(dx, starts, axis=1)
-        sx = np.add.reduceat(dx, starts, axis=1)
-        sxx = np.add.reduceat(dx * dx, starts, axis=1)
-        ix = np.ix_(rows, slots)
-        old_n = self._n[ix]
+            dx[~fin] = 0.0
+            y[:, 0] = dx
+            np.multiply(dx, dx, out=y[:, 1])
+            np.multiply(dx, dt, out=y[:, 2])
+            dtm = np.where(fin, dt, 0.0)
+            tsum = np.add.reduceat(np.stack((fin.astype(np.float64), dtm, dtm * dt), axis=1), starts, axis=2)
+            new[:, _N], new[:, _ST], new[:, _STT] = tsum[:, 0], tsum[:, 1], tsum[:, 2]
+            new[:, _MIN] = np.minimum.reduceat(np.where(fin, dx, np.inf), starts, axis=1)
+            new[:, _MAX] = np.maximum.reduceat(np.where(fin, dx, -np.inf), starts, axis=1)
+        xs = np.add.reduceat(y, starts, axis=2)                                  # (q, 3, m)
+        ix = np.ix_(rows, self._all8, slots)
+        old = self._acc[ix]                                                      # (q, 8, m)
+        rix = np.ix_(rows, slots)
         cc = c[:, None]
-        ref = np.where(old_n > 0, self._ref[ix], cc)             # a bucket keeps its first reference
+        ref = np.where(old[:, _N] > 0, self._ref[rix], cc)        # a bucket keeps its first reference
         e = cc - ref                                              # x - ref = (x - c) + e
-        self._n[ix] = old_n + cnt
-        self._m["st"][ix] += st
-        self._m["stt"][ix] += stt
-        self._m["sx"][ix] += sx + cnt * e
-        self._m["sxx"][ix] += sxx + 2.0 * e * sx + cnt * e * e
-        self._m["stx"][ix] += stx + e * st
-        self._ref[ix] = ref
-        self._min[ix] = np.minimum(self._min[ix], mn + cc)
-        self._max[ix] = np.maximum(self._max[ix], mx + cc)
+        cnt, st, sx = new[:, _N], new[:, _ST], xs[:, 0]
+        old[:, _N] += cnt
+        old[:, _ST] += st
+        old[:, _STT] += new[:, _STT]
+        old[:, _SX] += sx + cnt * e
+        old[:, _SXX] += xs[:, 1] + 2.0 * e * sx + cnt * e * e
+        old[:, _STX] += xs[:, 2] + e * st
+        np.minimum(old[:, _MIN], new[:, _MIN] + cc, out=old[:, _MIN])
+        np.maximum(old[:, _MAX], new[:, _MAX] + cc, out=old[:, _MAX])
+        self._acc[ix] = old
+        self._ref[rix] = ref
 
     def window_start(self) -> float | None:
         """Data time from which the current window counts readings."""
@@ -173,16 +175,16 @@ class Rolling:
         out: dict[str, Stats] = {}
         if self._last_bin is None or not self._names:
             return out
-        live = self._bin_id > self._last_bin - self.nbins
-        slots = np.flatnonzero(live)
-        n = self._n[:, slots].astype(np.float64)                        # (q, k)
+        slots = np.flatnonzero(self._bin_id > self._last_bin - self.nbins)
+        a = self._acc[:, :, slots]                                          # (q, 8, k)
+        n = a[:, _N]
         d = ((self._bin_id[slots] - self._last_bin) * self.width)[None, :]   # <= 0
         ref = self._ref[:, slots]
         total = n.sum(axis=1)
         with np.errstate(invalid="ignore", divide="ignore"):
             c = np.where(total > 0, (ref * n).sum(axis=1) / np.where(total > 0, total, 1), 0.0)[:, None]
             e = ref - c
-            st, stt, sx, sxx, stx = (self._m[k][:, slots] for k in _MOMENTS)
+            st, stt, sx, sxx, stx = a[:, _ST], a[:, _STT], a[:, _SX], a[:, _SXX], a[:, _STX]
             St = (st + n * d).sum(axis=1)
             Stt = (stt + 2 * d * st + n * d * d).sum(axis=1)
             Sx = (sx + n * e).sum(axis=1)
@@ -192,8 +194,8 @@ class Rolling:
             var = Sxx / total - mean_x * mean_x
             den = Stt - St * St / total
             slope = (Stx - St * Sx / total) / den
-        mn = self._min[:, slots].min(axis=1) if len(slots) else np.full(len(self._names), np.inf)
-        mx = self._max[:, slots].max(axis=1) if len(slots) else np.full(len(self._names), -np.inf)
+        mn = a[:, _MIN].min(axis=1) if len(slots) else np.full(len(self._names), np.inf)
+        mx = a[:, _MAX].max(axis=1) if len(slots) else np.full(len(self._names), -np.inf)
         for i, name in enumerate(self._names):
             k = int(total[i])
             if k == 0:
