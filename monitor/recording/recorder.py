@@ -9,7 +9,7 @@ import re
 import sys
 import threading
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable, Mapping
 
@@ -19,10 +19,12 @@ from adapters.base import SourceStatus
 from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent, AlarmState, Priority
 from monitor.model import Frame
-from monitor.recording.csvformat import BASE_ORDER, RowFormatter, dump_toml, header_block
+from monitor.recording.csvformat import BASE_ORDER, dump_toml, header_block
 from monitor.recording.files import LineFile, json_line, rejection_json
+from monitor.recording.history import PreTrigger
 from monitor.recording.options import RecordingOptions, parse_recording
 from monitor.recording.shots import ShotSplitter
+from monitor.recording.streams import Stream, journal_factory, limit_text, utc_stamp
 
 __all__ = ["Recorder", "RecorderStatus"]
 
@@ -43,71 +45,6 @@ class RecorderStatus:
     rows_idle: int
     dropped: int
     errors: int
-
-
-def _utc_stamp(wall: float) -> str:
-    return _dt.datetime.fromtimestamp(wall, _dt.timezone.utc).strftime("%Y%m%dT%H%M%SZ")
-
-
-def _short(value: Any) -> str:
-    """A number as short as it can be while it still reads back the same (15 digits for display)."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return str(getattr(value, "value", value))
-    return f"{value:.15g}"
-
-
-def _limit_text(spec: Any) -> str:
-    parts = [str(getattr(spec, "name", "?")), str(getattr(spec, "quantity", "?"))]
-    for key in ("low", "high", "deadband", "on_delay", "off_delay", "latch", "priority"):
-        value = getattr(spec, key, None)
-        if value is None:
-            continue
-        if key == "deadband" and getattr(spec, "deadband_relative", False):
-            parts.append(f"deadband={_short(100 * value)}%")
-        else:
-            parts.append(f"{key}={_short(value)}")
-    return " ".join(parts)
-
-
-class _Stream:
-    """One open recording file with its journal and rejects side file."""
-
-    def __init__(self, stem: Path, columns: tuple[str, ...], header: str, journal_factory: Callable[[Path], Any]):
-        self.stem = stem
-        self.columns = columns
-        self.csv = LineFile(stem.with_suffix(".csv"))
-        self.csv.write(header.encode("utf-8"))
-        self.rejects = LineFile(stem.with_suffix(".rejects.jsonl"))
-        self.journal = journal_factory(stem.with_suffix(".alarms.jsonl"))
-        self.formatter = RowFormatter(columns)
-
-    def close(self) -> None:
-        for part in (self.csv, self.rejects):
-            part.close()
-        close = getattr(self.journal, "close", None)
-        if close is not None:
-            close()
-
-
-class _OwnJournal:
-    """JSON Lines journal of alarm events, used when monitor.alarms.journal is not available."""
-
-    def __init__(self, path: Path) -> None:
-        self.file = LineFile(path)
-
-    def on_alarm(self, event: AlarmEvent) -> None:
-        self.file.write(json_line(event.to_json()))
-
-    def close(self) -> None:
-        self.file.close()
-
-
-def _journal_factory() -> Callable[[Path], Any]:
-    try:
-        from monitor.alarms.journal import JournalSink  # type: ignore[import-not-found]
-    except ImportError:
-        return _OwnJournal
-    return lambda path: JournalSink(path)
 
 
 class Recorder:
@@ -133,17 +70,16 @@ class Recorder:
         self.alarm_events: collections.deque[AlarmEvent] = collections.deque(maxlen=100)
         self.on_above = float(getattr(config, "on_above", 1e15) or 1e15)
         self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split)
-        self._journal_factory = _journal_factory()
+        self._journal_factory = journal_factory()
         self._lock = threading.RLock()
-        self._stream: _Stream | None = None
+        self._stream: Stream | None = None
         self._pending: list[str] = []
         self._pending_rows = 0
         self._pending_bytes = 0
         self._pending_since: float | None = None
         self._last_fsync = 0.0
-        self._pre: collections.deque[tuple[np.ndarray, dict[str, np.ndarray], np.ndarray | None]] = collections.deque()
+        self._history = PreTrigger(self.options.pre_trigger, self._hold)
         self._idle_events: collections.deque[AlarmEvent] = collections.deque(maxlen=1000)
-        self._last_raw: dict[str, tuple[float, dict[str, float]]] = {}
         self._shot_counter = 0
         self._shots = 0
         self._rows_written = 0
@@ -154,7 +90,7 @@ class Recorder:
         self._next_retry = 0.0
         self._closed = False
         self._session: tuple[Any, Any] | None = None
-        self._session_stamp = _utc_stamp(clock())
+        self._session_stamp = utc_stamp(clock())
         self._open_session_files()
         self._stop = threading.Event()
         self._flusher = threading.Thread(target=self._flush_loop, name="recorder-flush", daemon=True)
@@ -292,7 +228,7 @@ class Recorder:
         cfg = self.config
         raw = getattr(cfg, "raw", None)
         toml = dump_toml(raw) if isinstance(raw, Mapping) and raw else None
-        limits = [_limit_text(spec) for spec in getattr(cfg, "limits", ()) or ()]
+        limits = [limit_text(spec) for spec in getattr(cfg, "limits", ()) or ()]
         path = getattr(cfg, "path", None)
         return header_block(columns, shot=shot, start_wall=wall, source=self.source_name, on_above=self.on_above,
                             limits=limits, config_toml=toml, config_path=str(path) if path else None,
@@ -305,27 +241,21 @@ class Recorder:
     def _open_shot(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray], row: int,
                    part: int = 1) -> None:
         t0 = float(frame.t[row])
-        first_t = t0
         if part == 1:
-            self._pre_trim(t0, keep_from=t0 - self.options.pre_trigger)
-            if self._pre:
-                first_t = float(self._pre[0][0][0])
+            first_t, primes, pre = self._history.take(t0, {k: float(v[row]) for k, v in base.items()})
+        else:
+            first_t, primes, pre = t0, [], []
         wall = first_t if first_t > 1e9 else self._clock()     # epoch data time names the shot by itself
         try:
             folder = self._folder(wall)
             folder.mkdir(parents=True, exist_ok=True)
             if part == 1:
                 self._shot_counter = self._next_shot_number(folder)
-            stem_name = self.options.name.format(shot=self._shot_counter, start=_utc_stamp(wall))
+            stem_name = self.options.name.format(shot=self._shot_counter, start=utc_stamp(wall))
             if part > 1:
                 stem_name += f"-part{part}"
             columns = self._columns_for(base, sigma)
-            if self._pre:
-                first_vals = {k: float(v[0]) for k, v in self._pre[0][1].items()}
-            else:
-                first_vals = {k: float(v[row]) for k, v in base.items()}
-            primes = self._priming_rows(first_t, first_vals) if part == 1 else []
-            self._stream = _Stream(folder / stem_name, columns,
+            self._stream = Stream(folder / stem_name, columns,
                                    self._header(columns, self._shot_counter, wall, len(primes)),
                                    self._journal_factory)
         except OSError as exc:
@@ -333,13 +263,15 @@ class Recorder:
             self._next_retry = self._clock() + _RETRY_EVERY
             self._problem(f"cannot open a recording file in {self.directory}: {exc}; readings are not "
                           f"being recorded (retrying)")
+            lost = len(primes) + sum(len(t) for t, _, _ in pre)
+            self._dropped += lost
+            self._rows_idle -= lost
             return
         if part == 1:
             self._shots += 1
             for t_p, row in primes:
                 self._format(np.array([t_p]), {c: np.array([x]) for c, x in row.items()}, None, slice(None))
                 self._rows_idle -= 1
-            pre, self._pre = list(self._pre), collections.deque()
             for t, vals, seq in pre:
                 self._format(t, vals, seq, slice(None))
                 self._rows_idle -= len(t)
@@ -407,57 +339,15 @@ class Recorder:
     def _keep_idle(self, frame: Frame, base: dict[str, np.ndarray], sigma: dict[str, np.ndarray],
                    a: int, b: int) -> None:
         self._rows_idle += b - a
-        t = np.asarray(frame.t[a:b])
-        vals = {k: v[a:b] for k, v in base.items()}
-        vals.update({f"sigma_{k}": v[a:b] for k, v in sigma.items()})
-        if self.options.pre_trigger <= 0:
-            self._remember(t, vals)
-            return
-        seq = frame.seq[a:b] if frame.seq is not None else None
-        self._pre.append((t, vals, seq))
-        self._pre_trim(float(t[-1]), keep_from=float(t[-1]) - self.options.pre_trigger)
-
-    def _pre_trim(self, now: float, keep_from: float) -> None:
-        while self._pre and float(self._pre[0][0][-1]) < keep_from:
-            t, vals, _ = self._pre.popleft()
-            self._remember(t, vals)
-        if self._pre:
-            t, vals, seq = self._pre[0]
-            k = int(np.searchsorted(t, keep_from, side="left"))
-            if k:
-                self._remember(t[:k], {c: v[:k] for c, v in vals.items()})
-                self._pre[0] = (t[k:], {c: v[k:] for c, v in vals.items()}, seq[k:] if seq is not None else None)
-
-    def _remember(self, t: np.ndarray, vals: Mapping[str, np.ndarray]) -> None:
-        """Keep, per base key, the last reading that carried it among rows leaving the history."""
-        for key in BASE_ORDER:
-            v = vals.get(key)
-            if v is None or len(v) == 0:
-                continue
-            idx = np.flatnonzero(np.isfinite(v))
-            if len(idx):
-                i = int(idx[-1])
-                self._last_raw[key] = (float(t[i]), {c: float(x[i]) for c, x in vals.items()})
+        cols = {k: v[a:b] for k, v in base.items()}
+        cols.update({f"sigma_{k}": v[a:b] for k, v in sigma.items()})
+        self._history.keep(np.asarray(frame.t[a:b]), cols, frame.seq[a:b] if frame.seq is not None else None)
 
     def _hold(self, key: str) -> float:
         hold_for = getattr(self.config, "hold_for", None)
         if callable(hold_for):
             return float(hold_for(key))
         return float(getattr(self.config, "max_age", 0.25))
-
-    def _priming_rows(self, first_t: float, first: Mapping[str, float]) -> list[tuple[float, dict[str, float]]]:
-        """The last reading of each base key that the file's first row (``first``) does not carry,
-        while its alignment hold still covers that row: written first (seq left empty) so that a
-        replay aligns as the live run did."""
-        rows: dict[float, dict[str, float]] = {}
-        for key, (t, row) in self._last_raw.items():
-            carried = first.get(key)
-            if carried is not None and np.isfinite(carried):
-                continue
-            if t < first_t and first_t - t <= self._hold(key):
-                rows[t] = row
-        self._last_raw = {}
-        return sorted(rows.items())
 
     # -- writing ---------------------------------------------------------------------------------------
     def _maybe_flush(self, force: bool) -> None:
