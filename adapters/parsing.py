@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 import re
 from dataclasses import dataclass
 from itertools import chain
@@ -303,16 +304,50 @@ def _no_constants(name: str) -> float:
     raise ValueError(f"non-finite constant {name}")
 
 
+_JSON = json.JSONDecoder(parse_constant=_no_constants)
+_json_keys: dict[tuple[str, ...], tuple[str, ...] | None] = {}
+
+
+def _json_fast(obj: dict) -> tuple[tuple[str, ...], list[float], float | None, int | None] | None:
+    """The common case (known-good key layout, plain finite numbers); None sends it to the careful path."""
+    keys = tuple(obj)
+    chan = _json_keys.get(keys, ())
+    if chan == ():
+        ok = all(_KEY.match(k) for k in keys) and any(k not in _RESERVED for k in keys)
+        chan = tuple(k for k in keys if k not in _RESERVED) if ok else None
+        if len(_json_keys) > 4096:
+            _json_keys.clear()
+        _json_keys[keys] = chan
+    if chan is None:
+        return None
+    vals = [obj[k] for k in chan]
+    t, seq = obj.get("t"), obj.get("seq")
+    try:
+        if not all((type(v) is float or type(v) is int) and math.isfinite(v) for v in vals):
+            return None
+        if t is not None and not ((type(t) is float or type(t) is int) and math.isfinite(t)):
+            return None
+    except OverflowError:
+        return None
+    if seq is not None and (type(seq) is not int or not 0 <= seq <= _SEQ_MAX):
+        return None
+    return chan, vals, (None if t is None else float(t)), seq
+
+
 def _json_row(frame: bytes, max_frame: int) -> tuple[str, str] | tuple[tuple[str, ...], list[float], float | None, int | None]:
     if len(frame) > max_frame:
         return "oversized", f"frame longer than {max_frame} bytes"
     try:
-        obj = json.loads(frame, parse_constant=_no_constants)
+        obj = _JSON.decode(bytes(frame).decode("utf-8"))
     except ValueError as exc:                      # JSONDecodeError, UnicodeDecodeError, NaN/Infinity
         reason = "not_finite" if "non-finite" in str(exc) else "bad_json"
         return reason, str(exc)[:120]
     except RecursionError:
         return "bad_json", "nested too deeply"
+    if type(obj) is dict:
+        fast = _json_fast(obj)
+        if fast is not None:
+            return fast
     if not isinstance(obj, dict):
         return "bad_json", "a reading must be a JSON object"
     t: float | None = None

@@ -47,7 +47,8 @@ class SerialSource:
 
     def __init__(self, url: str, baud: int = DEFAULT_BAUD, *, name: str | None = None,
                  max_line: int = MAX_LINE, read_timeout: float = 0.05,
-                 backoff: tuple[float, float] = (0.1, 2.0), queue_chunks: int = 100_000) -> None:
+                 backoff: tuple[float, float] = (0.1, 2.0), queue_chunks: int = 100_000,
+                 coalesce: float = 0.02) -> None:
         if url.startswith("serial:"):
             url, baud = parse_serial_spec(url)
         self.url, self.baud = url, baud
@@ -56,6 +57,7 @@ class SerialSource:
         self._max_line = max_line
         self._read_timeout = read_timeout
         self._backoff = backoff
+        self.coalesce = coalesce                  # after the first chunk, gather for up to this long
         self._q: queue.Queue[tuple[str, float, bytes]] = queue.Queue(maxsize=queue_chunks)
         self._stop = threading.Event()
         self._lock = threading.Lock()
@@ -145,10 +147,18 @@ class SerialSource:
         if self._fatal is not None:
             raise self._fatal
         items: list[tuple[str, float, bytes]] = []
+        start = time.monotonic()
         try:
             items.append(self._q.get(timeout=max(0.0, timeout)))
+            gather_until = min(time.monotonic() + self.coalesce, start + max(timeout, 0.0))
             while len(items) < 10_000:
-                items.append(self._q.get_nowait())
+                try:
+                    items.append(self._q.get_nowait())
+                except queue.Empty:
+                    left = gather_until - time.monotonic()
+                    if left <= 0:
+                        break
+                    items.append(self._q.get(timeout=left))
         except queue.Empty:
             pass
         batches: list[Batch] = []

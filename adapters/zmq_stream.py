@@ -39,7 +39,8 @@ __all__ = ["ZmqSource", "DEFAULT_RCVHWM", "is_loopback_endpoint"]
 # publisher's rate, and a lower rcvhwm suits such streams).
 DEFAULT_RCVHWM = 200_000
 _DRAIN_MESSAGES = 50_000          # most messages handled in one poll
-_DRAIN_SECONDS = 0.05             # most time spent receiving in one poll
+_DRAIN_SECONDS = 0.1              # most time spent receiving in one poll
+COALESCE = 0.02                   # after the first message, gather for up to this long (fewer, larger batches)
 
 
 def is_loopback_endpoint(endpoint: str) -> bool:
@@ -66,7 +67,8 @@ class ZmqSource:
     def __init__(self, endpoint: str, *, name: str | None = None,
                  curve: tuple[str | Path, str | Path] | None = None,
                  max_frame: int = MAX_FRAME, max_line: int = MAX_LINE, rcvhwm: int = DEFAULT_RCVHWM,
-                 allow_remote: bool = False, topic: bytes = b"", context: Any = None) -> None:
+                 allow_remote: bool = False, topic: bytes = b"", context: Any = None,
+                 coalesce: float = COALESCE, max_batch: int = 32_768) -> None:
         if not endpoint.startswith(("tcp://", "ipc://", "inproc://")):
             raise FatalSourceError(f"{endpoint}: a ZeroMQ source needs tcp://, ipc:// or inproc://")
         if not is_loopback_endpoint(endpoint) and not allow_remote and curve is None:
@@ -76,6 +78,8 @@ class ZmqSource:
         self.name = name or endpoint
         self.max_frame, self.max_line, self.rcvhwm = max_frame, max_line, rcvhwm
         self.curve = curve
+        self.coalesce = coalesce
+        self.max_batch = max_batch                # readings per merged Batch (the pipeline's sweet spot)
         self.topic = topic
         self._ctx_arg = context
         self._ctx: Any = None
@@ -237,29 +241,37 @@ class ZmqSource:
 
         if self._sock is None:
             self.open()
+        start = time.monotonic()
         events = dict(self._poller.poll(max(0, int(timeout * 1000))))
         if self._mon in events:
             self._drain_monitor()
         msgs: list[tuple[float, list[bytes]]] = []
         if self._sock in events:
-            deadline = time.monotonic() + _DRAIN_SECONDS
-            recv = self._sock.recv_multipart
+            first = time.monotonic()
+            hard_stop = first + _DRAIN_SECONDS
+            gather_until = min(first + self.coalesce, start + max(timeout, 0.0))
+            sock = self._sock
+            recv = sock.recv_multipart
             now = time.time()
-            try:
-                while len(msgs) < _DRAIN_MESSAGES:
+            while len(msgs) < _DRAIN_MESSAGES:
+                try:
                     msgs.append((now, recv(zmq.NOBLOCK)))
-                    if len(msgs) % 256 == 0:
-                        if time.monotonic() > deadline:
-                            break
-                        now = time.time()
-            except zmq.Again:
-                pass
+                except zmq.Again:
+                    left = gather_until - time.monotonic()
+                    if left <= 0 or not sock.poll(max(1, int(left * 1000)), zmq.POLLIN):
+                        break
+                    now = time.time()
+                    continue
+                if len(msgs) % 256 == 0:
+                    if time.monotonic() > hard_stop:
+                        break
+                    now = time.time()
         if msgs:
             self.messages += len(msgs)
             if self._state is not LinkState.CONNECTED:    # data flowing proves the link (monitor may lag)
                 self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
         batches, rejects = self._decode(msgs)
-        return Polled(batches=merge_batches(batches), rejections=rejects, status=self.status())
+        return Polled(batches=merge_batches(batches, max_len=self.max_batch), rejections=rejects, status=self.status())
 
     def close(self) -> None:
         if self._sock is not None:

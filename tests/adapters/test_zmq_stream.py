@@ -130,14 +130,14 @@ def test_publisher_restart_is_survived(kind: str, ctx, short_tmp, source_factory
 
 @pytest.mark.parametrize("rcvhwm, lossless", [(None, True), (1000, False)])
 def test_subscriber_stall_is_absorbed_by_the_receive_queue(rcvhwm, lossless, ctx, short_tmp, source_factory) -> None:
-    """40,000 JSON readings at 50,000/s over ipc from a publisher with ZeroMQ's default send queue,
+    """20,000 JSON readings at 25,000/s over ipc from a publisher with ZeroMQ's default send queue,
     while the subscriber does not read (a 0.8 s stall): our default receive queue keeps them all;
-    ZeroMQ's default (1000) drops most of them (measured: about 3,500 of 40,000 arrive)."""
+    ZeroMQ's default (1000) drops many (about 1,000 + 1,000 queued + the kernel's socket buffer survive)."""
     ep = _endpoint("ipc", short_tmp)
     pub = _pub(ctx, ep, sndhwm=1000)
     src = source_factory(ep, **({} if rcvhwm is None else {"rcvhwm": rcvhwm}))
     _await_subscriber(pub, src)
-    n, rate = 40_000, 50_000.0
+    n, rate = 20_000, 25_000.0
     t0, i = time.perf_counter(), 0
     while i < n:                                       # pacing the sender, not synchronising
         due = min(n, int((time.perf_counter() - t0) * rate) + 1)
@@ -145,7 +145,7 @@ def test_subscriber_stall_is_absorbed_by_the_receive_queue(rcvhwm, lossless, ctx
             pub.send(b'{"seq": %d, "ne": 5e16}' % i)
             i += 1
         time.sleep(0.002)
-    d = drain(src, lambda d: d.readings >= n, timeout=5 if lossless else 2)
+    d = drain(src, lambda d: d.readings >= n, timeout=10 if lossless else 2)
     assert d.rejections == []
     if lossless:
         assert d.readings == n and np.array_equal(d.seqs(), np.arange(n))
