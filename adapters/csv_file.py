@@ -94,6 +94,7 @@ class CsvSource:
     ``time_column`` names the time column (scaled by ``time_scale`` to seconds). Columns named like
     the canonical keys pass through; ``sigma_X`` columns become uncertainties of X; ``seq`` becomes
     sequence numbers; any other column is passed as a raw key for the channel map.
+    ``batch_rows`` caps the rows of one batch (the pipeline's temporaries grow with it).
     ``on_damage`` "stop" ends the replay at the first unreadable line, "skip" rejects it and goes on;
     either way the line is a Rejection and the status names the line number and the reason.
     """
@@ -101,7 +102,8 @@ class CsvSource:
     def __init__(self, path: str | os.PathLike[str], *, speed: float | None = None, start: float | None = None,
                  stop: float | None = None, chunk: int = _BLOCK, name: str | None = None,
                  time_column: str = "t", time_scale: float = 1.0, on_damage: str = "stop",
-                 step_seconds: float = 0.1, clock: Callable[[], float] = time.monotonic) -> None:
+                 step_seconds: float = 0.1, batch_rows: int = 16384,
+                 clock: Callable[[], float] = time.monotonic) -> None:
         self.path = Path(path)
         if speed is not None and not speed > 0:
             raise ValueError("speed must be positive, or None for as fast as possible")
@@ -115,6 +117,7 @@ class CsvSource:
         self._time_scale = float(time_scale)
         self._on_damage = on_damage
         self._step_seconds = step_seconds
+        self._batch_rows = max(1, int(batch_rows))      # rows per batch: bounds the pipeline's temporaries
         self._clock = clock
         self._explicit_name = name
         self.name = name or self.path.name
@@ -323,6 +326,7 @@ class CsvSource:
                 return [], self._wait_for(float(t[0]))
         if self._stop is not None:
             n = min(n, int(np.searchsorted(t, self._stop, side="right")))
+        n = min(n, self._batch_rows)
         taken = rows[:n]
         self._pos += n
         self._current = float(taken[-1, self._tcol])
