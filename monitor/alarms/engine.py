@@ -253,6 +253,8 @@ class AlarmEngine:
             ts, vs = ts[sel], vs[sel]
             ss = ss[sel] if ss is not None else None
         cache[key] = (ts, vs, ss)
+        if len(vs):
+            cache[("range", quantity, a, b)] = (float(vs.max()), float(vs.min()))
         return ts, vs, ss
 
     def _evaluate(self, lim: _Limit, frame: Frame, t: np.ndarray, valid: np.ndarray,
@@ -280,7 +282,12 @@ class AlarmEngine:
                 continue
             ts, vs, ss = self._samples(cache, frame, t, valid, spec.quantity, a, b, spec.uncertainty != "none")
             if len(ts):
-                events += self._limit_toggles(lim, ts, vs, ss)
+                vmax, vmin = cache[("range", spec.quantity, a, b)]
+                if (not lim.det.active and ss is None and (spec.high is None or not vmax > spec.high)
+                        and (spec.low is None or not vmin < spec.low)):
+                    lim.det.run_start = None        # nothing beyond the limit in this stretch
+                else:
+                    events += self._limit_toggles(lim, ts, vs, ss)
             if lim.predictor is not None and lim.pcore is not None:
                 for p, up in lim.predictor.evaluate(ts, vs, float(t[a]), float(t[b - 1])):
                     events += lim.pcore.fire_due(p.time, strict=True)

@@ -51,6 +51,7 @@ class SlopePredictor:
         """Drop the kept samples and the grid position (time jumped); the warning state stays."""
         self._t = np.empty(0, dtype=np.float64)
         self._v = np.empty(0, dtype=np.float64)
+        self._pending: list[tuple[np.ndarray, np.ndarray]] = []
         self._last_k: int | None = None
 
     def _predict(self, g: float, b: float, vg: float) -> Prediction:
@@ -69,12 +70,22 @@ class SlopePredictor:
         """Grid points in (last evaluated, ``upto``] with these (evaluable, time-ordered) samples added,
         and where the warning toggles. ``upto`` is the time of the latest sample seen, valid or not;
         ``start`` the first time of the stretch being evaluated (used after a reset)."""
+        step = self.step
+        k_end = math.floor(upto / step + 1e-9)
+        if self._last_k is None:    # a fresh stretch: its first grid point is the first at or after start
+            self._last_k = math.ceil(start / step - 1e-9) - 1
+        k0 = self._last_k + 1
+        if k_end < k0:              # nothing due: keep the samples for later, join nothing now
+            if len(t):
+                self._pending.append((t.copy(), v.copy()))
+            return []
+        if self._pending:
+            self._t = np.concatenate((self._t, *(p[0] for p in self._pending)))
+            self._v = np.concatenate((self._v, *(p[1] for p in self._pending)))
+            self._pending.clear()
         prev_last = float(self._t[-1]) if len(self._t) else None
         all_t = np.concatenate((self._t, t)) if len(t) else self._t
         all_v = np.concatenate((self._v, v)) if len(t) else self._v
-        step = self.step
-        k_end = math.floor(upto / step + 1e-9)
-        k0 = math.ceil(start / step - 1e-9) if self._last_k is None else self._last_k + 1
         ks = []
         if k_end >= k0:
             self._last_k = k_end
@@ -106,7 +117,7 @@ class SlopePredictor:
                 elif self.active and (ttl is None or ttl > RETURN_FACTOR * self.horizon):
                     self.active = False
                     out.append((p, False))
-        if len(t):
+        if len(all_t):
             cut = int(np.searchsorted(all_t, all_t[-1] - self.window, side="right"))
             self._t, self._v = all_t[cut:].copy(), all_v[cut:].copy()
         return out

@@ -123,6 +123,8 @@ class AlarmCore:
 
     def fire_due(self, upto: float, strict: bool) -> list[AlarmEvent]:
         """Deadlines before ``upto`` (or at it, when not strict), in time order."""
+        if not self.shelved and self.realarm_at is None:
+            return []
         events: list[AlarmEvent] = []
         while True:
             d = self.due()
