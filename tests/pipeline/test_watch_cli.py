@@ -303,8 +303,8 @@ def test_without_headless_the_screen_runs_in_a_real_terminal() -> None:
         pump(lambda: b"debye" in buf.lower(), 30)
         assert b"debye" in buf.lower(), buf[-500:]
         os.write(master, b"q")
-        pump(lambda: proc.poll() is not None, 30)
-        pump(lambda: b"alarm events" in buf, 5)
+        pump(lambda: proc.poll() is not None and b"alarm events" in buf, 30)   # ends at EIO once the pty closes
+        proc.wait(timeout=30)
     finally:
         if proc.poll() is None:
             proc.kill()
