@@ -179,9 +179,9 @@ class Recorder:
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
             if self._session is not None:
-                self._safe(lambda: self._session[0].on_alarm(event), "session journal")
+                self._safe(lambda: self._session[0].on_alarm(event), "session journal", self._session[0])
             if self._stream is not None:
-                self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal")
+                self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal", self._stream.journal)
             else:
                 self._idle_events.append(event)
 
@@ -277,7 +277,7 @@ class Recorder:
                 self._rows_idle -= len(t)
             for event in self._idle_events:
                 if event.time >= first_t:
-                    self._safe(lambda e=event: self._stream.journal.on_alarm(e), "alarm journal")
+                    self._safe(lambda e=event: self._stream.journal.on_alarm(e), "alarm journal", self._stream.journal)
             self._idle_events.clear()
 
     def _close_shot(self) -> None:
@@ -386,11 +386,17 @@ class Recorder:
             with self._lock:
                 self._maybe_flush(force=False)
 
-    def _safe(self, write: Callable[[], Any], what: str) -> None:
+    def _safe(self, write: Callable[[], Any], what: str, journal: Any = None) -> None:
+        """Run one write; an OSError, or a journal that counts a new error of its own (the alarm
+        package's JournalSink never raises), is a loud problem."""
+        before = getattr(journal, "errors", 0)
         try:
             write()
         except OSError as exc:
             self._problem(f"cannot write the {what}: {exc}")
+            return
+        if getattr(journal, "errors", 0) > before:
+            self._problem(f"cannot write the {what}: {getattr(journal, 'last_error', 'write failed')}")
 
     def _problem(self, message: str) -> None:
         self._errors += 1

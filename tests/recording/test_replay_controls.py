@@ -71,3 +71,21 @@ def test_pause_step_and_speed_through_the_session(tmp_path: Path) -> None:
     t, _, _ = col.arrays()
     assert abs(t[-1] - (1.1 + 4.0)) <= 0.0100001               # 1 s wall at x4 = 4 s of data after t = 1.1
     assert session.replay_position().speed == 4.0
+
+
+def test_progress_goes_to_stderr_not_into_the_json(tmp_path: Path) -> None:
+    import json
+    import subprocess
+
+    from conftest import REGIME, ROOT, env
+
+    p = tmp_path / "slow.csv"
+    p.write_text("t,ne,Te\n" + "".join(f"{i * 0.05!r},5e16,3.0\n" for i in range(70)))     # 3.45 s of data
+    out = subprocess.run([*REGIME, "replay", str(p), "--speed", "1", "--headless", "--json"], capture_output=True,
+                         text=True, timeout=120, cwd=ROOT, env=env())
+    assert out.returncode == 0, out.stderr
+    records = [json.loads(line) for line in out.stdout.splitlines()]       # every stdout line is JSON
+    assert records[-1]["type"] == "summary" and records[-1]["accepted"] == 70
+    assert any(r["type"] == "status" for r in records)
+    progress = [line for line in out.stderr.splitlines() if line.startswith("regime replay:")]
+    assert progress and "%" in progress[0] and "readings" in progress[0]
