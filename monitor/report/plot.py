@@ -95,6 +95,10 @@ def plot_report(report: Report, out: str | Path) -> Path:
         nd = 10.0**exp
         ax.plot(grid_n, te_for_debye_number(grid_n, nd), color="tab:green", lw=0.7, ls=":")
         _label(ax, grid_n, te_for_debye_number(grid_n, nd), f"N_D=1e{exp}", lo_t, hi_t, "tab:green")
+    cutoff = next((q.median for q in report.quantities if q.name == "cutoff_density" and q.n), None)
+    if cutoff is not None and math.isfinite(cutoff):
+        ax.axvline(cutoff, color="tab:red", lw=1.0, ls="--")
+        ax.text(cutoff, hi_t / 1.5, " cutoff density", color="tab:red", fontsize=8, rotation=90, va="top")
     if ok.any():
         sc = ax.scatter(ne[ok], te[ok], c=t_rel[ok], s=6, cmap="viridis", zorder=3)
         fig.colorbar(sc, ax=ax, label="time [s]", shrink=0.6)
