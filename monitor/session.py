@@ -67,7 +67,8 @@ class Session:
     """Wires a Source, a Pipeline, an optional alarm engine and sinks.
 
     ``live`` True: the alarm engine's clock between batches is the last data
-    time plus the wall time elapsed since it arrived; False (replay): data time
+    time plus the wall time elapsed since it arrived (the wall clock itself
+    before any data, so a silent source goes stale); False (replay): data time
     only. One thread calls ``step``/``run``; any thread may call ``snapshot``,
     ``summary`` and the operator actions (a lock keeps them consistent).
     """
@@ -183,8 +184,10 @@ class Session:
             self._handle(polled)
             status = polled.status if polled.status is not None else self._source_status()
             self._set_status(status)
-            if self.engine is not None and self.live and self._last_t is not None:
-                self._dispatch(self.engine.tick(self.now(), self.name))
+            if self.engine is not None and self.live:
+                # before any data the wall clock stands in, so a source that never speaks goes stale
+                now = self.now()
+                self._dispatch(self.engine.tick(now if now is not None else self._wall(), self.name))
             if status.state is LinkState.ENDED:
                 self._ended = True
             elif status.state is LinkState.FAILED:

@@ -193,3 +193,25 @@ def test_replay_controls_are_forwarded_when_the_source_has_them() -> None:
     # after a seek the same times are accepted again
     s.pipeline.process(steady(0.0, 10))
     assert s.summary()["rejected"] == {}
+
+
+def test_a_source_that_never_speaks_goes_stale(collect: CollectSink) -> None:
+    config = parse_config({"sources": {"stale_after": 2.0}}, None)
+    engine = make_engine(config)
+    if engine is None:
+        pytest.skip("the alarm engine is not installed")
+    wall = [5000.0]
+    s = Session(ListSource([], end=False), config, [collect], engine=engine, live=True, wall=lambda: wall[0])
+    s.open()
+    s.step(0.01)
+    assert not collect.alarms
+    wall[0] += 2.5
+    s.step(0.01)
+    stale = [e for e in collect.alarms if "stale" in e.alarm]
+    assert [e.state.value for e in stale] == ["unacknowledged"]
+    assert s.snapshot().data_time is None
+    # the first reading clears it
+    s.source.script.append(steady(wall[0], 10))
+    s.step(0.01)
+    stale = [e for e in collect.alarms if "stale" in e.alarm]
+    assert stale[-1].state.value in ("returned_unacknowledged", "normal")
