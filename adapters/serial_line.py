@@ -48,7 +48,7 @@ class SerialSource:
     def __init__(self, url: str, baud: int = DEFAULT_BAUD, *, name: str | None = None,
                  max_line: int = MAX_LINE, read_timeout: float = 0.05,
                  backoff: tuple[float, float] = (0.1, 2.0), queue_chunks: int = 100_000,
-                 coalesce: float = 0.02) -> None:
+                 coalesce: float = 0.05) -> None:
         if url.startswith("serial:"):
             url, baud = parse_serial_spec(url)
         self.url, self.baud = url, baud

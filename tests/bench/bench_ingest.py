@@ -19,7 +19,8 @@ Sections, all measured side by side in this one run:
     our bulk reader and a byte-at-a-time pyserial readline() take from a pty
     that is filled as fast as possible.
  4. memory: `regime simulate` at 10 kHz (JSON) for --rss-seconds (default 60)
-    through ZmqSource -> Pipeline; resident set size after a 5 s warm-up and at the end.
+    through ZmqSource -> Pipeline in a fresh process; resident set size at start,
+    after a 5 s warm-up and at the end.
 """
 
 from __future__ import annotations
@@ -128,7 +129,7 @@ def bare_loop(fmt: str, n: int, batch: int) -> float:
     return (readings - (1 if fmt == "json" else batch)) / dt
 
 
-def our_path(fmt: str, n: int, batch: int) -> tuple[float, int, int]:
+def our_path(fmt: str, n: int, batch: int, with_pipeline: bool = True) -> tuple[float, int, int]:
     ep = f"tcp://127.0.0.1:{free_port()}"
     proc = _spawn_blast(ep, fmt, n, batch)
     src = ZmqSource(ep, rcvhwm=0, context=zmq.Context())
@@ -143,12 +144,15 @@ def our_path(fmt: str, n: int, batch: int) -> tuple[float, int, int]:
         for b in p.batches:
             if readings == 0:
                 t_first, first_len = time.perf_counter(), len(b)
-            pipe.process(b)
+            if with_pipeline:
+                pipe.process(b)
             readings += len(b)
         pipe.reject(p.rejections)
     dt = time.perf_counter() - t_first
     src.close()
     proc.wait(30)
+    if not with_pipeline:
+        return (readings - first_len) / dt, readings, 0
     c = pipe.counts()[ep]
     return (readings - first_len) / dt, c.accepted, c.lost
 
@@ -159,8 +163,8 @@ def sustained(fmt: str, rate: float, seconds: float, batch: int) -> dict[str, fl
     ep = f"tcp://127.0.0.1:{free_port()}"
     n = int(rate * seconds)
     cmd = [PY, "-m", "monitor", "simulate", ep, "--scenario", "steady", "--rate", str(rate), "--count", str(n),
-           "--format", fmt, "--batch", str(batch), "--wait-subscribers", "1", "--quiet"]
-    proc = subprocess.Popen(cmd, cwd=ROOT)
+           "--format", fmt, "--batch", str(batch), "--wait-subscribers", "1"]
+    proc = subprocess.Popen(cmd, cwd=ROOT, stderr=subprocess.PIPE, text=True)
     src = ZmqSource(ep)
     src.open()
     pipe = Pipeline(CONFIG)
@@ -180,12 +184,14 @@ def sustained(fmt: str, rate: float, seconds: float, batch: int) -> dict[str, fl
         pipe.reject(p.rejections)
     cpu = time.process_time() - cpu0
     src.close()
-    proc.wait(30)
+    _, err = proc.communicate(timeout=30)
+    took = float(err.strip().rsplit(" in ", 1)[1].split()[0]) if " in " in err else float("nan")
     c = pipe.counts()[ep]
     seq = np.concatenate(seqs) if seqs else np.empty(0, dtype=np.int64)
     missing = n - len(np.unique(seq))
     return {"sent": n, "received": readings, "accepted": c.accepted, "lost_counted": c.lost, "missing_by_seq": missing,
-            "seconds": t_last - t_first, "rate": readings / max(t_last - t_first, 1e-9), "cpu_s": cpu}
+            "seconds": t_last - t_first, "rate": readings / max(t_last - t_first, 1e-9), "cpu_s": cpu,
+            "pub_s": took}
 
 
 # ----------------------------------------------------------------------------- serial through a pty
@@ -223,7 +229,7 @@ def _pty() -> tuple[int, str]:
     return master, name
 
 
-def serial_paced(seconds: float) -> dict[str, float]:
+def serial_paced(seconds: float, with_pipeline: bool = True) -> dict[str, float]:
     master, name = _pty()
     src = SerialSource(name, baud=921600)
     src.open()
@@ -231,13 +237,17 @@ def serial_paced(seconds: float) -> dict[str, float]:
     pipe = Pipeline(CONFIG)
     n = int(2300 * seconds)
     proc = subprocess.Popen([PY, __file__, "--child-pty", str(master), "2300", str(seconds), "0"], pass_fds=(master,))
-    readings, seqs = 0, []
-    ru0, w0 = resource.getrusage(resource.RUSAGE_SELF), time.perf_counter()
+    readings, seqs, first = 0, [], 0
+    ru0 = resource.getrusage(resource.RUSAGE_SELF)
+    w0 = time.perf_counter()
     deadline = time.monotonic() + seconds + 20
     while readings < n and time.monotonic() < deadline:
         p = src.poll(0.1)
         for b in p.batches:
-            pipe.process(b)
+            if readings == 0:                     # measure from the first lines on (the writer starts up first)
+                ru0, w0, first = resource.getrusage(resource.RUSAGE_SELF), time.perf_counter(), len(b)
+            if with_pipeline:
+                pipe.process(b)
             readings += len(b)
             seqs.append(b.seq)
         pipe.reject(p.rejections)
@@ -249,7 +259,7 @@ def serial_paced(seconds: float) -> dict[str, float]:
     seq = np.concatenate(seqs) if seqs else np.empty(0, dtype=np.int64)
     return {"sent": n, "received": readings, "missing_by_seq": n - len(np.unique(seq)),
             "rejected": sum(sum(c.rejected.values()) for c in pipe.counts().values()),
-            "wall_s": w1 - w0, "cpu_share": cpu / (w1 - w0), "lines_per_s": readings / (w1 - w0)}
+            "wall_s": w1 - w0, "cpu_share": cpu / (w1 - w0), "lines_per_s": (readings - first) / (w1 - w0)}
 
 
 def serial_max(n_lines: int, readline: bool) -> float:
@@ -292,7 +302,7 @@ def rss_run(seconds: float) -> dict[str, float]:
     src = ZmqSource(ep)
     src.open()
     pipe = Pipeline(CONFIG)
-    me = psutil.Process()
+    me = psutil.Process()          # a fresh process: nothing from the other sections in the baseline
     rss_start = me.memory_info().rss
     rss_warm = None
     t0 = time.monotonic()
@@ -333,27 +343,29 @@ def main() -> None:
     print("\n## 1. transport floor vs adapter + pipeline (publisher process, pre-encoded, unlimited queues)")
     n_json = 30_000 if q else 150_000
     n_bin = 500 if q else 3000
-    bare_j = bare_loop("json", n_json, 1)
-    ours_j, acc_j, lost_j = our_path("json", n_json, 1)
-    print(f"JSON single readings  bare pyzmq loop {bare_j:12,.0f} readings/s | ZmqSource+Pipeline {ours_j:12,.0f} "
-          f"readings/s | ratio {ours_j / bare_j:.2f} | accepted {acc_j} of {n_json}, lost {lost_j}")
-    bare_b = bare_loop("binary", n_bin, 1000)
-    ours_b, acc_b, lost_b = our_path("binary", n_bin, 1000)
-    print(f"binary batches x1000  bare pyzmq loop {bare_b:12,.0f} readings/s | ZmqSource+Pipeline {ours_b:12,.0f} "
-          f"readings/s | ratio {ours_b / bare_b:.2f} | accepted {acc_b} of {n_bin * 1000}, lost {lost_b}")
-
+    for fmt, n, batch in (("json", n_json, 1), ("binary", n_bin, 1000)):
+        bare = bare_loop(fmt, n, batch)
+        adapter, _, _ = our_path(fmt, n, batch, with_pipeline=False)
+        full, acc, lost = our_path(fmt, n, batch)
+        label = "JSON single readings" if fmt == "json" else "binary batches x1000"
+        print(f"{label}: bare pyzmq loop {bare:12,.0f} readings/s | ZmqSource alone {adapter:12,.0f} readings/s "
+              f"(ratio {adapter / bare:.2f}) | ZmqSource+Pipeline {full:12,.0f} readings/s (ratio {full / bare:.3f}) | "
+              f"accepted {acc} of {n * batch}, lost {lost}")
     print("\n## 2. sustained from `regime simulate` (paced), default queues, zero loss by seq")
     for fmt, rate, batch in (("binary", 1_000_000.0, 1000), ("json", 30_000.0, 1)):
         r = sustained(fmt, rate, 1.0 if q else 3.0, batch)
         print(f"{fmt:6s} target {rate:>9,.0f}/s: sent {r['sent']}, received {r['received']}, accepted {r['accepted']}, "
               f"lost (pipeline) {r['lost_counted']}, missing by seq {r['missing_by_seq']}, "
-              f"over {r['seconds']:.2f} s = {r['rate']:,.0f} readings/s, receiver CPU {r['cpu_s']:.2f} s")
+              f"publisher took {r['pub_s']:.2f} s ({r['sent'] / r['pub_s']:,.0f}/s); received over {r['seconds']:.2f} s "
+              f"= {r['rate']:,.0f} readings/s; receiver CPU {r['cpu_s']:.2f} s")
 
     print("\n## 3. serial line through a pty")
-    s = serial_paced(2.0 if q else 5.0)
-    print(f"paced 2,300 lines/s of 40 B (921,600 baud): sent {s['sent']}, received {s['received']}, "
-          f"missing by seq {s['missing_by_seq']}, rejected {s['rejected']}, {s['lines_per_s']:,.0f} lines/s, "
-          f"CPU {100 * s['cpu_share']:.1f} % of one core (SerialSource reader thread + parse + Pipeline)")
+    for with_pipeline in (False, True):
+        s = serial_paced(2.0 if q else 5.0, with_pipeline)
+        what = "SerialSource reader thread + framer + parse" + (" + Pipeline" if with_pipeline else "")
+        print(f"paced 2,300 lines/s of 40 B (921,600 baud): sent {s['sent']}, received {s['received']}, "
+              f"missing by seq {s['missing_by_seq']}, rejected {s['rejected']}, {s['lines_per_s']:,.0f} lines/s, "
+              f"CPU {100 * s['cpu_share']:.1f} % of one core ({what})")
     n_lines = 20_000 if q else 100_000
     bulk = serial_max(n_lines, readline=False)
     rl = serial_max(n_lines // 4, readline=True)
@@ -361,7 +373,9 @@ def main() -> None:
           f"pyserial readline() {rl:,.0f} lines/s | ratio {bulk / rl:.1f}")
 
     print(f"\n## 4. resident memory, `regime simulate` JSON at 10 kHz for {args.rss_seconds:g} s -> ZmqSource -> Pipeline")
-    m = rss_run(5.5 if q else args.rss_seconds)
+    out = subprocess.run([PY, __file__, "--child-rss", str(5.5 if q else args.rss_seconds)], capture_output=True,
+                         text=True, timeout=(5.5 if q else args.rss_seconds) + 90)
+    m = json.loads(out.stdout.strip().splitlines()[-1])
     print(f"{m['readings']} readings in {m['seconds']:.1f} s, lost {m['lost']}; RSS start {m['rss_start_MB']:.1f} MB, "
           f"after 5 s warm-up {m['rss_after_warmup_MB']:.1f} MB, end {m['rss_end_MB']:.1f} MB, "
           f"peak {m['rss_peak_MB']:.1f} MB; growth after warm-up {m['growth_after_warmup_MB']:+.1f} MB")
@@ -371,6 +385,8 @@ def main() -> None:
 if __name__ == "__main__":
     if len(sys.argv) > 1 and sys.argv[1] == "--child-blast":
         blast_publisher(sys.argv[2], sys.argv[3], int(sys.argv[4]), int(sys.argv[5]))
+    elif len(sys.argv) > 1 and sys.argv[1] == "--child-rss":
+        print(json.dumps(rss_run(float(sys.argv[2]))))
     elif len(sys.argv) > 1 and sys.argv[1] == "--child-pty":
         pty_writer(int(sys.argv[2]), float(sys.argv[3]), float(sys.argv[4]), int(sys.argv[5]))
     else:
