@@ -17,11 +17,11 @@ from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceSta
 from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent
 from monitor.config import Config
-from monitor.errors import UsageError
 from monitor.model import Frame
 from monitor.pipeline import Pipeline
+from monitor.pipeline.controls import SessionControls
 from monitor.pipeline.rolling import Trail
-from monitor.snapshot import ReplayPosition, Snapshot, Stats
+from monitor.snapshot import Snapshot, Stats
 
 __all__ = ["Session", "make_engine", "TRAIL_BASE"]
 
@@ -63,7 +63,7 @@ class _LazyStats(Mapping[str, Stats]):
         return len(self._get())
 
 
-class Session:
+class Session(SessionControls):
     """Wires a Source, a Pipeline, an optional alarm engine and sinks.
 
     ``live`` True: the alarm engine's clock between batches is the last data
@@ -85,14 +85,13 @@ class Session:
         self._wall = wall
         self._lock = threading.RLock()
         self._poll_lock = threading.Lock()
-        opts = self.config.pipeline
         names = list(TRAIL_BASE)
         for lim in self.config.limits:
             q = getattr(lim, "quantity", None)
             if isinstance(q, str) and q not in names:
                 names.append(q)
         self.trail_names = tuple(names)
-        self._trail = Trail(self.trail_names, opts.trail_seconds, opts.trail_points)
+        self._new_trail()
         self._latest: dict[str, tuple[float, float | None]] = {}
         self._warnings: tuple[str, ...] = ()
         self._status: SourceStatus = SourceStatus(getattr(source, "name", "source"), LinkState.CONNECTING)
@@ -302,90 +301,9 @@ class Session:
             print(f"regime: sink error (further ones only counted): {text}", file=sys.stderr)
         self._sink_error_text = text
 
-    # -- operator actions (forwarded to the alarm engine) ---------------------
-    def _action(self, name: str, *args: Any) -> list[AlarmEvent]:
-        with self._lock:
-            if self.engine is None:
-                return []
-            at = self.now()
-            at = at if at is not None else 0.0
-            try:
-                events = list(getattr(self.engine, name)(*args, at=at))
-            except UsageError as exc:          # an unknown alarm id: the caller's mistake, not ours
-                raise KeyError(str(exc)) from None
-            self._dispatch(events)
-            return events
-
-    def acknowledge(self, alarm: str | None = None) -> list[AlarmEvent]:
-        """Acknowledge one alarm, or every unacknowledged one with None.
-
-        The operator actions date their events at ``now()``; an unknown alarm id raises KeyError."""
-        return self._action("acknowledge", alarm)
-
-    def shelve(self, alarm: str, seconds: float | None = None) -> list[AlarmEvent]:
-        """Shelve for ``seconds`` (None: one-shot, until it returns to normal)."""
-        return self._action("shelve", alarm, seconds)
-
-    def unshelve(self, alarm: str) -> list[AlarmEvent]:
-        return self._action("unshelve", alarm)
-
-    def reset(self, alarm: str) -> list[AlarmEvent]:
-        return self._action("reset", alarm)
-
-    def set_out_of_service(self, alarm: str, flag: bool) -> list[AlarmEvent]:
-        return self._action("set_out_of_service", alarm, flag)
-
-    # -- replay controls (forwarded to the source if it has them) -------------
-    @property
-    def can_replay(self) -> bool:
-        return callable(getattr(self.source, "position", None))
-
-    def _control(self, name: str, *args: Any) -> bool:
-        fn = getattr(self.source, name, None)
-        if not callable(fn):
-            return False
-        with self._lock:
-            fn(*args)
-        return True
-
-    def pause(self) -> bool:
-        return self._control("pause")
-
-    def resume(self) -> bool:
-        return self._control("resume")
-
-    def step_replay(self) -> bool:
-        return self._control("step")
-
-    def set_speed(self, speed: float | None) -> bool:
-        return self._control("set_speed", speed)
-
-    def seek(self, t: float) -> bool:
-        """Seek the replay; the pipeline starts over for the source (time may go back)."""
-        with self._lock:
-            if not self._control("seek", t):
-                return False
-            self.pipeline.reset(self.name)
-            self._trail = Trail(self.trail_names, self.config.pipeline.trail_seconds,
-                                self.config.pipeline.trail_points)
-            self._last_t = None
-            hook = getattr(self.engine, "on_seek", None)
-            if callable(hook):
-                hook(t)
-            return True
-
-    def replay_position(self) -> ReplayPosition | None:
-        fn = getattr(self.source, "position", None)
-        if not callable(fn):
-            return None
-        pos = fn()
-        if pos is None:
-            return None
-        if isinstance(pos, ReplayPosition):
-            return pos
-        time_, start, end, speed, paused = pos
-        return ReplayPosition(float(time_), float(start), None if end is None else float(end),
-                              None if speed is None else float(speed), bool(paused))
+    def _new_trail(self) -> None:
+        opts = self.config.pipeline
+        self._trail = Trail(self.trail_names, opts.trail_seconds, opts.trail_points)
 
     # -- views --------------------------------------------------------------
     def snapshot(self) -> Snapshot:

@@ -1,0 +1,121 @@
+"""Operator actions and replay controls of a Session: forwarded to the alarm engine and to the source."""
+
+from __future__ import annotations
+
+import threading
+from typing import Any
+
+from monitor.alarms.events import AlarmEvent
+from monitor.errors import UsageError
+from monitor.snapshot import ReplayPosition
+
+__all__ = ["SessionControls"]
+
+
+class SessionControls:
+    """Mixed into monitor.session.Session, which provides the attributes below."""
+
+    engine: Any
+    source: Any
+    pipeline: Any
+    name: str
+    _lock: threading.RLock
+    _poll_lock: threading.Lock
+    _last_t: float | None
+
+    def now(self) -> float | None:  # pragma: no cover - provided by Session
+        raise NotImplementedError
+
+    def _dispatch(self, events: Any) -> None:  # pragma: no cover - provided by Session
+        raise NotImplementedError
+
+    def _new_trail(self) -> None:  # pragma: no cover - provided by Session
+        raise NotImplementedError
+
+    # -- operator actions (forwarded to the alarm engine) ---------------------
+    def _action(self, name: str, *args: Any) -> list[AlarmEvent]:
+        with self._lock:
+            if self.engine is None:
+                return []
+            at = self.now()
+            at = at if at is not None else 0.0
+            try:
+                events = list(getattr(self.engine, name)(*args, at=at))
+            except UsageError as exc:          # an unknown alarm id: the caller's mistake, not ours
+                raise KeyError(str(exc)) from None
+            self._dispatch(events)
+            return events
+
+    def acknowledge(self, alarm: str | None = None) -> list[AlarmEvent]:
+        """Acknowledge one alarm, or every unacknowledged one with None.
+
+        The operator actions date their events at ``now()``; an unknown alarm id raises KeyError."""
+        return self._action("acknowledge", alarm)
+
+    def shelve(self, alarm: str, seconds: float | None = None) -> list[AlarmEvent]:
+        """Shelve for ``seconds`` (None: one-shot, until it returns to normal)."""
+        return self._action("shelve", alarm, seconds)
+
+    def unshelve(self, alarm: str) -> list[AlarmEvent]:
+        return self._action("unshelve", alarm)
+
+    def reset(self, alarm: str) -> list[AlarmEvent]:
+        return self._action("reset", alarm)
+
+    def set_out_of_service(self, alarm: str, flag: bool) -> list[AlarmEvent]:
+        return self._action("set_out_of_service", alarm, flag)
+
+    # -- replay controls (forwarded to the source if it has them) -------------
+    @property
+    def can_replay(self) -> bool:
+        return callable(getattr(self.source, "position", None))
+
+    def _control(self, name: str, *args: Any) -> bool:
+        fn = getattr(self.source, name, None)
+        if not callable(fn):
+            return False
+        with self._lock:
+            fn(*args)
+        return True
+
+    def pause(self) -> bool:
+        return self._control("pause")
+
+    def resume(self) -> bool:
+        return self._control("resume")
+
+    def step_replay(self) -> bool:
+        return self._control("step")
+
+    def set_speed(self, speed: float | None) -> bool:
+        return self._control("set_speed", speed)
+
+    def seek(self, t: float) -> bool:
+        """Seek the replay; the pipeline starts over for the source (time may go back).
+
+        Waits for a poll in progress, so that no batch read before the seek is processed after it."""
+        if not callable(getattr(self.source, "seek", None)):
+            return False
+        with self._poll_lock, self._lock:
+            self.source.seek(t)
+            self.pipeline.reset(self.name)
+            self._new_trail()
+            self._last_t = None
+            hook = getattr(self.engine, "on_seek", None)
+            if callable(hook):
+                hook(t)
+            return True
+
+    def replay_position(self) -> ReplayPosition | None:
+        fn = getattr(self.source, "position", None)
+        if not callable(fn):
+            return None
+        pos = fn()
+        if pos is None:
+            return None
+        if isinstance(pos, ReplayPosition):
+            return pos
+        time_, start, end, speed, paused = pos
+        return ReplayPosition(float(time_), float(start), None if end is None else float(end),
+                              None if speed is None else float(speed), bool(paused))
+
