@@ -7,7 +7,7 @@ import pytest
 
 from monitor.config import Config
 from monitor.pipeline import Pipeline
-from pipeline_helpers import make_batch
+from pipeline_helpers import make_batch, split
 
 
 def run(*batches):
@@ -101,3 +101,37 @@ def test_a_refused_line_with_a_seq_is_rejected_not_lost() -> None:
     # a later gap that covers an already settled seq number counts in full
     p.process(make_batch([0.9], seq=[10], ne=[1e17]))
     assert p.counts()["probe"].lost == 3
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+_VALUES = st.sampled_from([1e17, 2.5, 0.0, -1.0, np.nan, np.inf, -np.inf, 1e40, 5e6, 3e7])
+
+
+@settings(max_examples=200)
+@given(st.lists(st.tuples(st.floats(-1.0, 5.0) | st.just(float("nan")), st.integers(0, 60), _VALUES, _VALUES),
+                min_size=1, max_size=60),
+       st.integers(1, 59))
+def test_every_reading_is_accepted_or_rejected_once(rows, cut) -> None:
+    t = np.array([r[0] for r in rows])
+    seq = np.array([r[1] for r in rows])
+    ne = np.array([r[2] for r in rows])
+    te = np.array([r[3] for r in rows])
+    p = Pipeline(Config())
+    batch = make_batch(t, seq=seq, ne=ne, Te=te)
+    frames = [p.process(b) for b in (split(batch, [cut]) if cut < len(rows) else [batch])]
+    c = p.counts()["probe"]
+    assert c.accepted + sum(c.rejected.values()) == len(rows)
+    assert c.accepted == sum(len(f) for f in frames)
+    assert len(p.drain_rejections()) == sum(c.rejected.values())
+    ok_t = np.concatenate([f.t for f in frames])
+    assert np.all(np.diff(ok_t) >= 0) and np.isfinite(ok_t).all()
+    ok_seq = np.concatenate([f.seq for f in frames])
+    assert np.all(np.diff(ok_seq) > 0)
+    raw = np.concatenate([f.raw["ne"] for f in frames]) if all("ne" in f.raw for f in frames) else None
+    if raw is not None:
+        shown = raw[~np.isnan(raw)]
+        assert np.all((shown > 0) & (shown <= 1e33))
+    # lost never exceeds the span of seq numbers seen
+    assert 0 <= c.lost <= int(seq.max() - seq.min())

@@ -1,0 +1,65 @@
+"""SOURCE specs to adapters: each kind, its parameters, and usage errors for bad specs."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from monitor.config import parse_config
+from monitor.errors import UsageError
+from monitor.sources import is_live, open_source
+
+
+def test_zeromq_specs() -> None:
+    pytest.importorskip("adapters.zmq_stream")
+    src = open_source("tcp://127.0.0.1:5599", None)
+    assert type(src).__name__ == "ZmqSource" and src.endpoint == "tcp://127.0.0.1:5599"
+    assert type(open_source("ipc:///tmp/x.ipc", None)).__name__ == "ZmqSource"
+    with pytest.raises(UsageError):
+        open_source("tcp://192.0.2.1:5599", None)            # off this machine: asked for explicitly
+    remote = open_source("tcp://192.0.2.1:5599", parse_config({"sources": {"allow_remote": True}}, None))
+    assert remote.endpoint == "tcp://192.0.2.1:5599"
+
+
+def test_serial_specs() -> None:
+    pytest.importorskip("adapters.serial_line")
+    s = open_source("serial:/dev/ttyUSB7@9600", None)
+    assert (s.url, s.baud) == ("/dev/ttyUSB7", 9600)
+    s = open_source("/dev/ttyACM3", None)
+    assert s.url == "/dev/ttyACM3" and s.baud == 115200
+    assert open_source("loop://", None).url == "loop://"
+    assert open_source("socket://127.0.0.1:7001", None).url == "socket://127.0.0.1:7001"
+    assert is_live("serial:/dev/ttyUSB7") and is_live("loop://")
+
+
+def test_sim_spec_parameters() -> None:
+    pytest.importorskip("adapters.simulated")
+    s = open_source("sim:excursion?seed=4&rate=2000&speed=max&duration=3&loop=1", None)
+    assert (s.scenario, s.seed, s.rate, s.speed, s.loop) == ("excursion", 4, 2000.0, None, True)
+    assert open_source("sim:steady?speed=2.5", None).speed == 2.5
+    for bad in ("sim:", "sim:steady?seed=x", "sim:steady?speed=0", "sim:steady?loop=maybe", "sim:steady?colour=red",
+                "sim:no-such-scenario"):
+        with pytest.raises(UsageError):
+            open_source(bad, None)
+
+
+def test_file_specs(tmp_path: Path) -> None:
+    pytest.importorskip("adapters.csv_file")
+    p = tmp_path / "shot.csv"
+    p.write_text("time_ms,ne\n0,1e17\n", encoding="utf-8")
+    config = parse_config({"channels": {"time_ms": {"quantity": "t", "unit": "ms"}}}, None)
+    src = open_source(str(p), config)
+    assert type(src).__name__ == "CsvSource"
+    assert src._time_column == "time_ms" and src._time_scale == pytest.approx(1e-3)
+    assert not is_live(str(p))
+    with pytest.raises(UsageError):
+        open_source(str(tmp_path), None)                     # a directory
+    with pytest.raises(UsageError):
+        open_source(str(tmp_path / "absent.csv"), None)
+
+
+@pytest.mark.parametrize("spec", ["", "   ", "http://example.invalid/feed", "serial:", "nonsense"])
+def test_bad_specs(spec: str) -> None:
+    with pytest.raises(UsageError):
+        open_source(spec, None)
