@@ -10,10 +10,13 @@ import numpy as np
 import pytest
 import zmq
 import zmq.auth
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from zmq.auth.thread import ThreadAuthenticator
 
 from adapter_helpers import Drained, drain, free_port, wait_until
 from adapters.base import FatalSourceError, LinkState
+from adapters.batch import Rejection
 from adapters.simulated import generate
 from adapters.zmq_stream import ZmqSource, is_loopback_endpoint
 from monitor.commands.simulate import encode_binary, encode_json, encode_text
@@ -231,3 +234,68 @@ def test_curve_bad_key_files_are_fatal(ctx, short_tmp, certs) -> None:
         ZmqSource("tcp://127.0.0.1:1", curve=(certs["server_pub"], short_tmp / "missing.key_secret"), context=ctx).open()
     with pytest.raises(FatalSourceError, match="secret"):
         ZmqSource("tcp://127.0.0.1:1", curve=(certs["server_pub"], certs["server_pub"]), context=ctx).open()
+
+
+# ----------------------------------------------------------------------------- fuzz through a real socket
+
+_PAIR: dict[str, object] = {}
+
+
+def _fuzz_pair() -> tuple[zmq.Socket, ZmqSource]:
+    """One publisher/subscriber pair over ipc, shared by all fuzz examples (closed at interpreter exit)."""
+    if not _PAIR:
+        import atexit
+        import tempfile
+
+        d = tempfile.mkdtemp(prefix="rgmf")
+        ctx = zmq.Context()
+        ep = f"ipc://{d}/fuzz.ipc"
+        pub = _pub(ctx, ep)
+        src = ZmqSource(ep, context=ctx, max_frame=4096)
+        src.open()
+        _await_subscriber(pub, src)
+        _PAIR.update(pub=pub, src=src, n=0)
+        atexit.register(lambda: (src.close(), pub.close(0), ctx.term()))
+    return _PAIR["pub"], _PAIR["src"]  # type: ignore[return-value]
+
+
+def _expected(parts: list[bytes]) -> int:
+    """Readings + rejections the pure parsers make of one message (the adapter must match it)."""
+    from adapters.parsing import parse_binary_batch, parse_json_frames, parse_text_lines
+
+    if len(parts) == 2:
+        r = parse_binary_batch(parts[0], parts[1], "x", 0.0, max_frame=4096)
+        return len(r) if not isinstance(r, Rejection) else 1
+    if len(parts) != 1:
+        return 1
+    f = parts[0]
+    if len(f) > 4096:
+        return 1
+    if f.lstrip()[:1] == b"{":
+        p = parse_json_frames([f], "x", 0.0, max_frame=4096)
+    else:
+        lines = f.split(b"\n")
+        if lines and lines[-1] == b"":
+            lines.pop()
+        p = parse_text_lines([ln[:-1] if ln.endswith(b"\r") else ln for ln in lines], "x", 0.0)
+    return p.readings + len(p.rejections)
+
+
+_part = st.one_of(st.binary(max_size=60), st.sampled_from([b'{"ne": 1}', b"ne=2 Te=3", b"\n", b"{", b"seq=1 ne=x",
+                                                            b'{"fields": ["ne"], "n": 1}', b"\x00" * 8]))
+
+
+@settings(max_examples=300, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(st.lists(_part, min_size=1, max_size=3), min_size=1, max_size=4))
+def test_fuzz_messages_through_a_real_socket_are_all_accounted(msgs: list[list[bytes]]) -> None:
+    pub, src = _fuzz_pair()
+    _PAIR["n"] = int(_PAIR["n"]) + 1  # type: ignore[call-overload]
+    mark = int(_PAIR["n"])  # type: ignore[call-overload]
+    for m in msgs:
+        pub.send_multipart(m)
+    pub.send(b'{"seq": %d, "zz_sentinel": 1}' % mark)
+    d = drain(src, lambda d: any(b.seq is not None and mark in b.seq.tolist() and "zz_sentinel" in b.columns
+                                 for b in d.batches), timeout=10)
+    sentinel_seen = sum(int(np.isfinite(b.columns["zz_sentinel"]).sum()) for b in d.batches if "zz_sentinel" in b.columns)
+    assert sentinel_seen >= 1
+    assert d.readings - sentinel_seen + len(d.rejections) == sum(_expected(m) for m in msgs)
