@@ -67,6 +67,7 @@ class SerialSource:
         self._port: Any = None
         self.connected = threading.Event()       # set while the port is open (tests and the screen wait on it)
         self.bytes_read = 0
+        self.skipped = 0                          # blank and comment-only lines (neither readings nor errors)
 
     # -- the reader thread ------------------------------------------------------------------
 
@@ -178,6 +179,7 @@ class SerialSource:
                 parsed = parse_text_lines(lines, self.name, received, max_line=self._max_line)
                 batches.extend(parsed.batches)
                 rejections.extend(parsed.rejections)
+                self.skipped += parsed.skipped
         return Polled(batches=merge_batches(batches), rejections=rejections, status=self.status())
 
     def close(self) -> None:

@@ -9,6 +9,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from adapter_helpers import Drained, drain, free_port, wait_until
 from adapters.base import FatalSourceError, LinkState
@@ -54,6 +56,9 @@ def pty_port(short_tmp: Path):
     p = FakePort(short_tmp)
     yield p
     p.close()
+
+
+_FUZZ: dict[int, SerialSource] = {}
 
 
 @pytest.fixture
@@ -181,3 +186,24 @@ def test_serial_spec() -> None:
         parse_serial_spec("serial:/dev/ttyUSB0@fast")
     s = SerialSource("serial:/dev/ttyS9@9600")
     assert (s.url, s.baud) == ("/dev/ttyS9", 9600)
+
+
+_chunk = st.one_of(st.binary(max_size=50), st.sampled_from([b"\n", b"\r\n", b"ne=1\n", b"seq=2 ne=", b"# c\n", b"=\n"]))
+
+
+@settings(max_examples=150, suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(st.lists(_chunk, min_size=1, max_size=10))
+def test_fuzz_bytes_through_loop_url_are_all_accounted(opened, chunks: list[bytes]) -> None:
+    """Arbitrary bytes through a real pyserial loop:// port: every line ends up a reading, a rejection or skipped."""
+    src = _FUZZ.get(id(opened))                           # one port for all examples of this run
+    if src is None:
+        src = _FUZZ[id(opened)] = opened("loop://", max_line=64)
+        assert src.connected.wait(5)
+    data = b"".join(chunks) + b"\nzz_sentinel=1\n"        # the leading LF closes any open fuzz line
+    skipped0 = src.skipped
+    for c in (data[i:i + 17] for i in range(0, len(data), 17)):
+        src.port.write(c)
+    d = drain(src, lambda d: any("zz_sentinel" in b.columns for b in d.batches), timeout=10)
+    assert any("zz_sentinel" in b.columns for b in d.batches)
+    lines = data.count(b"\n")
+    assert d.readings + len(d.rejections) + (src.skipped - skipped0) == lines
