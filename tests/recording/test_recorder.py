@@ -128,3 +128,12 @@ def test_options_table(tmp_path: Path) -> None:
         with pytest.raises(ConfigError) as err:
             parse_recording(bad, "cfg.toml")
         assert "cfg.toml" in str(err.value) and "recording." in str(err.value)
+
+
+def test_fsync_and_day_folders(tmp_path: Path) -> None:
+    rec, out = _record(tmp_path, split="none", fsync=True, subdirectory="day", name="run{shot:03d}")
+    rec.on_frame(frame([1.767e9, 1.767e9 + 1], ne=[1e17, 1e17]))     # epoch data time: 2025-12-29 UTC
+    rec.close()
+    files = list(out.glob("*/run*.csv"))
+    assert [f.parent.name for f in files] == ["2025-12-29"] and files[0].name == "run001.csv"
+    assert rec.status().ok and len(data_rows(files[0])) == 2
