@@ -26,6 +26,7 @@ __all__ = ["Rolling", "Trail"]
 # start and reference), min and max of x
 _N, _ST, _STT, _SX, _SXX, _STX, _MIN, _MAX = range(8)
 _FRESH = np.array([0.0, 0.0, 0.0, 0.0, 0.0, 0.0, np.inf, -np.inf])
+_GATHER = 2048          # readings gathered from small batches before they are added
 
 
 class Rolling:
@@ -44,13 +45,18 @@ class Rolling:
         self._acc = np.zeros((0, 8, self.nbins))
         self._ref = np.zeros((0, self.nbins))
         self._all8 = np.arange(8)
+        self._pending_t: list[np.ndarray] = []
+        self._pending_v: list[Mapping[str, np.ndarray]] = []
+        self._pending_n = 0
 
     @property
     def names(self) -> tuple[str, ...]:
+        self.flush()
         return tuple(self._names)
 
     def memory_cells(self) -> int:
-        """Numbers held (for the bounded-memory check)."""
+        """Numbers held (for the bounded-memory check; at most _GATHER readings wait besides)."""
+        self.flush()
         return int(self._acc.size + self._ref.size + self._bin_id.size)
 
     def _grow(self, names: list[str]) -> None:
@@ -65,10 +71,45 @@ class Rolling:
         self._ref = np.vstack([self._ref, np.zeros((len(new), self.nbins))])
 
     def add(self, t: np.ndarray, values: Mapping[str, np.ndarray]) -> None:
-        """Add readings at times ``t`` (non-decreasing); NaN/inf values are left out."""
+        """Add readings at times ``t`` (non-decreasing); NaN/inf values are left out.
+
+        Small batches are gathered (up to ``_GATHER`` readings) and added together when
+        enough have come or the statistics are read: the fixed cost is paid once."""
         n = len(t)
         if n == 0 or not values:
             return
+        if self._last_bin is not None and np.floor(t[0] / self.width) < self._last_bin:
+            raise ValueError("rolling statistics need non-decreasing time")
+        if self._pending_t and np.floor(t[0] / self.width) < np.floor(self._pending_t[-1][-1] / self.width):
+            raise ValueError("rolling statistics need non-decreasing time")
+        if n >= _GATHER and not self._pending_t:
+            self._add(t, values)
+            return
+        self._pending_t.append(np.asarray(t, dtype=np.float64))
+        self._pending_v.append(values)
+        self._pending_n += n
+        if self._pending_n >= _GATHER:
+            self.flush()
+
+    def flush(self) -> None:
+        """Add the gathered small batches now."""
+        if not self._pending_t:
+            return
+        ts, vs = self._pending_t, self._pending_v
+        self._pending_t, self._pending_v, self._pending_n = [], [], 0
+        if len(ts) == 1:
+            self._add(ts[0], vs[0])
+            return
+        names: dict[str, None] = {}
+        for v in vs:
+            names.update(dict.fromkeys(v))
+        t = np.concatenate(ts)
+        joined = {k: np.concatenate([np.asarray(v[k], dtype=np.float64) if k in v else np.full(len(tt), np.nan)
+                                     for tt, v in zip(ts, vs)]) for k in names}
+        self._add(t, joined)
+
+    def _add(self, t: np.ndarray, values: Mapping[str, np.ndarray]) -> None:
+        n = len(t)
         names = list(values)
         self._grow(names)
         b = np.floor(t / self.width).astype(np.int64)
@@ -166,12 +207,14 @@ class Rolling:
 
     def window_start(self) -> float | None:
         """Data time from which the current window counts readings."""
+        self.flush()
         if self._last_bin is None:
             return None
         return (self._last_bin - self.nbins + 1) * self.width
 
     def stats(self) -> dict[str, Stats]:
         """Stats of every quantity seen, over the current window."""
+        self.flush()
         out: dict[str, Stats] = {}
         if self._last_bin is None or not self._names:
             return out
