@@ -345,3 +345,15 @@ def test_ipc_endpoint(tmp_path: Path) -> None:
     assert proc.returncode == 0, err
     summary = json_lines("".join(lines) + rest)[-1]
     assert (summary["accepted"], summary["rejected"], summary["lost"]) == (500, {}, 0)
+
+
+def test_a_source_that_can_never_work_exits_3(tmp_path: Path) -> None:
+    pytest.importorskip("adapters.zmq_stream")
+    cfg = tmp_path / "secure.toml"
+    cfg.write_text('[sources]\ncurve_server_key = "missing.key"\ncurve_client_key = "missing.key_secret"\n',
+                   encoding="utf-8")
+    out = regime("watch", "tcp://127.0.0.1:5999", "--config", str(cfg), "--headless", "--json", "--duration", "5")
+    assert out.returncode == 3, (out.stdout, out.stderr)
+    assert "source failed" in out.stderr and "missing.key" in out.stderr
+    recs = json_lines(out.stdout)
+    assert recs[-1]["type"] == "summary" and recs[-1]["state"] == "failed" and recs[-1]["accepted"] == 0
