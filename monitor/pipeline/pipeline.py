@@ -43,12 +43,15 @@ class _Counts:
     def add_rate(self, t: np.ndarray) -> None:
         if len(t) == 0:
             return
-        b = np.floor(t / _RATE_BUCKET).astype(np.int64)
-        starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
-        counts = np.diff(np.concatenate((starts, [len(b)])))
-        for key, c in zip(b[starts][-64:].tolist(), counts[-64:].tolist()):
-            self.rate_buckets[key] = self.rate_buckets.get(key, 0) + c
-        newest = int(b[-1])
+        first, newest = int(t[0] // _RATE_BUCKET), int(t[-1] // _RATE_BUCKET)
+        if first == newest:                      # the usual small batch: one bucket
+            self.rate_buckets[newest] = self.rate_buckets.get(newest, 0) + len(t)
+        else:
+            b = np.floor(t / _RATE_BUCKET).astype(np.int64)
+            starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
+            counts = np.diff(np.concatenate((starts, [len(b)])))
+            for key, c in zip(b[starts][-64:].tolist(), counts[-64:].tolist()):
+                self.rate_buckets[key] = self.rate_buckets.get(key, 0) + c
         for key in [k for k in self.rate_buckets if k <= newest - _RATE_SPAN / _RATE_BUCKET]:
             del self.rate_buckets[key]
 

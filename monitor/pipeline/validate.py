@@ -101,12 +101,17 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
         v = values[key]
         carried = ~np.isnan(v)
         carried_any |= carried
+        limit = ABSURD.get(key, np.inf)
+        # fast path: the smallest and largest carried values (NaN ignored) show whether any is bad
+        lo, hi = float(np.fmin.reduce(v)), float(np.fmax.reduce(v))
+        if lo != lo or ((lo > 0 or key not in POSITIVE) and -limit <= lo and hi <= limit
+                        and -np.inf < lo and hi < np.inf):
+            continue          # nothing carried, or every carried value finite, in range and positive
         finite = np.isfinite(v)
         checks.append((f"{key}_not_finite", carried & ~finite))
         if key in POSITIVE:
             checks.append((f"{key}_not_positive", finite & (v <= 0)))
-        limit = ABSURD.get(key)
-        if limit is not None:
+        if limit != np.inf:
             checks.append((f"{key}_absurd", finite & (np.abs(v) > limit)))
     _set(code, ~carried_any, reasons, "no_channels")
     for name, mask in reversed(checks):
