@@ -27,6 +27,7 @@ __all__ = ["Rolling", "Trail"]
 _N, _ST, _STT, _SX, _SXX, _STX, _MIN, _MAX = range(8)
 _FRESH = np.array([0.0, 0.0, 0.0, 0.0, 0.0, 0.0, np.inf, -np.inf])
 _GATHER = 2048          # readings gathered from small batches before they are added
+_BLOCK = 8192           # readings added at a time from a large batch
 
 
 class Rolling:
@@ -83,7 +84,9 @@ class Rolling:
         if self._pending_t and np.floor(t[0] / self.width) < np.floor(self._pending_t[-1][-1] / self.width):
             raise ValueError("rolling statistics need non-decreasing time")
         if n >= _GATHER and not self._pending_t:
-            self._add(t, values)
+            for a in range(0, n, _BLOCK):          # cache-sized blocks: large batches stay fast
+                b = min(n, a + _BLOCK)
+                self._add(t[a:b], {k: v[a:b] for k, v in values.items()} if (a, b) != (0, n) else values)
             return
         self._pending_t.append(np.asarray(t, dtype=np.float64))
         self._pending_v.append(values)
