@@ -23,6 +23,7 @@ __all__ = ["Pipeline"]
 
 _RATE_SPAN = 2.0      # s of data time over which the reading rate is measured
 _RATE_BUCKET = 0.1
+_AUXILIARY = frozenset({"Ti", "B", "p0"})
 _KEEP_REFUSED = 100_000     # seq numbers of refused lines remembered until their gap is seen
 _SEQ_IN_RAW = re.compile(rb'(?:\bseq\s*=\s*|"seq"\s*:\s*)(\d{1,18})\b')
 
@@ -208,7 +209,11 @@ class Pipeline:
                     all_values[name] = np.asarray(arr, dtype=np.float64)
                 for name, arr in derived.sigma.items():
                     all_sigma[name] = np.asarray(arr, dtype=np.float64)
-                for mask in derived.invalid.values():
+                for reason, mask in derived.invalid.items():
+                    # an auxiliary input (Ti, B, p0) past its hold is missing, not bad: the
+                    # quantities that need it are NaN, the reading stays valid
+                    if reason.endswith("_not_finite") and reason.split("_", 1)[0] in _AUXILIARY:
+                        continue
                     valid &= ~np.asarray(mask, dtype=bool)
                 warnings = {k: np.asarray(m, dtype=bool) for k, m in derived.warnings.items()}
             rolling = self._rolling.get(source)

@@ -84,3 +84,17 @@ def test_sigma_is_held_with_its_value() -> None:
     # the next batch, without Te at all, still holds it while young enough
     v2, _ = a.align("x", np.array([0.9]), {"ne": np.array([1e17])}, {})
     assert v2["Te"][0] == 3.0
+
+
+def test_a_slow_auxiliary_channel_past_its_hold_leaves_readings_valid() -> None:
+    n = 3000
+    t = np.arange(n) * 1e-3
+    p0 = np.where(np.arange(n) % 1000 == 0, 2.0, np.nan)          # 1 Hz pressure, held 0.25 s
+    frame = Pipeline(parse_config({"device": {"length": 0.3}}, None)).process(
+        make_batch(t, ne=1e17, Te=3.0, p0=p0))
+    held = np.isfinite(frame.values["p0"])
+    assert 0.2 < held.mean() < 0.3
+    assert frame.valid.all()                                       # missing p0 is not a bad reading
+    assert np.isfinite(frame.values["neutral_density"][held]).all()
+    assert np.isnan(frame.values["neutral_density"][~held]).all()
+    assert np.isfinite(frame.values["debye_length"]).all()
