@@ -141,3 +141,18 @@ def test_pipeline_memory_stays_bounded_over_a_long_run() -> None:
     assert max(s[2] for s in sizes) <= 21
     assert max(s[3] for s in sizes) == 0
     assert p.counts()["probe"].accepted == 300 * 90
+
+
+@pytest.mark.parametrize("n", [500, 5000, 50_000])
+def test_one_batch_longer_than_the_window(n: int) -> None:
+    t = np.linspace(0.0, 30.0, n)
+    x = np.sin(t) + 0.001 * t
+    r = Rolling(window=4.0, bins=16)
+    r.add(t, {"x": x})
+    s = r.stats()["x"]
+    k, mean, std, mn, mx, slope = reference(t, x, r.window_start())
+    assert s.n == k
+    assert s.mean == pytest.approx(mean, rel=1e-10, abs=1e-12)
+    assert s.std == pytest.approx(std, rel=1e-9)
+    assert s.slope == pytest.approx(slope, rel=1e-8)
+    assert s.min == pytest.approx(mn, abs=1e-15) and s.max == pytest.approx(mx, abs=1e-15)
