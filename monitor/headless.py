@@ -15,10 +15,12 @@ from monitor.alarms.events import AlarmEvent
 from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
-__all__ = ["HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary", "run_headless",
+__all__ = ["ATTENTION", "HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary", "run_headless",
            "install_signals", "restore_signals"]
 
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
+# states that want the operator's attention (the others: normal, shelved, suppressed, out_of_service)
+ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
 
 
 def jsonable(x: Any) -> Any:
@@ -99,13 +101,17 @@ def human_status(snap: Snapshot) -> str:
         v = snap.latest.get(key)
         parts.append(f"{label} {_num(v[0] if v else None)} {unit}")
     parts.append("ON" if rec["discharge_on"] else "off")
-    active = rec["alarms"]
+    active = [a for a in rec["alarms"] if a["state"] in ATTENTION]
     if active:
         names = ", ".join(f"{a['alarm']}({a['state']})" for a in active[:4])
         more = f" +{len(active) - 4}" if len(active) > 4 else ""
         parts.append(f"alarms {len(active)}: {names}{more}")
     else:
         parts.append("alarms 0")
+    for state in ("shelved", "suppressed", "out_of_service"):
+        k = sum(1 for a in rec["alarms"] if a["state"] == state)
+        if k:
+            parts.append(f"{state.replace('_', ' ')} {k}")
     if rec["flood"]:
         parts.append("FLOOD")
     if rec["chattering"]:

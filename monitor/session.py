@@ -26,6 +26,8 @@ from monitor.snapshot import Snapshot, Stats
 __all__ = ["Session", "make_engine", "TRAIL_BASE"]
 
 TRAIL_BASE: tuple[str, ...] = ("ne", "Te", "debye_length")
+# alarm states that want the operator's attention ("alarms_active" in the summary)
+_ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
 _OPEN_BACKOFF = (0.2, 0.5, 1.0, 2.0, 5.0)
 
 
@@ -359,7 +361,7 @@ class Session(SessionControls):
             active = []
             if self.engine is not None:
                 active = [v.alarm for v in self.engine.views()
-                          if getattr(v.state, "value", v.state) not in ("normal",)]
+                          if getattr(v.state, "value", v.state) in _ATTENTION]
             return {
                 "type": "summary",
                 "source": self.name,

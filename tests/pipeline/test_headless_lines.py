@@ -1,0 +1,66 @@
+"""Headless lines: the status record's keys, NaN as null, alarm counts by state, the printer as a sink."""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+
+import numpy as np
+
+from adapters.base import LinkState, SourceStatus
+from monitor.alarms.events import AlarmEvent, AlarmState, Priority
+from monitor.headless import HeadlessPrinter, human_status, jsonable, status_record
+from monitor.snapshot import AlarmView, Snapshot, SourceCounts, Stats
+
+
+def view(name: str, state: AlarmState) -> AlarmView:
+    return AlarmView(alarm=name, state=state, priority=Priority.HIGH, kind="limit", quantity="ne", value=2e17,
+                     limit=1.5e17, since=3.0)
+
+
+def snap() -> Snapshot:
+    return Snapshot(
+        data_time=12.5, wall_time=1000.0,
+        latest={"ne": (1e17, 2e16), "Te": (math.nan, None), "debye_length": (4.0e-5, None)},
+        stats={"ne": Stats(10, 1e17, 1e15, 9e16, 1.1e17, 0.0)},
+        trail_t=np.array([12.0, 12.5]), trail={"ne": np.array([1e17, 1e17])}, warnings=(),
+        sources={"probe": SourceStatus("probe", LinkState.CONNECTED, "ok")},
+        counts={"probe": SourceCounts(accepted=10, rejected={"malformed": 2}, lost=1, rate=20.0)},
+        alarms=(view("a", AlarmState.UNACKNOWLEDGED), view("b", AlarmState.SUPPRESSED), view("c", AlarmState.NORMAL)),
+        discharge_on=True, live=True,
+    )
+
+
+def test_status_record_contract_and_nan_as_null() -> None:
+    rec = status_record(snap())
+    assert rec["type"] == "status" and rec["time"] == 12.5
+    assert (rec["accepted"], rec["rejected"], rec["lost"], rec["rate"]) == (10, {"malformed": 2}, 1, 20.0)
+    assert rec["latest"]["Te"] is None and rec["latest"]["ne"] == 1e17
+    assert [a["alarm"] for a in rec["alarms"]] == ["a", "b"]
+    json.dumps(rec, allow_nan=False)             # strict JSON
+    assert jsonable({"x": (np.float64(np.inf), np.int64(3))}) == {"x": [None, 3]}
+
+
+def test_human_line_counts_alarms_by_what_they_ask_of_the_operator() -> None:
+    line = human_status(snap())
+    assert line.startswith("[connected]") and "t=12.500" in line
+    assert "accepted 10 rejected 2 lost 1" in line
+    assert "alarms 1: a(unacknowledged)" in line and "suppressed 1" in line
+    assert "Te -- eV" in line and "ne 1e+17 m^-3" in line
+
+
+def test_printer_writes_one_json_object_per_line() -> None:
+    out = io.StringIO()
+    p = HeadlessPrinter(out, as_json=True)
+    ev = AlarmEvent(time=3.0, wall=1000.0, alarm="a", state=AlarmState.UNACKNOWLEDGED, previous=AlarmState.NORMAL,
+                    quantity="ne", value=2e17, limit=1.5e17, priority=Priority.HIGH)
+    p.on_alarm(ev)
+    p.on_status(SourceStatus("probe", LinkState.DISCONNECTED, "cable", 2))
+    p.status(snap())
+    p.summary({"type": "summary", "accepted": 10, "rejected": {}, "lost": 0, "x": math.nan})
+    recs = [json.loads(line) for line in out.getvalue().splitlines()]
+    assert [r["type"] for r in recs] == ["alarm", "source", "status", "summary"]
+    assert recs[0] == json.loads(json.dumps(ev.to_json()))
+    assert recs[1]["state"] == "disconnected" and recs[1]["retries"] == 2
+    assert recs[3]["x"] is None
