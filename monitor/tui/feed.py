@@ -81,9 +81,11 @@ class SessionFeed:
         self.tap = tap
         self.error: str | None = None
         self.finished = threading.Event()
+        self.thread_id: int | None = None
         self._clock = clock
 
     def run(self, stop: threading.Event) -> None:
+        self.thread_id = threading.get_native_id()
         try:
             self.session.run(stop=stop)
         except Exception as exc:  # a broken source is a visible status, never a crash

@@ -59,12 +59,14 @@ class HelpScreen(ModalScreen[None]):
         self.groups = groups
 
     def compose(self) -> ComposeResult:
-        table = Table(box=None, padding=(0, 2), show_header=True, header_style=palette.LABEL)
+        table = Table(box=None, padding=(0, 1), show_header=True, header_style=palette.LABEL)
         table.add_column("where", style=palette.DIM)
         table.add_column("key", style=palette.STRONG, no_wrap=True)
         table.add_column("does", style=palette.NORMAL)
+        last = None
         for group, keys, does in key_rows(self.groups):
-            table.add_row(group, keys, does)
+            table.add_row(group if group != last else "", keys, does)
+            last = group
         self.table = table
         with VerticalScroll(id="help-box"):
             yield Static("Keys — the footer shows the main ones; ctrl+p lists every action by name.", classes="hint")

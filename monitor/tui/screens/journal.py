@@ -13,7 +13,7 @@ from monitor.quantities import ALL
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.feed import EventTap
-from monitor.tui.formatting import fmt_value
+from monitor.tui.formatting import fmt_data_time, fmt_value
 from monitor.tui.widgets.alarm_list import STATE_WORDS
 
 __all__ = ["JournalScreen", "event_line"]
@@ -27,11 +27,10 @@ def event_line(e: AlarmEvent, units: str = "practical") -> Text:
     who = f"operator {e.action}" if e.action else "engine"
     style = palette.NORMAL if e.action else (palette.ALERT if e.state.value == "unacknowledged" else palette.NORMAL)
     return Text.assemble(
-        (f"t {e.time:10.2f}  ", palette.DIM), (f"{e.alarm:<18} ", palette.STRONG),
+        (f"{fmt_data_time(e.time)}  ", palette.DIM), (f"{e.alarm:<16} ", palette.STRONG),
         (f"{STATE_WORDS.get(e.previous, e.previous.value)} → {STATE_WORDS.get(e.state, e.state.value)}", style),
-        (f"  [{e.priority.value}, {e.kind}] ", palette.DIM),
-        (f"{value[0]} {value[2]} (limit {limit[0]})  ", palette.NORMAL), (who, palette.DIM),
-        (f"  {e.message}" if e.message else "", palette.DIM),
+        (f"  {value[0]} {value[2]} (limit {limit[0]})  ", palette.NORMAL), (who, palette.DIM),
+        (f"  [{e.priority.value}, {e.kind}]", palette.DIM), (f"  {e.message}" if e.message else "", palette.DIM),
     )
 
 
@@ -46,7 +45,7 @@ class JournalScreen(Screen[None]):
         self._shown = 0
 
     def compose(self) -> ComposeResult:
-        yield Static(" alarm journal — every transition and operator action, data time in seconds", id="journal-title")
+        yield Static(" alarm journal — every transition and operator action (data time) · esc or j: back", id="journal-title")
         yield RichLog(id="journal", wrap=False, highlight=False, markup=False, max_lines=5000)
         yield Footer()
 

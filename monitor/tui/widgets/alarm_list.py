@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from rich.console import Group
-from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
 from textual.binding import Binding
@@ -16,6 +15,7 @@ from monitor.quantities import ALL
 from monitor.snapshot import AlarmView, Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_duration, fmt_value
+from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["AlarmList", "STATE_WORDS", "PRIORITY_MARK", "ordered"]
 
@@ -119,11 +119,7 @@ class AlarmList(Widget, can_focus=True):
             return Text("○ nothing to attend to" + note, style=palette.DIM)
         now = snap.data_time if snap is not None else None
         wide = (self.size.width or 80) >= 100
-        table = Table.grid(padding=(0, 1), expand=False)
-        for _ in range(8 if wide else 6):
-            table.add_column(no_wrap=True, overflow="ellipsis")
-        for a in rows:
-            table.add_row(*self._cells(a, now, wide))
+        table = grid_text([self._cells(a, now, wide) for a in rows], max_width=self.size.width or None)
         if note:
             return Group(table, Text(note, style=palette.DIM))
         return table

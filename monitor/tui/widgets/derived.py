@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
 from textual.reactive import reactive
@@ -12,6 +11,7 @@ from monitor.quantities import DERIVED
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_value
+from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["DerivedTable", "KIND_ORDER"]
 
@@ -48,23 +48,20 @@ class DerivedTable(Widget):
         if snap is None:
             return Text("no derived quantities yet", style=palette.DIM)
         wide = (self.size.width or 40) >= 60
-        table = Table.grid(padding=(0, 1))
-        table.add_column(style=palette.LABEL, no_wrap=True, overflow="ellipsis")
-        table.add_column(justify="right", style=palette.NORMAL, no_wrap=True)
-        table.add_column(style=palette.DIM, no_wrap=True)
-        table.add_column(style=palette.DIM, no_wrap=True)
+        lines: list[list[Text]] = []
         any_row = False
         for kind in KIND_ORDER:
             rows = [q for q in DERIVED if q.kind == kind and q.name in snap.latest]
             if not rows:
                 continue
-            table.add_row(Text(f"─ {kind}", style=palette.DIM), "", "", "")
+            lines.append([Text(f"─ {kind}", style=palette.DIM)])
             for q in rows:
                 value, sigma = snap.latest[q.name]
                 number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
                 label = q.meaning if wide else q.name.replace("electron_", "e ").replace("_", " ")
-                table.add_row(f"  {label}", number, unc, unit)
+                lines.append([Text(f"  {label}", style=palette.LABEL), Text(number, style=palette.NORMAL),
+                             Text(unc, style=palette.DIM), Text(unit, style=palette.DIM)])
                 any_row = True
         if not any_row:
             return Text("no derived quantities yet", style=palette.DIM)
-        return table
+        return grid_text(lines, right=(1,), max_width=self.size.width or None)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
 from textual.reactive import reactive
@@ -12,6 +11,7 @@ from monitor.quantities import BASE
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_value
+from monitor.tui.renderables.grid import grid_text
 from monitor.tui.renderables.trend import trend_cells
 
 __all__ = ["Readings"]
@@ -51,14 +51,7 @@ class Readings(Widget):
         width = self.size.width or 40
         wide = width >= 52
         trend_w = max(6, min(24, width - (46 if wide else 34)))
-        table = Table.grid(padding=(0, 1))
-        table.add_column(style=palette.LABEL, no_wrap=True)
-        if wide:
-            table.add_column(style=palette.DIM, no_wrap=True)
-        table.add_column(justify="right", style=palette.STRONG, no_wrap=True)
-        table.add_column(justify="left", style=palette.DIM, no_wrap=True)
-        table.add_column(style=palette.DIM, no_wrap=True, min_width=5)
-        table.add_column(style=palette.DIM, no_wrap=True)
+        rows: list[list[Text]] = []
         shown = 0
         for q in BASE:
             if q.name not in snap.latest and q.name not in snap.trail:
@@ -67,9 +60,11 @@ class Readings(Widget):
             number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
             trail = snap.trail.get(q.name)
             trend = trend_cells(trail, trend_w, log=q.name == "ne") if trail is not None else ""
-            cells = [q.name] + ([_SHORT[q.name]] if wide else []) + [number, unc, unit, trend]
-            table.add_row(*cells)
+            cells = [Text(q.name, style=palette.LABEL)] + ([Text(_SHORT[q.name], style=palette.DIM)] if wide else [])
+            cells += [Text(number, style=palette.STRONG), Text(unc, style=palette.DIM), Text(unit.ljust(5), style=palette.DIM),
+                      Text(trend, style=palette.DIM)]
+            rows.append(cells)
             shown += 1
         if not shown:
             return Text("no base readings yet", style=palette.DIM)
-        return table
+        return grid_text(rows, right=(2 if wide else 1,), max_width=width)

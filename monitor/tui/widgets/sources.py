@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
 from textual.reactive import reactive
@@ -12,6 +11,7 @@ from adapters.base import LinkState
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_age, fmt_number
+from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["SourcesPanel", "source_trouble"]
 
@@ -83,9 +83,7 @@ class SourcesPanel(Widget):
             return Text("◌ waiting for the source…" if self.error is None else f"✖ PIPELINE STOPPED: {self.error}",
                         style=palette.CAUTION if self.error is None else palette.ALERT)
         wide = (self.size.width or 80) >= 110
-        table = Table.grid(padding=(0, 1))
-        for _ in range(8):
-            table.add_column(no_wrap=True, overflow="ellipsis")
+        rows: list[list[Text]] = []
         for name in sorted(set(snap.sources) | set(snap.counts)):
             status = snap.sources.get(name)
             counts = snap.counts.get(name)
@@ -100,7 +98,7 @@ class SourcesPanel(Widget):
                 extra = f" retry {status.retries}"
             if status is not None and status.message and (trouble or wide):
                 extra += f" {status.message}"
-            table.add_row(
+            rows.append([
                 Text(glyph, style=style), Text(name, style=palette.NORMAL),
                 Text(word + extra, style=style + palette.LOUD if trouble else style),
                 Text(f"{fmt_number(counts.rate if counts else 0.0)}/s", style=palette.DIM),
@@ -108,8 +106,8 @@ class SourcesPanel(Widget):
                 Text(f"ok {_count(counts.accepted if counts else 0)}", style=palette.DIM),
                 Text(f"rej {_count(rejected)}", style=palette.CAUTION if rejected else palette.DIM),
                 Text(f"lost {_count(counts.lost if counts else 0)}", style=palette.ALERT if counts and counts.lost else palette.DIM),
-            )
+            ])
         if self.error is not None:
-            table.add_row(Text("✖", style=palette.ALERT), Text("pipeline", style=palette.NORMAL),
-                          Text(f"STOPPED: {self.error}", style=palette.ALERT), "", "", "", "", "")
-        return table
+            rows.append([Text("✖", style=palette.ALERT), Text("pipeline", style=palette.NORMAL),
+                         Text(f"STOPPED: {self.error}", style=palette.ALERT)])
+        return grid_text(rows, max_width=self.size.width or None)

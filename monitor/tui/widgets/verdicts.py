@@ -5,7 +5,6 @@ from __future__ import annotations
 import math
 from typing import Any, Callable
 
-from rich.table import Table
 from rich.text import Text
 from textual.app import RenderResult
 from textual.reactive import reactive
@@ -14,6 +13,7 @@ from textual.widget import Widget
 from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_number
+from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["Verdicts", "verdict_rows"]
 
@@ -104,18 +104,13 @@ class Verdicts(Widget):
         else:
             note = None
         wide = (self.size.width or 44) >= 52
-        table = Table.grid(padding=(0, 1))
-        table.add_column(no_wrap=True)
-        table.add_column(no_wrap=True, overflow="ellipsis")
-        if wide:
-            table.add_column(style=palette.DIM, no_wrap=True)
-        table.add_column(no_wrap=True)
+        rows: list[list[Text]] = []
         for glyph, word, style, label, shown, margin in verdict_rows(snap):
             # the word (holds / near limit / FAILS) is carried by the label's own wording and the glyph
             cells = [Text(glyph, style=style), Text(label, style=style if word != "holds" else palette.NORMAL)]
-            cells += [Text(shown)] if wide else []
+            cells += [Text(shown, style=palette.DIM)] if wide else []
             cells.append(Text(margin, style=style if word != "holds" else palette.DIM))
-            table.add_row(*cells)
+            rows.append(cells)
         if note is not None:
-            table.add_row("", note, *([""] * (2 if wide else 1)))
-        return table
+            rows.append([Text(""), note])
+        return grid_text(rows, max_width=self.size.width or None)
