@@ -110,6 +110,7 @@ class Session(SessionControls):
         self._events_by_state: collections.Counter = collections.Counter()
         self.recent_events: collections.deque[AlarmEvent] = collections.deque(maxlen=200)
         self.sink_errors = 0
+        self.internal_errors = 0
         self._sink_error_text: str | None = None
 
     # -- life cycle ---------------------------------------------------------
@@ -231,7 +232,12 @@ class Session(SessionControls):
         for batch in polled.batches:
             if len(batch) == 0:
                 continue
-            frame = self.pipeline.process(batch)
+            try:
+                frame = self.pipeline.process(batch)
+            except Exception as exc:  # noqa: BLE001 - our own fault must not stop the run or lose readings
+                self._internal_error(f"processing a batch from {batch.source}: {exc!r}")
+                self._fan("on_rejections", self.pipeline.refuse_batch(batch, "internal_error", repr(exc)))
+                continue
             rejected = self.pipeline.drain_rejections()
             if rejected:
                 self._fan("on_rejections", rejected)
@@ -254,7 +260,12 @@ class Session(SessionControls):
         self._fan("on_frame", frame)
         if self.engine is not None:
             # gaps inside and before the frame are the engine's to judge (stale in data time)
-            self._dispatch(self.engine.process(frame, _LazyStats(self.pipeline, frame.source)))
+            try:
+                events = self.engine.process(frame, _LazyStats(self.pipeline, frame.source))
+            except Exception as exc:  # noqa: BLE001 - a fault in the alarm engine is loud, not fatal
+                self._internal_error(f"alarm engine: {exc!r}")
+                return
+            self._dispatch(events)
 
     def _dispatch(self, events: Iterable[AlarmEvent]) -> None:
         for ev in events:
@@ -296,6 +307,11 @@ class Session(SessionControls):
             fn(*args)
         except Exception as exc:  # noqa: BLE001 - a failing sink must not stop the session
             self._sink_error(f"{type(sink).__name__}.{method}: {exc!r}")
+
+    def _internal_error(self, text: str) -> None:
+        self.internal_errors += 1
+        if self.internal_errors == 1:
+            print(f"regime: internal error (further ones only counted): {text}", file=sys.stderr)
 
     def _sink_error(self, text: str) -> None:
         self.sink_errors += 1
@@ -381,6 +397,7 @@ class Session(SessionControls):
                 "alarm_events_by_state": dict(sorted(self._events_by_state.items())),
                 "alarms_active": active,
                 "sink_errors": self.sink_errors,
+                "internal_errors": self.internal_errors,
             }
 
     def latest(self) -> Mapping[str, tuple[float, float | None]]:

@@ -120,6 +120,22 @@ class Pipeline:
             if m is not None:
                 c.refused_seqs.append(int(m.group(1)))
 
+    def refuse_batch(self, batch: Batch, reason: str, detail: str = "") -> list[Rejection]:
+        """Count and keep every reading of ``batch`` as refused (used when processing it failed);
+        rejections already made for it and not yet drained are taken back, so none counts twice."""
+        counts = self._c(batch.source)
+        for r in self.drain_rejections():
+            counts.rejected[r.reason] -= 1
+            if counts.rejected[r.reason] <= 0:
+                del counts.rejected[r.reason]
+        wall = self._wall()
+        cols = list(batch.columns.items())
+        out = [Rejection(source=batch.source, reason=reason, raw=_row_line(batch, cols, i), received=wall,
+                         detail=detail) for i in range(len(batch))]
+        self._c(batch.source).rejected[reason] += len(out)
+        self.rejected_samples.extend(out)
+        return out
+
     def drain_rejections(self) -> list[Rejection]:
         """Rejections the pipeline itself made since the last call (for the sinks)."""
         out, self._pending = self._pending, []
@@ -182,13 +198,14 @@ class Pipeline:
         raw_sigma = {key: (s[ok] if n_ok < len(ok) else s) for key, s in mapped.sigma.items()}
         frame_seq = None if seq is None else (seq[ok] if n_ok < len(ok) else seq)
         values, sigma = self._aligner.align(source, t, raw, raw_sigma)
-        counts.accepted += n_ok
+        frame = self._derive_frame(source, t, values, sigma, raw, frame_seq)
+        counts.accepted += n_ok          # counted once the frame exists (see Session: a fault refuses the batch)
         if n_ok:
             counts.last_data_time = float(t[-1])
             if counts.first_time is None:
                 counts.first_time = float(t[0])
             counts.add_rate(t)
-        return self._derive_frame(source, t, values, sigma, raw, frame_seq)
+        return frame
 
     def _derive_frame(self, source: str, t: np.ndarray, values: dict[str, np.ndarray],
                       sigma: dict[str, np.ndarray], raw: Mapping[str, np.ndarray],

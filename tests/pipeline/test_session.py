@@ -215,3 +215,28 @@ def test_a_source_that_never_speaks_goes_stale(collect: CollectSink) -> None:
     s.step(0.01)
     stale = [e for e in collect.alarms if "stale" in e.alarm]
     assert stale[-1].state.value in ("returned_unacknowledged", "normal")
+
+
+def test_a_fault_in_processing_refuses_the_batch_loudly(collect: CollectSink, capsys) -> None:
+    calls = []
+
+    def broken_derive(inputs, device, sigma=None):
+        calls.append(1)
+        if len(calls) == 2:
+            raise FloatingPointError("synthetic fault")
+        from monitor.physics import derive
+        return derive(inputs, device, sigma)
+
+    from monitor.pipeline import Pipeline
+    pipe = Pipeline(Config(), derive=broken_derive)
+    bad = steady(0.1, 10)
+    bad.columns["ne"][4] = -1.0            # refused by validation, then by the fault: counted once
+    src = ListSource([steady(0.0, 10), bad, steady(0.2, 10)])
+    s = Session(src, Config(), [collect], live=False, pipeline=pipe)
+    drive(s)
+    summary = s.summary()
+    assert summary["accepted"] == 20              # the second batch is refused, not counted twice
+    assert summary["rejected"] == {"internal_error": 10}
+    assert summary["internal_errors"] == 1
+    assert len([r for r in collect.rejections if r.reason == "internal_error"]) == 10
+    assert "synthetic fault" in capsys.readouterr().err
