@@ -240,6 +240,8 @@ class ZmqSource:
         import zmq
 
         if self._sock is None:
+            if self._state is LinkState.ENDED:            # closed: nothing more will come
+                return Polled(status=self.status())
             self.open()
         start = time.monotonic()
         events = dict(self._poller.poll(max(0, int(timeout * 1000))))

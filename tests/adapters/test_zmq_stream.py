@@ -81,6 +81,8 @@ def test_three_formats_arrive_with_seq(kind: str, ctx, short_tmp, source_factory
     assert d.seqs().tolist() == list(range(300))
     assert np.allclose(d.column("ne"), sim.columns["ne"])
     assert src.status().state is LinkState.CONNECTED
+    src.close()
+    assert src.poll(0.01).status.state is LinkState.ENDED       # closed stays closed
 
 
 def sim_slice(b, lo: int, hi: int):
