@@ -243,3 +243,19 @@ async def test_quit_while_recording_asks_first(tmp_path) -> None:
             await wait_for(pilot, lambda: app._exit)
     finally:
         session.close()
+
+
+async def test_command_palette_lists_the_actions(raised) -> None:
+    from textual.command import CommandPalette
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_for(pilot, lambda: app.screen is app.watch)
+        titles = [c.title for c in app.get_system_commands(app.watch)]
+        for b in WatchScreen.BINDINGS:
+            assert b.description.capitalize() in titles
+        await pilot.press("ctrl+p")
+        await wait_for(pilot, lambda: isinstance(app.screen, CommandPalette))
+        await pilot.press(*"ack all")
+        await pilot.press("enter")
+        await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))

@@ -22,9 +22,9 @@ def strip_text(snapshot: Snapshot | None, *, title: str, units: str, bell: bool,
     if snapshot is None:
         parts.append(("  starting…", palette.DIM))
         return Text.assemble(*parts)  # type: ignore[arg-type]
-    parts.append(("  ◉ discharge ON " if snapshot.discharge_on else "  ○ discharge off", palette.NORMAL))
+    parts.append((" ◉ discharge ON " if snapshot.discharge_on else " ○ discharge off", palette.NORMAL))
     if snapshot.data_time is not None:
-        parts.append((f"  t {fmt_data_time(snapshot.data_time)}", palette.DIM))
+        parts.append((f" {fmt_data_time(snapshot.data_time)}", palette.DIM))
     unacked = [a for a in snapshot.alarms if a.state in UNACKED]
     active = [a for a in snapshot.alarms if a.state.value not in ("normal",)]
     if unacked:
@@ -39,7 +39,7 @@ def strip_text(snapshot: Snapshot | None, *, title: str, units: str, bell: bool,
         parts.append(("  ≋ FLOOD", palette.CAUTION))
     if snapshot.recording:
         parts.append(("  ⏺ rec", palette.NORMAL))
-    right = f"{units}  bell {'on' if bell else 'off'} "
+    right = f"{units}, bell {'on' if bell else 'off'} "
     text = Text.assemble(*parts)  # type: ignore[arg-type]
     pad = width - text.cell_len - len(right)
     if pad > 1:
