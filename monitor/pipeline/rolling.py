@@ -143,66 +143,59 @@ class Rolling:
         if cut:
             x = x[:, cut:]
         dt = t - b * self.width                                  # in [0, width)
-        # each quantity is taken relative to a reference value c near its data (its first
-        # finite value in this batch); quantities with every value finite need no masks
-        full = np.isfinite(np.add.reduce(x, axis=1))
-        c = x[:, 0].copy()
-        if full.all():
-            self._add_group(rows, x - c[:, None], c, None, dt, starts, lengths, slots)
-        else:
-            part = ~full
-            xp = x[part]
-            fin = np.isfinite(xp)
-            cp = xp[np.arange(len(xp)), fin.argmax(axis=1)]
-            c[part] = np.where(np.isfinite(cp), cp, 0.0)
-            dx = x - c[:, None]
-            if full.any():
-                self._add_group(rows[full], dx[full], c[full], None, dt, starts, lengths, slots)
-            self._add_group(rows[part], dx[part], c[part], fin, dt, starts, lengths, slots)
-        self._last_bin = int(seg_bin[-1])
-
-    def _add_group(self, rows: np.ndarray, dx: np.ndarray, c: np.ndarray, fin: np.ndarray | None,
-                   dt: np.ndarray, starts: np.ndarray, lengths: np.ndarray, slots: np.ndarray) -> None:
-        """Add the deviations ``dx`` (quantities x readings) from references ``c``; ``fin`` marks
-        the finite ones (None: all are)."""
-        q, n = dx.shape
-        m = len(starts)
+        q, m = len(names), len(starts)
         new = np.empty((q, 8, m))
-        y = np.empty((q, 3, n))
-        if fin is None:
-            y[:, 0] = dx
-            np.multiply(dx, dx, out=y[:, 1])
-            np.multiply(dx, dt, out=y[:, 2])
+        with np.errstate(invalid="ignore", over="ignore"):
+            # every quantity first as if all its values were finite, relative to its first value c
+            c = x[:, 0].copy()
+            dx = x - c[:, None]
+            new[:, _SX] = np.add.reduceat(dx, starts, axis=1)
+            full = np.isfinite(new[:, _SX]).all(axis=1)
+            tmp = dx * dx
+            new[:, _SXX] = np.add.reduceat(tmp, starts, axis=1)
+            np.multiply(dx, dt, out=tmp)
+            new[:, _STX] = np.add.reduceat(tmp, starts, axis=1)
+            new[:, _MIN] = np.minimum.reduceat(dx, starts, axis=1)
+            new[:, _MAX] = np.maximum.reduceat(dx, starts, axis=1)
             new[:, _N] = lengths
             tsum = np.add.reduceat(np.stack((dt, dt * dt)), starts, axis=1)      # (2, m)
             new[:, _ST] = tsum[0]
             new[:, _STT] = tsum[1]
-            new[:, _MIN] = np.minimum.reduceat(dx, starts, axis=1)
-            new[:, _MAX] = np.maximum.reduceat(dx, starts, axis=1)
-        else:
-            dx[~fin] = 0.0
-            y[:, 0] = dx
-            np.multiply(dx, dx, out=y[:, 1])
-            np.multiply(dx, dt, out=y[:, 2])
-            dtm = np.where(fin, dt, 0.0)
-            tsum = np.add.reduceat(np.stack((fin.astype(np.float64), dtm, dtm * dt), axis=1), starts, axis=2)
-            new[:, _N], new[:, _ST], new[:, _STT] = tsum[:, 0], tsum[:, 1], tsum[:, 2]
-            new[:, _MIN] = np.minimum.reduceat(np.where(fin, dx, np.inf), starts, axis=1)
-            new[:, _MAX] = np.maximum.reduceat(np.where(fin, dx, -np.inf), starts, axis=1)
-        xs = np.add.reduceat(y, starts, axis=2)                                  # (q, 3, m)
+            if not full.all():
+                # the quantities with missing or non-finite values again, masked
+                part = np.flatnonzero(~full)
+                xp = x[part]
+                fin = np.isfinite(xp)
+                cp = xp[np.arange(len(part)), fin.argmax(axis=1)]
+                cp = np.where(np.isfinite(cp), cp, 0.0)
+                c[part] = cp
+                d = np.where(fin, xp - cp[:, None], 0.0)
+                dtm = np.where(fin, dt, 0.0)
+                y = np.stack((fin.astype(np.float64), dtm, dtm * dt, d, d * d, d * dt), axis=1)   # (p, 6, n)
+                ys = np.add.reduceat(y, starts, axis=2)
+                new[part, _N], new[part, _ST], new[part, _STT] = ys[:, 0], ys[:, 1], ys[:, 2]
+                new[part, _SX], new[part, _SXX], new[part, _STX] = ys[:, 3], ys[:, 4], ys[:, 5]
+                new[part, _MIN] = np.minimum.reduceat(np.where(fin, d, np.inf), starts, axis=1)
+                new[part, _MAX] = np.maximum.reduceat(np.where(fin, d, -np.inf), starts, axis=1)
+        self._merge(rows, new, c, slots)
+        self._last_bin = int(seg_bin[-1])
+
+    def _merge(self, rows: np.ndarray, new: np.ndarray, c: np.ndarray, slots: np.ndarray) -> None:
+        """Add per-bucket sums ``new`` (quantities x 8 x buckets, relative to references ``c``)
+        into the accumulators of ``slots``, shifting them onto each bucket's own reference."""
         ix = np.ix_(rows, self._all8, slots)
         old = self._acc[ix]                                                      # (q, 8, m)
         rix = np.ix_(rows, slots)
         cc = c[:, None]
         ref = np.where(old[:, _N] > 0, self._ref[rix], cc)        # a bucket keeps its first reference
         e = cc - ref                                              # x - ref = (x - c) + e
-        cnt, st, sx = new[:, _N], new[:, _ST], xs[:, 0]
+        cnt, st, sx = new[:, _N], new[:, _ST], new[:, _SX]
         old[:, _N] += cnt
         old[:, _ST] += st
         old[:, _STT] += new[:, _STT]
         old[:, _SX] += sx + cnt * e
-        old[:, _SXX] += xs[:, 1] + 2.0 * e * sx + cnt * e * e
-        old[:, _STX] += xs[:, 2] + e * st
+        old[:, _SXX] += new[:, _SXX] + 2.0 * e * sx + cnt * e * e
+        old[:, _STX] += new[:, _STX] + e * st
         np.minimum(old[:, _MIN], new[:, _MIN] + cc, out=old[:, _MIN])
         np.maximum(old[:, _MAX], new[:, _MAX] + cc, out=old[:, _MAX])
         self._acc[ix] = old
