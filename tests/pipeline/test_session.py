@@ -240,3 +240,27 @@ def test_a_fault_in_processing_refuses_the_batch_loudly(collect: CollectSink, ca
     assert summary["internal_errors"] == 1
     assert len([r for r in collect.rejections if r.reason == "internal_error"]) == 10
     assert "synthetic fault" in capsys.readouterr().err
+
+
+def test_an_open_that_fails_for_now_is_retried(collect: CollectSink) -> None:
+    class Flaky(ListSource):
+        def __init__(self) -> None:
+            super().__init__([steady(0.0, 10)])
+            self.attempts = 0
+
+        def open(self) -> None:
+            self.attempts += 1
+            if self.attempts < 3:
+                raise TransientSourceError("port busy")
+            super().open()
+
+    src = Flaky()
+    s = Session(src, Config(), [collect], live=False)
+    assert not s.open()
+    deadline = time.monotonic() + 20
+    while not s.ended and time.monotonic() < deadline:
+        s.step(0.05)
+    assert src.attempts == 3 and s.failure is None
+    assert s.summary()["accepted"] == 10
+    retried = [st for st in collect.statuses if st.state is LinkState.DISCONNECTED]
+    assert [st.retries for st in retried] == [1, 2] and "port busy" in retried[0].message
