@@ -90,8 +90,7 @@ class ZmqSource:
         self._message = f"connecting to {endpoint}"
         self._retries = 0
         self._auth_failed = False
-        self.messages = 0
-
+        self.messages = 0                         # messages received (any shape)
 
     # -- setup -----------------------------------------------------------------------------
 
