@@ -4,7 +4,8 @@ Run: /work/venv/bin/python tests/bench/bench_ingest.py [--quick] [--rss-seconds 
 
 Sections, all measured side by side in this one run:
  1. transport floor vs our path: a publisher process sends pre-encoded messages
-    as fast as it can (unlimited queues, so nothing is dropped); the receiver is
+    as fast as it can (unlimited queues, so nothing is dropped), timed from its
+    first send to the receiver's last reading (one machine clock); the receiver is
     either a bare pyzmq loop (recv + json.loads / np.frombuffer) or ZmqSource ->
     Pipeline.process (map, validate, align, derive, rolling statistics).
     Printed: readings/s of each and their ratio; for JSON single readings and
@@ -79,8 +80,10 @@ def blast_publisher(endpoint: str, fmt: str, n_messages: int, batch: int) -> Non
     print("ready", flush=True)
     pub.recv()                                    # the subscription
     time.sleep(0.2)                               # let the receiver enter its loop (pacing, not sync)
+    t_start = time.time()
     for m in msgs:
         pub.send_multipart(m, copy=False)
+    print(f"start {t_start!r}", flush=True)       # the receiver times from here (same machine clock)
     pub.setsockopt(zmq.LINGER, 60_000)
     pub.close()
     ctx.term()
@@ -109,11 +112,8 @@ def bare_loop(fmt: str, n: int, batch: int) -> float:
     sub.connect(ep)
     got = 0
     readings = 0
-    t_first = 0.0
     while got < n:
         parts = sub.recv_multipart()
-        if got == 0:
-            t_first = time.perf_counter()
         if fmt == "json":
             json.loads(parts[0])
             readings += 1
@@ -122,11 +122,17 @@ def bare_loop(fmt: str, n: int, batch: int) -> float:
             np.frombuffer(parts[1], dtype="<f8")
             readings += h["n"]
         got += 1
-    dt = time.perf_counter() - t_first
+    t_end = time.time()
     sub.close(0)
     ctx.term()
+    return readings / (t_end - _publisher_start(proc))
+
+
+def _publisher_start(proc: subprocess.Popen) -> float:
+    assert proc.stdout is not None
+    line = proc.stdout.readline().split()
     proc.wait(30)
-    return (readings - (1 if fmt == "json" else batch)) / dt
+    return float(line[1])
 
 
 def our_path(fmt: str, n: int, batch: int, with_pipeline: bool = True) -> tuple[float, int, int, float]:
@@ -137,26 +143,22 @@ def our_path(fmt: str, n: int, batch: int, with_pipeline: bool = True) -> tuple[
     pipe = Pipeline(CONFIG)
     total = n * (1 if fmt == "json" else batch)
     readings = 0
-    t_first = 0.0
-    first_len = 0
-    cpu0 = 0.0
+    cpu0 = time.process_time()                    # waiting costs no CPU; only handling does
     while readings < total:
         p = src.poll(0.5)
         for b in p.batches:
-            if readings == 0:
-                t_first, first_len, cpu0 = time.perf_counter(), len(b), time.process_time()
             if with_pipeline:
                 pipe.process(b)
             readings += len(b)
         pipe.reject(p.rejections)
-    dt = time.perf_counter() - t_first
-    per_cpu = (readings - first_len) / max(time.process_time() - cpu0, 1e-9)
+    t_end = time.time()
+    per_cpu = readings / max(time.process_time() - cpu0, 1e-9)
     src.close()
-    proc.wait(30)
+    rate = readings / (t_end - _publisher_start(proc))
     if not with_pipeline:
-        return (readings - first_len) / dt, readings, 0, per_cpu
+        return rate, readings, 0, per_cpu
     c = pipe.counts()[ep]
-    return (readings - first_len) / dt, c.accepted, c.lost, per_cpu
+    return rate, c.accepted, c.lost, per_cpu
 
 
 # ----------------------------------------------------------------------------- sustained, via `regime simulate`
