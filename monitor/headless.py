@@ -7,7 +7,7 @@ import math
 import signal
 import sys
 import threading
-from typing import Any, Iterable, Mapping, TextIO
+from typing import Any, Callable, Iterable, Mapping, TextIO
 
 from adapters.base import SourceStatus
 from adapters.batch import Rejection
@@ -221,7 +221,8 @@ _AUTO = object()
 
 def run_headless(source: Any, config: Any, *, json: bool = False, duration: float | None = None,
                  live: bool = True, sinks: Iterable[Any] = (), engine: Any = _AUTO,
-                 stream: TextIO | None = None, stop: threading.Event | None = None) -> int:
+                 stream: TextIO | None = None, stop: threading.Event | None = None,
+                 on_session: Callable[[Any], None] | None = None) -> int:
     """Run ``source`` through a Session with status lines once a second and a summary at the end
     (after ``duration`` wall seconds, the source's end, SIGINT or SIGTERM). Exit code 0, or 3 if
     the source failed. ``engine`` defaults to the alarm engine built from ``config``."""
@@ -231,6 +232,8 @@ def run_headless(source: Any, config: Any, *, json: bool = False, duration: floa
     if engine is _AUTO:
         engine = make_engine(config)
     session = Session(source, config, list(sinks), engine=engine, live=live)
+    if on_session is not None:
+        on_session(session)
     printer = HeadlessPrinter(stream if stream is not None else sys.stdout, as_json=json)
     session.add_sink(printer)
     stop = stop if stop is not None else threading.Event()

@@ -157,6 +157,17 @@ class Session(SessionControls):
         with self._lock:
             self.sinks.append(sink)
 
+    def emit(self, event: AlarmEvent, *, origin: Any = None) -> None:
+        """Hand an alarm event raised outside the engine (e.g. the recorder's own write alarm) to
+        every sink but ``origin``, which has already kept it."""
+        with self._lock:
+            self._alarm_events += 1
+            self._events_by_state[getattr(event.state, "value", str(event.state))] += 1
+            self.recent_events.append(event)
+            for sink in self.sinks:
+                if sink is not origin:
+                    self._call(sink, "on_alarm", event)
+
     # -- the loop -----------------------------------------------------------
     def step(self, timeout: float = 0.1) -> bool:
         """One poll of the source and the processing of what came; False once it ended or failed.

@@ -78,12 +78,11 @@ def run(args: argparse.Namespace) -> int:
         return EXIT_SOURCE
     config, source = opened.config, opened.source
     engine = make_engine(config)
-    sinks: list[Any] = []
-    if args.record:
-        from monitor.recording import Recorder
+    from monitor.outputs import build_outputs
 
-        sinks.append(Recorder(args.record, config, source_name=source.name))
-    session = Session(source, config, sinks, engine=engine, live=False)
+    outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False)
+    session = Session(source, config, outputs.sinks, engine=engine, live=False)
+    outputs.bind(session)
     if not args.headless:
         return _screen(session, args)
     printer = HeadlessPrinter(sys.stdout, as_json=args.json)

@@ -36,28 +36,10 @@ def _module(name: str) -> Any | None:
     return importlib.import_module(name)
 
 
-def _sinks(args: argparse.Namespace, config: Any, source_name: str) -> list[Any]:
-    sinks: list[Any] = []
-    directory = args.record or getattr(config.recording, "directory", None)
-    if directory:
-        recording = _module("monitor.recording")
-        if recording is None or not hasattr(recording, "Recorder"):
-            raise UsageError("--record: the recorder is not available in this build")
-        try:
-            sinks.append(recording.Recorder(directory, config, source_name=source_name))
-        except OSError as exc:
-            raise UsageError(f"--record {directory}: {exc.strerror or exc}") from None
-    if args.alarm_pub:
-        publisher = _module("monitor.alarms.publisher")
-        if publisher is None:
-            raise UsageError("--alarm-pub: the alarm publisher is not available in this build")
-        sinks.append(publisher.AlarmPublisher(args.alarm_pub))
-    return sinks
-
-
 def run(args: argparse.Namespace) -> int:
     from monitor.config import load_config
     from monitor.headless import run_headless
+    from monitor.outputs import build_outputs
     from monitor.session import Session, make_engine
     from monitor.sources import is_live, open_source
 
@@ -68,11 +50,13 @@ def run(args: argparse.Namespace) -> int:
     config = load_config(args.config)
     source = open_source(args.source, config)
     engine = make_engine(config)
-    sinks = _sinks(args, config, getattr(source, "name", args.source))
+    outputs = build_outputs(config, source_name=getattr(source, "name", args.source), record=args.record,
+                            alarm_pub=args.alarm_pub)
     if args.headless:
         return run_headless(source, config, json=args.json, duration=args.duration, live=is_live(args.source),
-                            sinks=sinks, engine=engine)
-    session = Session(source, config, sinks, engine=engine, live=is_live(args.source))
+                            sinks=outputs.sinks, engine=engine, on_session=outputs.bind)
+    session = Session(source, config, outputs.sinks, engine=engine, live=is_live(args.source))
+    outputs.bind(session)
     return _screen(session, config)
 
 
