@@ -206,7 +206,7 @@ async def test_journal_screen_lists_events(raised) -> None:
     app = _app(session, tap)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("j")
-        await wait_for(pilot, lambda: isinstance(app.screen, JournalScreen))
+        await wait_for(pilot, lambda: isinstance(app.screen, JournalScreen) and bool(app.screen.query("#journal")))
         log = app.screen.query_one("#journal")
         await wait_for(pilot, lambda: any("ne_high" in line.text for line in log.lines))
         await pilot.press("escape")
