@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-zmq = pytest.importorskip("zmq")
+import zmq
 from adapters.csv_file import CsvSource  # noqa: E402
 from adapters.zmq_stream import ZmqSource  # noqa: E402
 from monitor.alarms.engine import AlarmEngine  # noqa: E402

@@ -102,7 +102,7 @@ def test_missing_file_is_a_config_error(tmp_path: Path) -> None:
 
 
 def test_limit_and_alarm_tables_reach_their_parsers(tmp_path: Path) -> None:
-    pytest.importorskip("monitor.alarms.envelope")
+    import monitor.alarms.envelope  # noqa: F401 - fails loudly if the module is broken
     p = write(tmp_path, """
         [[limit]]
         name = "debye-long"
@@ -122,7 +122,7 @@ def test_limit_and_alarm_tables_reach_their_parsers(tmp_path: Path) -> None:
 
 
 def test_recording_table_reaches_its_parser(tmp_path: Path) -> None:
-    pytest.importorskip("monitor.recording.options")
+    import monitor.recording.options  # noqa: F401 - fails loudly if the module is broken
     c = load_config(write(tmp_path, "[recording]\npre_trigger = \"500ms\"\n"))
     assert c.recording.pre_trigger == pytest.approx(0.5)
     with pytest.raises(ConfigError):

@@ -12,7 +12,7 @@ from monitor.sources import is_live, open_source
 
 
 def test_zeromq_specs() -> None:
-    pytest.importorskip("adapters.zmq_stream")
+    import adapters.zmq_stream  # noqa: F401 - fails loudly if the module is broken
     src = open_source("tcp://127.0.0.1:5599", None)
     assert type(src).__name__ == "ZmqSource" and src.endpoint == "tcp://127.0.0.1:5599"
     assert type(open_source("ipc:///tmp/x.ipc", None)).__name__ == "ZmqSource"
@@ -23,7 +23,7 @@ def test_zeromq_specs() -> None:
 
 
 def test_serial_specs() -> None:
-    pytest.importorskip("adapters.serial_line")
+    import adapters.serial_line  # noqa: F401 - fails loudly if the module is broken
     s = open_source("serial:/dev/ttyUSB7@9600", None)
     assert (s.url, s.baud) == ("/dev/ttyUSB7", 9600)
     s = open_source("/dev/ttyACM3", None)
@@ -34,7 +34,7 @@ def test_serial_specs() -> None:
 
 
 def test_sim_spec_parameters() -> None:
-    pytest.importorskip("adapters.simulated")
+    import adapters.simulated  # noqa: F401 - fails loudly if the module is broken
     s = open_source("sim:excursion?seed=4&rate=2000&speed=max&duration=3&loop=1", None)
     assert (s.scenario, s.seed, s.rate, s.speed, s.loop) == ("excursion", 4, 2000.0, None, True)
     assert open_source("sim:steady?speed=2.5", None).speed == 2.5
@@ -45,7 +45,7 @@ def test_sim_spec_parameters() -> None:
 
 
 def test_file_specs(tmp_path: Path) -> None:
-    pytest.importorskip("adapters.csv_file")
+    import adapters.csv_file  # noqa: F401 - fails loudly if the module is broken
     p = tmp_path / "shot.csv"
     p.write_text("time_ms,ne\n0,1e17\n", encoding="utf-8")
     config = parse_config({"channels": {"time_ms": {"quantity": "t", "unit": "ms"}}}, None)

@@ -133,8 +133,8 @@ def test_signal_prints_the_summary(sig: int) -> None:
 
 
 def test_zeromq_end_to_end_every_reading_accounted() -> None:
-    zmq = pytest.importorskip("zmq")
-    pytest.importorskip("adapters.zmq_stream")
+    import zmq
+    import adapters.zmq_stream  # noqa: F401 - fails loudly if the module is broken
     ctx = zmq.Context()
     pub = ctx.socket(zmq.XPUB)
     pub.setsockopt(zmq.LINGER, 0)
@@ -192,9 +192,9 @@ def free_port() -> int:
 
 
 def test_record_and_alarm_publisher_see_the_same_events(tmp_path: Path) -> None:
-    zmq = pytest.importorskip("zmq")
-    pytest.importorskip("monitor.alarms.publisher")
-    pytest.importorskip("monitor.recording")
+    import zmq
+    import monitor.alarms.publisher  # noqa: F401 - fails loudly if the module is broken
+    import monitor.recording  # noqa: F401 - fails loudly if the module is broken
     cfg = tmp_path / "envelope.toml"
     cfg.write_text('[device]\nlength = "30cm"\n[[limit]]\nname = "dense"\nquantity = "ne"\nhigh = 2e17\n'
                    'deadband = 0.1\npriority = "high"\n', encoding="utf-8")
@@ -234,7 +234,7 @@ def test_record_and_alarm_publisher_see_the_same_events(tmp_path: Path) -> None:
 def test_serial_line_over_a_socket_url() -> None:
     import socket
     import threading
-    pytest.importorskip("adapters.serial_line")
+    import adapters.serial_line  # noqa: F401 - fails loudly if the module is broken
     server = socket.socket()
     server.bind(("127.0.0.1", 0))
     server.listen(1)
@@ -280,7 +280,7 @@ def test_serial_line_over_a_socket_url() -> None:
 def test_without_headless_the_screen_runs_in_a_real_terminal() -> None:
     import pty
     import select
-    pytest.importorskip("monitor.tui.launch")
+    import monitor.tui.launch  # noqa: F401 - fails loudly if the module is broken
     master, slave = pty.openpty()
     env = dict(os.environ, TERM="xterm-256color", COLUMNS="120", LINES="40")
     proc = subprocess.Popen([sys.executable, "-m", "monitor", "watch", "sim:steady"], stdin=slave, stdout=slave,
@@ -314,8 +314,8 @@ def test_without_headless_the_screen_runs_in_a_real_terminal() -> None:
 
 
 def test_ipc_endpoint(tmp_path: Path) -> None:
-    zmq = pytest.importorskip("zmq")
-    pytest.importorskip("adapters.zmq_stream")
+    import zmq
+    import adapters.zmq_stream  # noqa: F401 - fails loudly if the module is broken
     endpoint = f"ipc://{tmp_path}/feed.ipc"
     ctx = zmq.Context()
     pub = ctx.socket(zmq.XPUB)
@@ -348,7 +348,7 @@ def test_ipc_endpoint(tmp_path: Path) -> None:
 
 
 def test_a_source_that_can_never_work_exits_3(tmp_path: Path) -> None:
-    pytest.importorskip("adapters.zmq_stream")
+    import adapters.zmq_stream  # noqa: F401 - fails loudly if the module is broken
     cfg = tmp_path / "secure.toml"
     cfg.write_text('[sources]\ncurve_server_key = "missing.key"\ncurve_client_key = "missing.key_secret"\n',
                    encoding="utf-8")
