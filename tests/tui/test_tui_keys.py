@@ -259,3 +259,17 @@ async def test_command_palette_lists_the_actions(raised) -> None:
         await pilot.press(*"ack all")
         await pilot.press("enter")
         await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))
+
+
+async def test_derived_table_swaps_with_the_map_on_narrow_terminals(raised) -> None:
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await wait_for(pilot, lambda: app.screen is app.watch)
+        box, the_map = app.watch.query_one("#derived-box"), app.watch.query_one("#map")
+        assert not box.display and the_map.display
+        await pilot.press("d")
+        await wait_for(pilot, lambda: box.display and not the_map.display)
+        assert "debye length" in text_of(app.watch.query_one("#derived"))
+        await pilot.press("d")
+        await wait_for(pilot, lambda: not box.display and the_map.display)

@@ -3,11 +3,8 @@
 from __future__ import annotations
 
 import numpy as np
-from rich.console import Console, ConsoleOptions, RenderResult
-from rich.segment import Segment
-from rich.style import Style
 
-__all__ = ["trend_cells", "Trend"]
+__all__ = ["trend_cells"]
 
 _BLOCKS = " ▁▂▃▄▅▆▇█"
 
@@ -43,17 +40,3 @@ def trend_cells(values: np.ndarray, width: int, *, log: bool = False) -> str:
         levels = np.where(ok, 1 + np.clip(((means - lo) / (hi - lo) * 7.0).round(), 0, 7), 0)
     text = "".join(_BLOCKS[int(k)] for k in np.nan_to_num(levels, nan=0.0))
     return text.rjust(width)
-
-
-class Trend:
-    """Rich renderable wrapper of :func:`trend_cells` in one style."""
-
-    def __init__(self, values: np.ndarray, width: int, *, log: bool = False, style: str | Style = "") -> None:
-        self.values = values
-        self.width = width
-        self.log = log
-        self.style = style
-
-    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
-        width = min(self.width, options.max_width)
-        yield Segment(trend_cells(self.values, width, log=self.log), console.get_style(self.style) if isinstance(self.style, str) and self.style else (self.style or None))
