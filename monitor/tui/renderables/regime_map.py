@@ -207,7 +207,9 @@ class RegimeMap:
                 axis[start: start + len(text)] = list(text)
         out.append([Segment(unit.rjust(margin - 1) + "└", palette.DIM), Segment("".join(axis), palette.DIM)])
         n_unit = "ne cm⁻³→" if practical else "ne m⁻³→"
-        state = "✖ OUTSIDE box" if outside else ("◆now ∙trail □box" if self.data.point else "no point yet")
+        has_box = any(v is not None for v in self.data.box)
+        state = "✖ OUTSIDE box" if outside else (
+            ("◆now ∙trail □box" if has_box else "◆now ∙trail") if self.data.point else "no point yet")
         legend = f"{n_unit}  {state}"
         out.append([Segment(" " * margin + legend[: max(0, cv.width)], palette.ALERT if outside else palette.DIM)])
         return out

@@ -31,6 +31,8 @@ def source_trouble(snapshot: Snapshot, name: str, now: float, stale_after: float
         return status.state.value.upper()
     if status is not None and status.state == LinkState.ENDED:
         return None
+    if not snapshot.live:
+        return None   # a replay is judged in data time (the engine's stale alarm), not by the wall clock
     counts = snapshot.counts.get(name)
     last = counts.last_wall_time if counts is not None else None
     if last is None or now - last > stale_after:
