@@ -93,7 +93,7 @@ class RegimeMap:
 
     def build(self, width: int, height: int) -> list[list[Segment]]:
         d = self.data
-        margin = 5
+        margin = 5 if d.system == "practical" else 6
         plot_w, plot_h = max(4, width - margin), max(3, height - 2)
         box = d.box
         tr_ne = d.trail_ne[np.isfinite(d.trail_ne) & (d.trail_ne > 0)] if d.trail_ne.size else d.trail_ne
@@ -193,7 +193,7 @@ class RegimeMap:
             if practical:
                 label_rows[r] = _decade_label(e)
             else:
-                label_rows[r] = f"{10.0 ** e * _K_PER_EV:.0e}".replace("e+0", "e").replace("e+", "e")
+                label_rows[r] = f"{10.0 ** e * _K_PER_EV:.1e}".replace("e+0", "e").replace("e+", "e")
         unit = "eV" if practical else "K"
         for r, row in enumerate(rows):
             lab = label_rows.get(r, "")
