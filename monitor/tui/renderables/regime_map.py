@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Callable
 
 import numpy as np
 from rich.console import Console, ConsoleOptions, RenderResult
@@ -168,7 +169,8 @@ class RegimeMap:
         cv.put(col, row, text, layer)
 
     @staticmethod
-    def _box(cv: BrailleCanvas, px, py, box) -> None:  # type: ignore[no-untyped-def]
+    def _box(cv: BrailleCanvas, px: Callable[[float], np.ndarray], py: Callable[[float], np.ndarray],
+             box: tuple[float | None, float | None, float | None, float | None]) -> None:
         lo_n, hi_n, lo_t, hi_t = box
         if all(v is None for v in box):
             return
