@@ -170,7 +170,8 @@ class WatchScreen(Screen[None]):
             self._act("reset", self.selected)
 
     def _replay(self) -> Any:
-        snap = self.last
+        # a fresh snapshot: two quick keys must not act on a position one frame old
+        snap = self.feed.snapshot() or self.last
         if snap is None or snap.live or snap.replay is None:
             self._say("live source: replay keys do nothing")
             return None
