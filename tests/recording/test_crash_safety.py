@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 import zmq
 
-from conftest import REGIME, ROOT, env, wait_for
+from recording_helpers import REGIME, ROOT, env, wait_for
 
 FLUSH = 0.2           # the recorder's default flush interval (s)
 # slack beyond the flush interval for the ZeroMQ hop and the pipeline on a shared, loaded machine

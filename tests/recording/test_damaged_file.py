@@ -13,7 +13,7 @@ from adapters.csv_file import CsvSource
 from monitor.config import load_config
 from monitor.recording import Recorder, RecordingOptions
 
-from conftest import REGIME, ROOT, env, frame
+from recording_helpers import REGIME, ROOT, env, frame
 
 
 def _recording(tmp_path: Path, n: int = 500) -> Path:

@@ -12,7 +12,7 @@ import pytest
 from monitor.config import load_config
 from monitor.recording.csvformat import read_info
 
-from conftest import REGIME, ROOT, env
+from recording_helpers import REGIME, ROOT, env
 
 DATA = ROOT / "replay_data"
 SHOTS = {"argon_rf_excursion": "argon_rf_envelope.toml", "helium_microwave_cutoff": "helium_microwave_envelope.toml"}

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from conftest import ROOT, env
+from recording_helpers import ROOT, env
 
 SCRIPT = r"""
 import json, resource, signal, sys

@@ -11,7 +11,7 @@ import pytest
 
 from monitor.report import build_report
 
-from conftest import REGIME, ROOT, env
+from recording_helpers import REGIME, ROOT, env
 
 MAP = """
 [channels]

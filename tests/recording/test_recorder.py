@@ -14,7 +14,7 @@ from monitor.config import load_config
 from monitor.recording import Recorder, RecordingOptions, parse_recording
 from monitor.recording.csvformat import read_info
 
-from conftest import data_rows, frame
+from recording_helpers import data_rows, frame
 
 
 def _record(tmp_path: Path, config_path: Path | None = None, **opts: object) -> tuple[Recorder, Path]:

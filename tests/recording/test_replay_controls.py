@@ -77,7 +77,7 @@ def test_progress_goes_to_stderr_not_into_the_json(tmp_path: Path) -> None:
     import json
     import subprocess
 
-    from conftest import REGIME, ROOT, env
+    from recording_helpers import REGIME, ROOT, env
 
     p = tmp_path / "slow.csv"
     p.write_text("t,ne,Te\n" + "".join(f"{i * 0.05!r},5e16,3.0\n" for i in range(70)))     # 3.45 s of data

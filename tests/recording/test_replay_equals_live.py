@@ -10,7 +10,7 @@ import numpy as np
 
 from monitor.recording.csvformat import read_info
 
-from conftest import REGIME, ROOT, data_rows, env
+from recording_helpers import REGIME, ROOT, data_rows, env
 
 
 def _alarms(lines: list[str]) -> list[tuple[str, str, float]]:

@@ -7,7 +7,7 @@ import time
 from monitor.recording.replaying import open_file
 from monitor.session import Session, make_engine
 
-from conftest import ROOT
+from recording_helpers import ROOT
 
 
 async def test_pause_and_seek_keys_drive_the_replay() -> None:

@@ -13,7 +13,7 @@ import pytest
 from monitor.report import build_report, to_json, to_markdown
 from monitor.report.summary import limit_summary, sample_durations
 
-from conftest import REGIME, ROOT, env
+from recording_helpers import REGIME, ROOT, env
 
 CONFIG = """
 [device]

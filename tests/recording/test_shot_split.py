@@ -10,7 +10,7 @@ from monitor.config import load_config
 from monitor.recording import Recorder, RecordingOptions
 from monitor.recording.shots import Action, ShotSplitter, discharge_state
 
-from conftest import data_rows, frame
+from recording_helpers import data_rows, frame
 
 ON, OFF = 1e17, 1e13
 
