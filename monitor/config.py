@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import importlib
-import importlib.util
 import math
 import tomllib
 from dataclasses import dataclass, field
@@ -127,13 +125,12 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
     if not isinstance(limits_raw, list) or not all(isinstance(x, Mapping) for x in limits_raw):
         raise ConfigError(path, "limit", "expected [[limit]] tables")
     limits: tuple[Any, ...] = ()
-    envelope = _optional_module("monitor.alarms.envelope")
-    alarms = None
-    if envelope is not None:
-        limits = tuple(envelope.parse_limits(list(limits_raw), path))
-        alarms = envelope.parse_alarm_options(dict(raw.get("alarms", {})), path)
-    options = _optional_module("monitor.recording.options")
-    recording = options.parse_recording(dict(raw.get("recording", {})), path) if options is not None else None
+    from monitor.alarms.envelope import parse_alarm_options, parse_limits
+    from monitor.recording.options import parse_recording
+
+    limits = tuple(parse_limits(list(limits_raw), path))
+    alarms = parse_alarm_options(dict(raw.get("alarms", {})), path)
+    recording = parse_recording(dict(raw.get("recording", {})), path)
     pipeline = _parse_pipeline(raw.get("pipeline", {}), path)
     return Config(
         path=str(path) if path is not None else None,
@@ -143,17 +140,6 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
         curve_server_key=curve["curve_server_key"], curve_client_key=curve["curve_client_key"],
         allow_remote=allow_remote, raw=dict(raw),
     )
-
-
-def _optional_module(name: str) -> Any:
-    """The module if it is installed (its own errors propagate), else None."""
-    try:
-        spec = importlib.util.find_spec(name)
-    except ModuleNotFoundError:
-        return None
-    if spec is None:
-        return None
-    return importlib.import_module(name)
 
 
 def _only(table: Mapping[str, Any], allowed: set[str], where: str, path: str | Path | None) -> None:

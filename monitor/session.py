@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import collections
-import importlib
-import importlib.util
 import math
 import sys
 import threading
@@ -31,16 +29,11 @@ _ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledg
 _OPEN_BACKOFF = (0.2, 0.5, 1.0, 2.0, 5.0)
 
 
-def make_engine(config: Config) -> Any | None:
-    """The alarm engine for ``config`` if the alarm package is installed, else None."""
-    try:
-        spec = importlib.util.find_spec("monitor.alarms.engine")
-    except ModuleNotFoundError:
-        return None
-    if spec is None:
-        return None
-    module = importlib.import_module("monitor.alarms.engine")
-    return module.AlarmEngine.from_config(config)
+def make_engine(config: Config) -> Any:
+    """The alarm engine for ``config`` (imported here, so that a session without alarms stays light)."""
+    from monitor.alarms.engine import AlarmEngine
+
+    return AlarmEngine.from_config(config)
 
 
 class _LazyStats(Mapping[str, Stats]):

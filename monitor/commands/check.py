@@ -5,7 +5,6 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from pathlib import Path
 from typing import Any
 
 
@@ -15,26 +14,11 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 
 def _load(path: str) -> tuple[tuple[Any, ...], Any, dict[str, Any]]:
-    """(limits, alarm options, facts) via the full config loader, or the envelope parser alone."""
-    try:
-        from monitor.config import load_config
-    except ImportError:
-        load_config = None
-    if load_config is not None:
-        cfg = load_config(path)
-        return tuple(cfg.limits), cfg.alarms, {"on_above": cfg.on_above, "stale_after": cfg.stale_after}
-    import tomllib
+    """(limits, alarm options, facts) through the full config loader."""
+    from monitor.config import load_config
 
-    from monitor.alarms.envelope import parse_alarm_options, parse_limits
-    from monitor.errors import ConfigError
-
-    try:
-        raw = tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise ConfigError(path, "(file)", f"cannot read: {exc}") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise ConfigError(path, "(syntax)", f"not valid TOML: {exc}") from None
-    return parse_limits(raw.get("limit", []), path), parse_alarm_options(raw.get("alarms"), path), {}
+    cfg = load_config(path)
+    return tuple(cfg.limits), cfg.alarms, {"on_above": cfg.on_above, "stale_after": cfg.stale_after}
 
 
 def _describe(lim: Any) -> str:

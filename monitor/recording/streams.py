@@ -6,9 +6,8 @@ import datetime as _dt
 from pathlib import Path
 from typing import Any, Callable
 
-from monitor.alarms.events import AlarmEvent
 from monitor.recording.csvformat import RowFormatter
-from monitor.recording.files import LineFile, json_line
+from monitor.recording.files import LineFile
 
 __all__ = ["Stream", "utc_stamp", "limit_text", "journal_factory"]
 
@@ -57,22 +56,7 @@ class Stream:
             close()
 
 
-class _OwnJournal:
-    """JSON Lines journal of alarm events, used when monitor.alarms.journal is not available."""
-
-    def __init__(self, path: Path) -> None:
-        self.file = LineFile(path)
-
-    def on_alarm(self, event: AlarmEvent) -> None:
-        self.file.write(json_line(event.to_json()))
-
-    def close(self) -> None:
-        self.file.close()
-
-
 def journal_factory() -> Callable[[Path], Any]:
-    try:
-        from monitor.alarms.journal import JournalSink  # type: ignore[import-not-found]
-    except ImportError:
-        return _OwnJournal
+    from monitor.alarms.journal import JournalSink
+
     return lambda path: JournalSink(path)

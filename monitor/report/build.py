@@ -101,11 +101,9 @@ class Report:
 
 
 def engine_for(config: Any) -> Any:
-    """The alarm engine of the config, or None when the alarm package is not installed."""
-    try:
-        from monitor.alarms.engine import AlarmEngine
-    except ImportError:
-        return None
+    """The alarm engine of the config."""
+    from monitor.alarms.engine import AlarmEngine
+
     return AlarmEngine.from_config(config)
 
 
@@ -140,10 +138,8 @@ def _read_jsonl(path: Path, kind: str) -> list[dict[str, Any]]:
 
 
 def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str, Any]]:
-    try:
-        from monitor.criteria import evaluate
-    except ImportError:
-        return []
+    from monitor.criteria import evaluate
+
     medians: dict[str, float] = {}
     for name, v in values.items():
         sel = v[on & np.isfinite(v)] if len(v) == len(on) else v[np.isfinite(v)]
