@@ -24,7 +24,7 @@ DIMENSIONS: dict[str, tuple[str, dict[str, float]]] = {
     "length": ("m", {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6}),
     "frequency": ("Hz", {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6, "GHz": 1e9}),
     "area": ("m^2", {"m^2": 1.0, "m2": 1.0, "cm^2": 1e-4, "cm2": 1e-4}),
-    "time": ("s", {"s": 1.0, "ms": 1e-3, "us": 1e-6, "min": 60.0}),
+    "time": ("s", {"s": 1.0, "ms": 1e-3, "us": 1e-6, "min": 60.0, "h": 3600.0}),
     "mass": ("u", {"u": 1.0, "amu": 1.0}),
     "dimensionless": ("1", {"1": 1.0, "": 1.0}),
 }

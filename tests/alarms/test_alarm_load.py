@@ -14,6 +14,9 @@ def _activation(t: float, alarm: str = "a") -> AlarmEvent:
                       quantity=None, value=None, limit=None, priority=Priority.HIGH)
 
 
+# The thresholds (a flood is more than 10 alarms in 10 minutes per operator, over below 5; chattering
+# is 3 or more activations of one alarm within 60 s) are the figures of ANSI/ISA-18.2 and its
+# technical report on alarm-system monitoring, as the project's issue states them (from memory).
 def test_flood_starts_above_ten_in_ten_minutes_and_ends_below_five() -> None:
     load = LoadTracker()
     load.record([_activation(10.0 * i, f"a{i}") for i in range(10)])      # 10 in 90 s: not yet a flood

@@ -45,6 +45,7 @@ def test_the_documented_example_parses() -> None:
     assert lim.priority is Priority.HIGH and lim.description.startswith("sheath")
 
 
+# unit factors are common practice: 1 G = 1e-4 T, 1 Torr = 101325/760 Pa, 1 eV = 11604.5 K
 @pytest.mark.parametrize("quantity, raw, canonical", [
     ("debye_length", "40um", 40e-6), ("debye_length", "0.004 cm", 4e-5),
     ("ne", "5e16 cm^-3", 5e22), ("ne", 1e17, 1e17), ("Te", "500 meV", 0.5), ("Te", "11604.5 K", 1.0000),
@@ -108,6 +109,7 @@ def test_structural_errors() -> None:
 
 def test_alarm_options_and_their_errors() -> None:
     d = parse_alarm_options(None, "e.toml")
+    # defaults: the flood and chattering figures of ANSI/ISA-18.2 as the project's issue states them (from memory)
     assert (d.flood_count, d.flood_clear, d.flood_window, d.chatter_count, d.chatter_window) == (10, 5, 600.0, 3, 60.0)
     o = parse_alarm_options({"max_shelve": "30 min", "stale_priority": "urgent", "bell": True,
                              "hooks": {"urgent": {"command": ["notify", "{alarm}"], "timeout": "2s"}}}, "e.toml")
@@ -138,3 +140,8 @@ def test_regime_check_exits_2_naming_file_and_key(tmp_path: Path, capsys) -> Non
     path.write_text("[[limit]\n")
     assert main(["check", str(path)]) == 2
     assert "not valid TOML" in capsys.readouterr().err
+
+
+def test_durations_accept_hours() -> None:
+    # 1 h = 3600 s (SI brochure, common practice)
+    assert parse_alarm_options({"max_shelve": "1 h"}, "e.toml").max_shelve == 3600.0

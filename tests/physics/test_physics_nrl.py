@@ -85,7 +85,7 @@ def test_coulomb_logarithm_both_branches() -> None:
     te = np.array([2.0, 50.0, 9.0, 1e3])
     expected = np.where(te < 10.0, 23.0 - np.log(np.sqrt(ne_cm) * te**-1.5), 24.0 - np.log(np.sqrt(ne_cm) / te))
     np.testing.assert_allclose(collisions.coulomb_logarithm(ne_cm * 1e6, te), expected, rtol=1e-12)
-    # the printed example: ne = 1e10 cm^-3, Te = 2 eV gives 12.53 (worked by hand from the formula)
+    # ne = 1e10 cm^-3, Te = 2 eV: 23 - ln(1e5 * 2^-1.5) = 12.527, worked by hand from the NRL formula
     assert float(collisions.coulomb_logarithm(1e16, 2.0)) == pytest.approx(12.527, abs=2e-3)
     # Z = 3: the branch moves to 90 eV and ln Z enters below it
     z = 3.0

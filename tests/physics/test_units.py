@@ -12,6 +12,8 @@ from hypothesis import strategies as st
 from monitor.errors import UsageError
 from monitor.units import DIMENSIONS, UnitError, parse_value, unit_scale
 
+# unit factors are common practice (SI brochure definitions): 1 G = 1e-4 T, 1 mbar = 100 Pa,
+# 1 /cc = 1 cm^-3 = 1e6 m^-3, 1 Torr = 101325/760 Pa
 CASES = [
     ("5e16m^-3", "density", 5e16), ("5e16m-3", "density", 5e16), ("5e10cm^-3", "density", 5e16),
     ("5e10cm-3", "density", 5e16), ("5e10/cc", "density", 5e16), ("5e16", "density", 5e16),
