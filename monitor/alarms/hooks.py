@@ -9,12 +9,10 @@ import threading
 from dataclasses import dataclass
 from typing import Mapping
 
-from adapters.base import SourceStatus
-from adapters.batch import Rejection
 from monitor.alarms.envelope import HookSpec
 from monitor.alarms.events import AlarmEvent, Priority
 from monitor.alarms.journal import event_line
-from monitor.model import Frame
+from monitor.sinks import AlarmOnlySink
 
 __all__ = ["HookResult", "HookRunner", "expand", "hook_sink"]
 
@@ -41,7 +39,7 @@ class HookResult:
     error: str = ""
 
 
-class HookRunner:
+class HookRunner(AlarmOnlySink):
     """A Sink that queues matching events to one worker thread; ``on_alarm`` never waits for a command.
 
     The event's JSON line is given on the command's standard input. A hook
@@ -57,15 +55,6 @@ class HookRunner:
         self._queue: queue.Queue[tuple[HookSpec, AlarmEvent] | None] = queue.Queue(maxsize=max_queue)
         self._done = threading.Condition()
         self._thread: threading.Thread | None = None
-
-    def on_frame(self, frame: Frame) -> None:
-        pass
-
-    def on_rejections(self, rejections: list[Rejection]) -> None:
-        pass
-
-    def on_status(self, status: SourceStatus) -> None:
-        pass
 
     def on_alarm(self, event: AlarmEvent) -> None:
         spec = self.hooks.get(event.priority)

@@ -7,10 +7,8 @@ import threading
 from pathlib import Path
 from typing import Any, IO
 
-from adapters.base import SourceStatus
-from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent
-from monitor.model import Frame
+from monitor.sinks import AlarmOnlySink
 
 __all__ = ["JournalSink", "event_line", "read_journal"]
 
@@ -35,7 +33,7 @@ def read_journal(path: str | Path) -> list[dict[str, Any]]:
     return out
 
 
-class JournalSink:
+class JournalSink(AlarmOnlySink):
     """A Sink that appends AlarmEvent.to_json() lines to ``path``.
 
     It never raises for its own I/O trouble: a failed write is counted in
@@ -51,15 +49,6 @@ class JournalSink:
         self._fh: IO[str] | None = None
         self.path.parent.mkdir(parents=True, exist_ok=True)
         self._fh = open(self.path, "a" if append else "w", encoding="utf-8")
-
-    def on_frame(self, frame: Frame) -> None:
-        pass
-
-    def on_rejections(self, rejections: list[Rejection]) -> None:
-        pass
-
-    def on_status(self, status: SourceStatus) -> None:
-        pass
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:

@@ -4,14 +4,11 @@ from __future__ import annotations
 
 import threading
 from typing import Any
-from urllib.parse import urlsplit
 
-from adapters.base import SourceStatus
-from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent
 from monitor.alarms.journal import event_line
 from monitor.errors import UsageError
-from monitor.model import Frame
+from monitor.sinks import AlarmOnlySink
 
 __all__ = ["AlarmPublisher", "DEFAULT_ENDPOINT", "normalise_endpoint"]
 
@@ -37,7 +34,7 @@ def normalise_endpoint(endpoint: str | None, *, allow_remote: bool = False) -> s
     return ep
 
 
-class AlarmPublisher:
+class AlarmPublisher(AlarmOnlySink):
     """A Sink publishing each event as one UTF-8 JSON frame (``{"type": "alarm", ...}``).
 
     Sending never blocks: when the send queue is full the event is dropped
@@ -65,15 +62,6 @@ class AlarmPublisher:
         self.dropped = 0
         self._lock = threading.Lock()
         self._closed = False
-
-    def on_frame(self, frame: Frame) -> None:
-        pass
-
-    def on_rejections(self, rejections: list[Rejection]) -> None:
-        pass
-
-    def on_status(self, status: SourceStatus) -> None:
-        pass
 
     def on_alarm(self, event: AlarmEvent) -> None:
         data = event_line(event).encode("utf-8")
