@@ -18,7 +18,7 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="no screen: print status lines and alarm events (for automation)")
     parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
     parser.add_argument("--duration", type=float, default=None, metavar="S",
-                        help="stop after S wall seconds (default: the screen runs until q; headless runs one loop)")
+                        help="stop after S wall seconds, on the screen too (default: the screen runs until q; headless runs one loop)")
     parser.add_argument("--speed", default="1", metavar="X|max",
                         help="simulation speed: 1 is real time, max as fast as possible (default 1)")
     parser.add_argument("--seed", type=int, default=0, help="noise seed of the simulated discharge (default 0)")
@@ -58,7 +58,8 @@ def run(args: argparse.Namespace) -> int:
 
     tap = EventTap()
     session = Session(source, config, sinks=[tap], engine=make_engine(config), live=True)
-    settings = settings_for(config, title="regime demo", bell=False if args.no_bell else None, units=args.units)
+    settings = settings_for(config, title="regime demo", bell=False if args.no_bell else None, units=args.units,
+                            quit_after=args.duration)
     return run_screen(session, tap, settings)
 
 

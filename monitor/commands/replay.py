@@ -129,12 +129,14 @@ def _screen(session: Any, args: argparse.Namespace) -> int:
     try:
         from monitor.tui.app import RegimeApp
         from monitor.tui.feed import EventTap, SessionFeed
+        from monitor.tui.launch import settings_for
     except ImportError as exc:
         print(f"regime replay: the screen cannot start ({exc}); use --headless", file=sys.stderr)
         return EXIT_USAGE
     tap = EventTap()
     session.add_sink(tap)
-    app = RegimeApp(SessionFeed(session, tap))
+    # device guides and envelope box from the config, as `regime watch` does
+    app = RegimeApp(SessionFeed(session, tap), settings_for(session.config, title=f"regime replay {session.name}"))
     session.open()
     try:
         app.run()

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import threading
-from typing import Iterable
+from typing import Any, Iterable
 
 from textual.app import App, SystemCommand
 from textual.binding import Binding
@@ -22,7 +22,8 @@ __all__ = ["RegimeApp"]
 
 
 class RegimeApp(App[None]):
-    """The operator's screen. ``ticks`` counts rendered snapshots (the benchmark reads it), ``bells`` the bells rung."""
+    """The operator's screen. ``ticks`` counts rendered snapshots (the benchmark reads it), ``bells`` the bells rung,
+    ``said`` every message shown to the operator (newest last)."""
 
     CSS_PATH = "regime.tcss"
     TITLE = "regime"
@@ -40,6 +41,7 @@ class RegimeApp(App[None]):
         self.stop = threading.Event()
         self.ticks = 0
         self.bells = 0
+        self.said: list[str] = []
         self._run_pipeline = run_pipeline
         self.watch = WatchScreen(feed, self.settings)
 
@@ -50,6 +52,8 @@ class RegimeApp(App[None]):
             self.run_worker(lambda: self.feed.run(self.stop), thread=True, name="pipeline", exit_on_error=False)
         self.set_interval(1.0 / max(1.0, min(20.0, self.settings.refresh_hz)), self.render_tick)
         self.render_tick()
+        if self.settings.quit_after is not None:
+            self.set_timer(max(0.0, self.settings.quit_after), lambda: self._quit(True))
 
     def on_unmount(self) -> None:
         self.stop.set()
@@ -67,6 +71,11 @@ class RegimeApp(App[None]):
     def bell(self) -> None:
         self.bells += 1
         super().bell()
+
+    def notify(self, message: str, *args: Any, **kwargs: Any) -> None:
+        """Show a message to the operator, and keep it in ``said``."""
+        self.said.append(str(message))
+        super().notify(message, *args, **kwargs)
 
     def action_request_quit(self) -> None:
         recording = self.watch.last.recording if self.watch.last is not None else None

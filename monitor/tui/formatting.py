@@ -6,11 +6,11 @@ import math
 import time
 from dataclasses import dataclass
 
+from monitor.physics.constants import EV_IN_K
+
 __all__ = ["UNIT_SYSTEMS", "Shown", "show", "fmt_number", "fmt_value", "fmt_duration", "fmt_age", "fmt_data_time"]
 
-# Boltzmann constant over elementary charge (CODATA 2018, exact by the SI
-# definitions): one electronvolt of temperature is e/k = 11604.518... K.
-_K_PER_EV = 1.602176634e-19 / 1.380649e-23
+# One electronvolt of temperature is e/k = 11604.518... K (monitor.physics.constants.EV_IN_K).
 # One torr is 101325/760 Pa (definition).
 _PA_PER_MTORR = 101325.0 / 760.0 * 1e-3
 
@@ -51,7 +51,7 @@ def show(unit: str, value: float, system: str, *, key: str = "") -> Shown:
     if unit == "m^-3":
         return Shown(1e-6, "cm⁻³") if practical else Shown(1.0, "m⁻³")
     if unit == "eV":
-        return Shown(1.0, "eV") if practical else Shown(_K_PER_EV, "K")
+        return Shown(1.0, "eV") if practical else Shown(EV_IN_K, "K")
     if unit == "T":
         return Shown(1e4, "G") if practical else Shown(1.0, "T")
     if unit == "Pa":

@@ -12,13 +12,14 @@ __all__ = ["settings_for", "make_app", "run_screen"]
 
 
 def settings_for(config: Any, *, title: str = "regime", bell: bool | None = None, units: str = "practical",
-                 clock: Callable[[], float] = time.time) -> ScreenSettings:
+                 clock: Callable[[], float] = time.time, quit_after: float | None = None) -> ScreenSettings:
     """Screen settings from a monitor.config.Config (device guides, envelope box, bell, staleness)."""
     device = config.device
     alarm_bell = getattr(config.alarms, "bell", True) if config.alarms is not None else True
     return ScreenSettings(title=title, length=device.length, wave_frequency=device.wave_frequency,
                           box=envelope_box(config.limits), units=units,
-                          bell=alarm_bell if bell is None else bell, stale_after=config.stale_after, clock=clock)
+                          bell=alarm_bell if bell is None else bell, stale_after=config.stale_after, clock=clock,
+                          quit_after=quit_after)
 
 
 def make_app(session: Any, tap: EventTap, settings: ScreenSettings) -> Any:

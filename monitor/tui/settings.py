@@ -17,7 +17,8 @@ class ScreenSettings:
 
     ``clock`` gives wall time (ages of readings, the flashing phase); tests
     inject a fixed one so SVG snapshots are stable. ``refresh_hz`` is the
-    bounded render rate (10-20 Hz).
+    bounded render rate (10-20 Hz). ``quit_after`` (wall seconds, None: never)
+    makes the screen quit by itself (``regime demo --duration``, automation).
     """
 
     title: str = "regime"
@@ -31,6 +32,7 @@ class ScreenSettings:
     clock: Callable[[], float] = field(default=time.time)
     seek_step: float = 5.0
     stale_after: float = 2.0
+    quit_after: float | None = None
 
 
 def envelope_box(limits: Any) -> Box:

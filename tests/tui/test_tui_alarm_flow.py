@@ -8,7 +8,7 @@ from monitor.tui.launch import settings_for
 from monitor.tui.widgets.alarm_list import UNACKED, AlarmList
 from monitor.tui.widgets.status_strip import StatusStrip
 
-from conftest import SessionFeed, demo_session, state_of, text_of, wait_for
+from tui_helpers import SessionFeed, demo_session, state_of, text_of, wait_for
 
 
 async def test_demo_excursion_raises_and_operator_acknowledges() -> None:

@@ -18,9 +18,10 @@ from monitor.tui.widgets.alarm_list import UNACKED, AlarmList
 from monitor.tui.widgets.playback import PlaybackBar
 from monitor.tui.widgets.readings import Readings
 
-from conftest import EventTap, SessionFeed, demo_config, demo_session, state_of, step_until, text_of, wait_for
+from tui_helpers import EventTap, SessionFeed, demo_config, demo_session, state_of, step_until, text_of, wait_for
 
 SIZE = (100, 30)
+LOADED = 90.0       # s: a deadline for a busy machine; the wait ends as soon as its condition holds
 
 
 def _plain(renderable) -> str:
@@ -158,10 +159,12 @@ async def test_pause_step_seek_speed(replay) -> None:
         here = pos().time
         await pilot.press("left_square_bracket")
         await wait_for(pilot, lambda: pos().time <= here - 4.9)
+        # generous deadlines (the pilot can be slow under load); each step waits on the actual state
         await pilot.press("plus")
-        await wait_for(pilot, lambda: pos().speed == 2.0)
+        await wait_for(pilot, lambda: pos().speed == 2.0, timeout=LOADED)
+        await wait_for(pilot, lambda: "×2" in text_of(app.watch.query_one(PlaybackBar)), timeout=LOADED)
         await pilot.press("minus")
-        await wait_for(pilot, lambda: pos().speed == 1.0)
+        await wait_for(pilot, lambda: pos().speed == 1.0, timeout=LOADED)
         await pilot.press("space")
         await wait_for(pilot, lambda: not pos().paused)
 
@@ -171,7 +174,7 @@ async def test_replay_keys_on_a_live_source_say_so(raised) -> None:
     app = _app(session, tap)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("space")
-        await wait_for(pilot, lambda: any("live source" in str(n.message) for n in app._notifications))
+        await wait_for(pilot, lambda: any("live source" in m for m in app.said))
         assert "LIVE" in text_of(app.watch.query_one(PlaybackBar))
 
 
@@ -218,7 +221,8 @@ async def test_quit_without_recording_exits(raised) -> None:
     app = _app(session, tap)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("q")
-        await wait_for(pilot, lambda: app._exit)
+        await wait_for(pilot, lambda: app.return_code is not None)   # set by App.exit()
+    assert app.return_code == 0
     assert app.stop.is_set()
 
 
@@ -236,11 +240,11 @@ async def test_quit_while_recording_asks_first(tmp_path) -> None:
             await wait_for(pilot, lambda: isinstance(app.screen, ConfirmQuit))
             await pilot.press("n")
             await wait_for(pilot, lambda: isinstance(app.screen, WatchScreen))
-            assert not app._exit
+            assert app.return_code is None                      # not exited
             await pilot.press("q")
             await wait_for(pilot, lambda: isinstance(app.screen, ConfirmQuit))
             await pilot.press("y")
-            await wait_for(pilot, lambda: app._exit)
+            await wait_for(pilot, lambda: app.return_code is not None)
     finally:
         session.close()
 

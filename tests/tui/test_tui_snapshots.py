@@ -6,7 +6,7 @@ from monitor.alarms.events import AlarmState, Priority
 from monitor.tui.app import RegimeApp
 from monitor.tui.feed import FixedFeed
 
-from conftest import alarm, built_snapshot
+from tui_helpers import alarm, built_snapshot
 
 ALARMS = (
     alarm(),

@@ -14,7 +14,7 @@ from monitor.tui.feed import EventTap, SessionFeed
 from monitor.tui.launch import settings_for
 from monitor.tui.widgets.sources import SourcesPanel
 
-from conftest import demo_config, text_of, wait_for
+from tui_helpers import demo_config, text_of, wait_for
 
 
 class MovableClock:

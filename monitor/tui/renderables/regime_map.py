@@ -10,16 +10,13 @@ import numpy as np
 from rich.console import Console, ConsoleOptions, RenderResult
 from rich.segment import Segment
 
+from monitor.physics import densities
+from monitor.physics.constants import ELEMENTARY_CHARGE, EPSILON_0, EV_IN_K
 from monitor.tui import palette
 from monitor.tui.renderables.braille import BrailleCanvas
 
 __all__ = ["MapData", "RegimeMap", "density_at_debye_length", "density_at_debye_number", "cutoff_density", "axis_range"]
 
-# CODATA 2018 values (scipy.constants gives the same; checked in tests/tui).
-_EPS0 = 8.8541878128e-12       # F/m
-_E = 1.602176634e-19           # C (exact)
-_ME = 9.1093837015e-31         # kg
-_K_PER_EV = _E / 1.380649e-23
 
 # layers, lowest first
 _L_AXIS, _L_ND, _L_DEBYE, _L_CUT, _L_BOX, _L_TRAIL, _L_LABEL, _L_POINT = range(8)
@@ -27,18 +24,18 @@ _L_AXIS, _L_ND, _L_DEBYE, _L_CUT, _L_BOX, _L_TRAIL, _L_LABEL, _L_POINT = range(8
 
 def density_at_debye_length(te_ev: np.ndarray, length: float) -> np.ndarray:
     """n_e (m^-3) at which lambda_D = sqrt(eps0 Te / (e n_e)) equals ``length``: n_e = eps0 Te / (e L^2)."""
-    return _EPS0 * np.asarray(te_ev, dtype=np.float64) / (_E * length * length)
+    return EPSILON_0 * np.asarray(te_ev, dtype=np.float64) / (ELEMENTARY_CHARGE * length * length)
 
 
 def density_at_debye_number(te_ev: np.ndarray, n_d: float) -> np.ndarray:
     """n_e (m^-3) at which N_D = (4/3) pi n_e lambda_D^3 equals ``n_d``: n_e = ((4/3) pi (eps0 Te/e)^1.5 / N_D)^2."""
     te = np.asarray(te_ev, dtype=np.float64)
-    return ((4.0 / 3.0) * math.pi * (_EPS0 * te / _E) ** 1.5 / n_d) ** 2
+    return ((4.0 / 3.0) * math.pi * (EPSILON_0 * te / ELEMENTARY_CHARGE) ** 1.5 / n_d) ** 2
 
 
 def cutoff_density(frequency_hz: float) -> float:
-    """Critical density n_c = eps0 m_e (2 pi f)^2 / e^2 (m^-3) of a wave of ordinary frequency f."""
-    return _EPS0 * _ME * (2.0 * math.pi * frequency_hz) ** 2 / (_E * _E)
+    """Critical density n_c (m^-3) of a wave of ordinary frequency f: monitor.physics.densities.cutoff_density."""
+    return float(densities.cutoff_density(frequency_hz))
 
 
 @dataclass(frozen=True, eq=False)
@@ -195,7 +192,7 @@ class RegimeMap:
             if practical:
                 label_rows[r] = _decade_label(e)
             else:
-                label_rows[r] = f"{10.0 ** e * _K_PER_EV:.1e}".replace("e+0", "e").replace("e+", "e")
+                label_rows[r] = f"{10.0 ** e * EV_IN_K:.1e}".replace("e+0", "e").replace("e+", "e")
         unit = "eV" if practical else "K"
         for r, row in enumerate(rows):
             lab = label_rows.get(r, "")

@@ -53,8 +53,11 @@ class JournalScreen(Screen[None]):
         self.show(None, 0.0)
 
     def show(self, snapshot: Snapshot | None, now: float) -> None:
+        found = self.query(RichLog)
+        if not found:          # pushed but not composed yet: the events wait for the next tick
+            return
+        log = found.first()
         events, total = self.tap.newer_than(self._shown)
-        log = self.query_one(RichLog)
         if events and self._shown == 0:
             log.clear()
         for e in events:
