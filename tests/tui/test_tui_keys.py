@@ -75,7 +75,8 @@ async def test_acknowledge_all(raised) -> None:
         assert any(v.state in UNACKED for v in session.snapshot().alarms)
         await pilot.press("A")
         await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))
-        assert "to acknowledge" not in text_of(app.watch.query_one("#strip"))
+        # the strip redraws on the next render tick: wait for it rather than assume it has happened
+        await wait_for(pilot, lambda: "to acknowledge" not in text_of(app.watch.query_one("#strip")))
 
 
 async def test_shelve_then_unshelve(raised) -> None:
