@@ -22,6 +22,9 @@ temperature = st.floats(0.01, 1e4)      # times factor stays under the 1e7 eV li
 factor = st.floats(0.01, 100.0)
 
 
+# The scaling laws checked here are those of the NRL Plasma Formulary's practical formulas:
+# lambda_D = 7.43e2 Te^1/2 ne^-1/2 cm, omega_pe = 5.64e4 ne^1/2 rad/s, omega_ce = 1.76e7 B rad/s,
+# r_e = 2.38 Te^1/2 / B cm.
 @given(ne=density, te=temperature, k=factor)
 def test_debye_length_scales_as_sqrt_t_over_n(ne: float, te: float, k: float) -> None:
     base = derive({"ne": ne, "Te": te}, DEVICE).values["debye_length"][0]

@@ -11,6 +11,9 @@ import pytest
 from monitor.model import Device
 from monitor.physics import derive
 
+# The references here are published methods, not numbers: the first-order law of propagation of
+# uncertainty of the GUM (JCGM 100:2008, clause 5.1.2), evaluated with a central-difference Jacobian,
+# and the Monte Carlo propagation of distributions of GUM Supplement 1 (JCGM 101:2008).
 DEVICE = Device(length=0.3, wave_frequency=2.45e9)
 DEVICE_KEYS = {"L": "length", "f": "wave_frequency", "Tgas": "gas_temperature", "sigma_en": "sigma_en"}
 CASES = {

@@ -1,4 +1,8 @@
-"""Session: source -> pipeline -> alarm engine -> sinks, snapshots from another thread, source failure policy."""
+"""Session: source -> pipeline -> alarm engine -> sinks, snapshots from another thread, source failure policy.
+
+Every number compared here is the test's own input (counts, times, a constant density); no outside
+physical value is checked in this module.
+"""
 
 from __future__ import annotations
 
