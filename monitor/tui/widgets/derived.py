@@ -4,21 +4,19 @@ from __future__ import annotations
 
 from rich.text import Text
 from textual.app import RenderResult
-from textual.reactive import reactive
-from textual.widget import Widget
 
 from monitor.quantities import DERIVED
-from monitor.snapshot import Snapshot
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_value
 from monitor.tui.renderables.grid import grid_text
+from monitor.tui.widgets.snapshot_view import SnapshotView
 
 __all__ = ["DerivedTable", "KIND_ORDER"]
 
 KIND_ORDER = ("lengths", "frequencies", "speeds", "collisions", "densities", "dimensionless")
 
 
-class DerivedTable(Widget):
+class DerivedTable(SnapshotView):
     """Every derived quantity in the snapshot, a heading per kind, value ± uncertainty."""
 
     DEFAULT_CSS = """
@@ -26,22 +24,6 @@ class DerivedTable(Widget):
         height: auto;
     }
     """
-
-    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
-    """The snapshot to show; None before the first one."""
-
-    units: reactive[str] = reactive("practical")
-    """``practical`` or ``SI``."""
-
-    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
-        super().__init__(name=name, id=id, classes=classes)
-        self._shape: object = None
-
-    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
-        shape = None if snapshot is None else tuple(sorted(snapshot.latest))
-        if shape != self._shape:
-            self._shape = shape
-            self.refresh(layout=True)
 
     def render(self) -> RenderResult:
         snap = self.snapshot

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 from rich.text import Text
 from textual.app import RenderResult
-from textual.reactive import reactive
-from textual.widget import Widget
 
 from monitor.quantities import BASE
 from monitor.snapshot import Snapshot
@@ -13,13 +11,14 @@ from monitor.tui import palette
 from monitor.tui.formatting import fmt_value
 from monitor.tui.renderables.grid import grid_text
 from monitor.tui.renderables.trend import trend_cells
+from monitor.tui.widgets.snapshot_view import SnapshotView
 
 __all__ = ["Readings"]
 
 _SHORT = {"ne": "density", "Te": "e temp", "Ti": "ion temp", "B": "field", "p0": "pressure"}
 
 
-class Readings(Widget):
+class Readings(SnapshotView):
     """One row per base quantity present in the snapshot."""
 
     DEFAULT_CSS = """
@@ -28,21 +27,8 @@ class Readings(Widget):
     }
     """
 
-    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
-    """The snapshot to show; None before the first one."""
-
-    units: reactive[str] = reactive("practical")
-    """``practical`` (cm^-3, eV, G, mTorr) or ``SI``."""
-
-    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
-        super().__init__(name=name, id=id, classes=classes)
-        self._shape: object = None
-
-    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
-        shape = None if snapshot is None else tuple(sorted(set(snapshot.latest) & {"ne", "Te", "Ti", "B", "p0"}))
-        if shape != self._shape:
-            self._shape = shape
-            self.refresh(layout=True)
+    def row_shape(self, snapshot: Snapshot | None) -> object:
+        return None if snapshot is None else tuple(sorted(set(snapshot.latest) & {"ne", "Te", "Ti", "B", "p0"}))
 
     def render(self) -> RenderResult:
         snap = self.snapshot
