@@ -275,6 +275,6 @@ async def test_derived_table_swaps_with_the_map_on_narrow_terminals(raised) -> N
         assert not box.display and the_map.display
         await pilot.press("d")
         await wait_for(pilot, lambda: box.display and not the_map.display)
-        assert "debye length" in text_of(app.watch.query_one("#derived"))
+        assert "λD" in text_of(app.watch.query_one("#derived"))
         await pilot.press("d")
         await wait_for(pilot, lambda: not box.display and the_map.display)

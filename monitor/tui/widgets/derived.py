@@ -5,7 +5,7 @@ from __future__ import annotations
 from rich.text import Text
 from textual.app import RenderResult
 
-from monitor.quantities import DERIVED
+from monitor.quantities import DERIVED, Quantity
 from monitor.tui import palette
 from monitor.tui.formatting import fmt_value
 from monitor.tui.renderables.grid import grid_text
@@ -14,6 +14,19 @@ from monitor.tui.widgets.snapshot_view import SnapshotView
 __all__ = ["DerivedTable", "KIND_ORDER"]
 
 KIND_ORDER = ("lengths", "frequencies", "speeds", "collisions", "densities", "dimensionless")
+
+# The trade's own symbols, for a narrow panel where the words would push the numbers off the edge.
+SYMBOL = {
+    "debye_length": "λD", "debye_number": "ND", "debye_ratio": "L/λD",
+    "electron_plasma_frequency": "ωpe", "ion_plasma_frequency": "ωpi",
+    "electron_most_probable_speed": "v mp", "electron_mean_speed": "v mean", "electron_rms_speed": "v rms",
+    "electron_thermal_speed": "v th", "coulomb_logarithm": "lnΛ",
+    "electron_ion_collision_frequency": "ν ei", "electron_neutral_collision_frequency": "ν en",
+    "electron_mean_free_path": "λ mfp", "knudsen_number": "Kn", "neutral_density": "n0",
+    "ionization_fraction": "ne/(ne+n0)", "collectivity": "ωpe/ν", "electron_cyclotron_frequency": "ωce",
+    "ion_cyclotron_frequency": "ωci", "electron_gyroradius": "r e", "ion_gyroradius": "r i",
+    "hall_parameter": "ωce/ν", "plasma_beta": "β", "cutoff_density": "n cutoff", "cutoff_ratio": "ne/n cutoff",
+}
 
 
 class DerivedTable(SnapshotView):
@@ -40,10 +53,19 @@ class DerivedTable(SnapshotView):
             for q in rows:
                 value, sigma = snap.latest[q.name]
                 number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
-                label = q.meaning if wide else q.name.replace("electron_", "e ").replace("_", " ")
+                label = _label(q, wide=wide, practical=self.units == "practical")
                 lines.append([Text(f"  {label}", style=palette.LABEL), Text(number, style=palette.NORMAL),
                              Text(unc, style=palette.DIM), Text(unit, style=palette.DIM)])
                 any_row = True
         if not any_row:
             return Text("no derived quantities yet", style=palette.DIM)
         return grid_text(lines, right=(1,), max_width=self.size.width or None)
+
+
+def _label(q: Quantity, *, wide: bool, practical: bool) -> str:
+    """The row's label. Practical units show an angular frequency as f = omega / 2 pi in Hz, so the
+    label says f rather than omega there."""
+    label = q.meaning if wide else SYMBOL.get(q.name, q.name)
+    if practical and q.unit == "rad/s":
+        label = label.replace("(angular)", "(f = ω/2π)") if wide else label.replace("ω", "f ", 1)
+    return label
