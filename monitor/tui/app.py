@@ -59,7 +59,13 @@ class RegimeApp(App[None]):
         self.stop.set()
 
     def render_tick(self) -> None:
-        """Render the latest snapshot (never more often than the bounded refresh rate)."""
+        """Render the latest snapshot (never more often than the bounded refresh rate).
+
+        A tick that fires while the app is shutting down (the screen stack already
+        emptied) does nothing: there is nothing left to draw on.
+        """
+        if not self.screen_stack:
+            return
         snapshot = self.feed.snapshot()
         now = self.settings.clock()
         self.watch.show(snapshot, now)

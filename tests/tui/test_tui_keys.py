@@ -278,3 +278,16 @@ async def test_derived_table_swaps_with_the_map_on_narrow_terminals(raised) -> N
         assert "λD" in text_of(app.watch.query_one("#derived"))
         await pilot.press("d")
         await wait_for(pilot, lambda: not box.display and the_map.display)
+
+
+async def test_a_render_tick_during_shutdown_draws_nothing_and_does_not_raise(raised) -> None:
+    # A refresh timer can fire after the app has emptied its screen stack on the way out
+    # (seen once in CI as ScreenStackError). Such a tick must be a no-op, not a crash.
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_for(pilot, lambda: app.ticks > 0)
+    assert app.screen_stack == []
+    ticks = app.ticks
+    app.render_tick()
+    assert app.ticks == ticks
