@@ -2,7 +2,8 @@
 
 Every scenario is an invented argon RF discharge in a 30 cm chamber. The
 levels below are the *noise-free targets*; the generator adds Gaussian noise
-(relative standard deviation: ne 2 %, Te 3 %, p0 0.5 %, B 0.2 %).
+and attaches to every sample the standard uncertainty its instrument would
+report (see "Instruments and their uncertainties" below).
 
 Common levels (all scenarios):
 
@@ -37,15 +38,47 @@ Scenario timelines (seconds from scenario start; ``end`` is its length):
 * ``demo`` (60 s, loops in the demo): off 0-2; ramp-up 2-8; steady 8-25;
   rise 25-28 (to 3.0e17 m^-3, 2.2 eV); hold 28-33; recovery 33-37; steady
   37-52; shutdown 52-56; off 56-60.
+
+Instruments and their uncertainties (``Scenario.instruments``; every
+scenario here uses ``PROBE_SET``). Each channel has two relative standard
+uncertainties: ``random``, the sample-to-sample scatter, which is exactly
+the Gaussian noise the generator adds; and ``calibration``, the systematic
+part (probe area and sheath model, gauge or sensor calibration) that is the
+same for every sample of a run. The generator does *not* realise the
+calibration part: the simulated instruments read the scenario levels without
+bias, as a perfectly calibrated instrument would, because a per-run offset
+would move the documented levels and the demo's envelope margins. Every
+sample carries ``sigma = |reading| * sqrt(random^2 + calibration^2)``, the
+combined standard uncertainty a real instrument would state (GUM-style
+quadrature sum, common practice). So the scatter of a steady run matches
+``random``; the stated sigma is larger, by design.
+
+=======  ================================  ======  ===========  ========
+channel  instrument                        random  calibration  sigma
+=======  ================================  ======  ===========  ========
+ne       Langmuir probe, ion saturation    2 %     20 %         20.1 %
+Te       Langmuir probe, I-V slope         3 %     10 %         10.4 %
+p0       capacitance diaphragm gauge       0.5 %   0.5 %        0.71 %
+B        Hall probe                        0.2 %   1 %          1.02 %
+=======  ================================  ======  ===========  ========
+
+Sources of the sizes: from memory, absolute densities from a single
+Langmuir probe are commonly quoted to 20-50 % (collection area, sheath
+expansion, the Bohm-flux coefficient) and its Te to 10-20 %; we take the low
+ends. From memory, capacitance diaphragm gauges are specified to 0.25-0.5 %
+of reading and calibrated Hall probes to about 1 % of reading. The random
+parts are the simulator's noise levels (kept from before sigma was added).
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 __all__ = [
     "NE_OFF", "NE_STEADY", "NE_EXCURSION", "TE_OFF", "TE_STEADY", "TE_EXCURSION", "P0", "B",
     "NOISE", "CHANNEL_RATES", "Phase", "Scenario", "SCENARIOS",
+    "Instrument", "Instruments", "PROBE_SET",
 ]
 
 NE_OFF = 2.0e14
@@ -56,9 +89,46 @@ TE_STEADY = 3.0
 TE_EXCURSION = 2.2
 P0 = 2.0
 B = 0.010
-NOISE = {"ne": 0.02, "Te": 0.03, "p0": 0.005, "B": 0.002}      # relative standard deviation
 CHANNEL_RATES = {"Te": 20.0, "B": 10.0, "p0": 5.0}             # Hz; ne runs at the generator's rate
 TE_GARBAGE = (-1.5, 0.0, 4.0e4)                                # eV, cycled while the probe misbehaves
+
+
+@dataclass(frozen=True)
+class Instrument:
+    """What one simulated instrument reports, as relative standard uncertainties of its reading."""
+
+    name: str
+    random: float          # sample-to-sample scatter: the noise the generator adds
+    calibration: float     # systematic, the same for a whole run; stated, not realised by the generator
+
+    @property
+    def sigma_rel(self) -> float:
+        """The combined relative standard uncertainty every sample carries (quadrature sum)."""
+        return math.hypot(self.random, self.calibration)
+
+
+@dataclass(frozen=True)
+class Instruments:
+    """The instrument behind each simulated channel."""
+
+    ne: Instrument
+    Te: Instrument
+    p0: Instrument
+    B: Instrument
+
+    def of(self, channel: str) -> Instrument:
+        return getattr(self, channel)  # type: ignore[no-any-return]
+
+
+# Sizes: see the module docstring ("from memory" for the calibration parts).
+PROBE_SET = Instruments(
+    ne=Instrument("Langmuir probe, ion saturation current", random=0.02, calibration=0.20),
+    Te=Instrument("Langmuir probe, I-V slope", random=0.03, calibration=0.10),
+    p0=Instrument("capacitance diaphragm gauge", random=0.005, calibration=0.005),
+    B=Instrument("Hall probe", random=0.002, calibration=0.01),
+)
+# relative standard deviation of the noise of PROBE_SET (the random parts)
+NOISE = {ch: PROBE_SET.of(ch).random for ch in ("ne", "Te", "p0", "B")}
 
 
 @dataclass(frozen=True)
@@ -80,6 +150,7 @@ class Scenario:
     start_ne: float
     start_Te: float
     description: str
+    instruments: Instruments = PROBE_SET
 
     @property
     def duration(self) -> float:
@@ -92,7 +163,7 @@ def _steady(name: str, end: float, ramp: float = 0.0) -> Phase:
 
 SCENARIOS: dict[str, Scenario] = {
     "steady": Scenario("steady", (_steady("steady", 60.0),), NE_STEADY, TE_STEADY,
-                       "steady argon RF discharge, 5e16 m^-3, 3 eV, 2 Pa, 60 s"),
+                       "steady argon RF discharge, 5e16 m^-3, 3 eV, 2 Pa, 60 s", PROBE_SET),
     "excursion": Scenario("excursion", (
         Phase("off", 1.0, NE_OFF, TE_OFF),
         _steady("ramp-up", 5.0, ramp=4.0),
@@ -103,13 +174,13 @@ SCENARIOS: dict[str, Scenario] = {
         _steady("steady", 40.0),
         Phase("shutdown", 43.0, NE_OFF, TE_OFF, ramp=3.0),
         Phase("off", 45.0, NE_OFF, TE_OFF),
-    ), NE_OFF, TE_OFF, "ramp-up, steady, density excursion to 3e17 m^-3, recovery, shutdown; 45 s"),
+    ), NE_OFF, TE_OFF, "ramp-up, steady, density excursion to 3e17 m^-3, recovery, shutdown; 45 s", PROBE_SET),
     "dropout": Scenario("dropout", (
         _steady("steady", 10.0),
         Phase("probe silent", 13.0, NE_STEADY, TE_STEADY, probe="silent"),
         Phase("probe garbage", 15.0, NE_STEADY, TE_STEADY, probe="garbage"),
         _steady("steady", 30.0),
-    ), NE_STEADY, TE_STEADY, "steady discharge; Te probe silent 10-13 s, garbage 13-15 s; 30 s"),
+    ), NE_STEADY, TE_STEADY, "steady discharge; Te probe silent 10-13 s, garbage 13-15 s; 30 s", PROBE_SET),
     "demo": Scenario("demo", (
         Phase("off", 2.0, NE_OFF, TE_OFF),
         _steady("ramp-up", 8.0, ramp=6.0),
@@ -120,5 +191,5 @@ SCENARIOS: dict[str, Scenario] = {
         _steady("steady", 52.0),
         Phase("shutdown", 56.0, NE_OFF, TE_OFF, ramp=4.0),
         Phase("off", 60.0, NE_OFF, TE_OFF),
-    ), NE_OFF, TE_OFF, "60 s loop: ramp-up, steady, excursion to 3e17 m^-3, recovery, shutdown"),
+    ), NE_OFF, TE_OFF, "60 s loop: ramp-up, steady, excursion to 3e17 m^-3, recovery, shutdown", PROBE_SET),
 }

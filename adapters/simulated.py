@@ -6,6 +6,13 @@ function of (scenario, seed, rate, sample range): the same arguments always
 give the same numbers, and generating 0-1 s then 1-2 s gives exactly what
 generating 0-2 s gives (the noise is indexed by sample number, not drawn
 from a running stream).
+
+Every sample also carries its standard uncertainty in ``Batch.sigma`` (same
+keys, NaN where the channel has no value): ``|reading| * sigma_rel`` of the
+scenario's instrument for that channel. The noise added is the instrument's
+``random`` part only; ``sigma_rel`` also holds its ``calibration`` part (see
+adapters.scenarios for the sizes and why the calibration part is stated but
+not realised).
 """
 
 from __future__ import annotations
@@ -19,7 +26,7 @@ import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch
-from adapters.scenarios import B, CHANNEL_RATES, NOISE, P0, SCENARIOS, TE_GARBAGE, Scenario
+from adapters.scenarios import B, CHANNEL_RATES, P0, SCENARIOS, TE_GARBAGE, Scenario
 
 __all__ = ["SCENARIOS", "generate", "generate_samples", "SimSource", "scenario_length"]
 
@@ -86,8 +93,10 @@ def generate_samples(scenario: str, seed: int, rate: float, k0: int, k1: int, *,
     """Samples k0 .. k1-1 (sample k at scenario time k/rate); with ``loop`` the scenario repeats.
 
     Columns ne (m^-3), Te (eV), p0 (Pa), B (T); NaN where a channel has no new
-    value at that sample. ``seq`` is the sample number k. ``t`` is k/rate
-    (time keeps increasing across loops).
+    value at that sample. ``sigma`` has the same keys: the standard
+    uncertainty of each reading, ``|reading| * sigma_rel`` of the channel's
+    instrument (NaN where the column is NaN). ``seq`` is the sample number k.
+    ``t`` is k/rate (time keeps increasing across loops).
     """
     sc = _scenario(scenario)
     if not rate > 0 or not math.isfinite(rate):
@@ -100,7 +109,8 @@ def generate_samples(scenario: str, seed: int, rate: float, k0: int, k1: int, *,
     t = k / rate
     s = (k % n_pass) / rate if loop else t
     ne_lv, te_lv, probe = _levels(sc, s)
-    cols: dict[str, np.ndarray] = {"ne": ne_lv * (1.0 + NOISE["ne"] * _normals(seed, _CHANNEL_ID["ne"], k))}
+    inst = sc.instruments
+    cols: dict[str, np.ndarray] = {"ne": ne_lv * (1.0 + inst.ne.random * _normals(seed, _CHANNEL_ID["ne"], k))}
     for ch, level in (("Te", None), ("p0", P0), ("B", B)):
         r = min(CHANNEL_RATES[ch], rate)
         # slow sample j starts at the first k with k * r / rate >= j, i.e. k = ceil(j * rate / r)
@@ -111,13 +121,14 @@ def generate_samples(scenario: str, seed: int, rate: float, k0: int, k1: int, *,
         j, idx = j[keep], ks[keep] - k0
         col = np.full(len(k), np.nan)
         base = te_lv[idx] if level is None else np.full(len(idx), level)
-        col[idx] = base * (1.0 + NOISE[ch] * _normals(seed, _CHANNEL_ID[ch], j))
+        col[idx] = base * (1.0 + inst.of(ch).random * _normals(seed, _CHANNEL_ID[ch], j))
         if ch == "Te":
             garbage = probe[idx] == 2
             col[idx[garbage]] = np.asarray(TE_GARBAGE)[j[garbage] % len(TE_GARBAGE)]
             col[idx[probe[idx] == 1]] = np.nan
         cols[ch] = col
-    return Batch(source=source or f"sim:{scenario}", t=t, columns=cols, seq=k, t_from_source=True)
+    sigma = {ch: np.abs(col) * inst.of(ch).sigma_rel for ch, col in cols.items()}      # NaN stays NaN
+    return Batch(source=source or f"sim:{scenario}", t=t, columns=cols, sigma=sigma, seq=k, t_from_source=True)
 
 
 def generate(scenario: str, seed: int = 0, rate: float = 1000.0, t0: float = 0.0,
@@ -188,7 +199,8 @@ class SimSource:
         if k1 > self._k:
             b = generate_samples(self.scenario, self.seed, self.rate, self._k, k1, loop=self.loop, source=self.name)
             if self._epoch:
-                b = Batch(source=b.source, t=b.t + self._epoch, columns=b.columns, seq=b.seq, t_from_source=True)
+                b = Batch(source=b.source, t=b.t + self._epoch, columns=b.columns, sigma=b.sigma, seq=b.seq,
+                          t_from_source=True)
             batches.append(b)
             self._k = k1
         if self._k >= end:
