@@ -32,28 +32,49 @@ class Shot:
     seed: int
     rate: float            # ne samples per second
     te_every: int          # one Te reading per this many ne readings
-    noise: float           # relative standard deviation of ne (Te: 1.5x this)
+    noise: float           # relative standard deviation of ne (Te: 1.5x this; p0 and B: none)
     p0: float              # Pa
     B: float | None        # T
     knots: tuple[Knot, ...]
+    calibration: dict[str, float]   # relative calibration (systematic) standard uncertainty per channel
+
+
+def sigma_rel(shot: Shot) -> dict[str, float]:
+    """The relative standard uncertainty each reading carries: its noise and its calibration part in quadrature.
+
+    The calibration part is stated, not realised: the invented instruments read the knots without bias.
+    """
+    noise = {"ne": shot.noise, "Te": 1.5 * shot.noise, "p0": 0.0, "B": 0.0}
+    return {ch: float(np.hypot(noise[ch], cal)) for ch, cal in shot.calibration.items()}
+
+
+# Calibration parts (from memory): a single Langmuir probe's absolute density is commonly quoted to 20-50 %
+# and its Te to 10-20 % (we take the low ends); a microwave interferometer's line-averaged density to a few
+# per cent, 5 % with the path length and profile assumed; capacitance diaphragm gauges to 0.25-0.5 % of
+# reading; a calibrated Hall probe to about 1 % of reading.
+PROBE = {"ne": 0.20, "Te": 0.10, "p0": 0.005}
+INTERFEROMETER_AND_PROBE = {"ne": 0.05, "Te": 0.10, "p0": 0.005, "B": 0.01}
 
 
 OFF_NE, OFF_TE = 2.0e14, 0.4
 
 SHOTS = (
-    # argon RF discharge in a 30 cm chamber: ramp-up, steady, one density excursion, recovery, shutdown
+    # argon RF discharge in a 30 cm chamber, density and temperature from a Langmuir probe: ramp-up, steady, one density excursion, recovery, shutdown
     Shot("argon_rf_excursion", "argon_rf_envelope.toml", seed=11, rate=200.0, te_every=10, noise=0.02, p0=1.3, B=None,
          knots=(Knot(0.0, OFF_NE, OFF_TE), Knot(1.0, OFF_NE, OFF_TE), Knot(4.0, 8.0e16, 2.6),
                 Knot(13.0, 8.0e16, 2.6), Knot(15.0, 2.4e17, 2.0), Knot(17.5, 2.4e17, 2.0),
                 Knot(19.5, 8.0e16, 2.6), Knot(25.0, 8.0e16, 2.6), Knot(27.0, OFF_NE, OFF_TE),
-                Knot(30.0, OFF_NE, OFF_TE))),
-    # helium microwave (2.45 GHz, ECR field 0.0875 T) source driven up to its cutoff density (~7.4e16 m^-3)
+                Knot(30.0, OFF_NE, OFF_TE)),
+         calibration=PROBE),
+    # helium microwave (2.45 GHz, ECR field 0.0875 T) source driven up to its cutoff density (~7.4e16 m^-3);
+    # density from a microwave interferometer, Te from a Langmuir probe, B from a Hall probe
     Shot("helium_microwave_cutoff", "helium_microwave_envelope.toml", seed=23, rate=100.0, te_every=5, noise=0.008, p0=0.4,
          B=0.0875,
          knots=(Knot(0.0, OFF_NE, OFF_TE), Knot(1.0, OFF_NE, OFF_TE), Knot(5.0, 5.5e16, 6.0),
                 Knot(14.0, 5.5e16, 6.0), Knot(22.0, 7.2e16, 5.2), Knot(25.0, 7.9e16, 4.9),
                 Knot(28.0, 7.9e16, 4.9), Knot(31.0, 6.0e16, 5.8), Knot(36.0, 6.0e16, 5.8),
-                Knot(38.0, OFF_NE, OFF_TE), Knot(40.0, OFF_NE, OFF_TE))),
+                Knot(38.0, OFF_NE, OFF_TE), Knot(40.0, OFF_NE, OFF_TE)),
+         calibration=INTERFEROMETER_AND_PROBE),
 )
 
 
@@ -69,8 +90,20 @@ def _levels(shot: Shot, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.exp(lne[i] + w * (lne[i + 1] - lne[i])), te[i] + w * (te[i + 1] - te[i])
 
 
+def _two_digits(x: np.ndarray) -> np.ndarray:
+    """Round to two significant digits (NaN stays NaN): an uncertainty is stated to two digits (common practice)."""
+    out = np.full(len(x), np.nan)
+    ok = np.isfinite(x) & (x > 0)
+    e = np.floor(np.log10(x[ok])) - 1
+    up = 10.0 ** np.abs(e)                   # an exact power of ten: divide or multiply by it, never by 10^-k
+    out[ok] = np.where(e < 0, np.round(x[ok] * up) / up, np.round(x[ok] / up) * up)
+    out[np.isfinite(x) & (x == 0)] = 0.0
+    return out
+
+
 def plain_csv(shot: Shot, path: Path) -> None:
-    """The instrument readings as a plain CSV (canonical columns): ne every sample, Te, p0, B slower."""
+    """The instrument readings as a plain CSV (canonical columns): ne every sample, Te, p0, B slower,
+    and a sigma_X column of standard uncertainties beside each."""
     rng = np.random.default_rng(shot.seed)
     n = int(round(shot.knots[-1].t * shot.rate)) + 1
     t = np.round(np.arange(n) / shot.rate, 6)
@@ -85,6 +118,9 @@ def plain_csv(shot: Shot, path: Path) -> None:
         b = np.full(n, np.nan)
         b[:: int(shot.rate // 5)] = shot.B
         cols["B"] = b
+    rel = sigma_rel(shot)
+    for ch in [c for c in ("ne", "Te", "p0", "B") if c in cols]:
+        cols[f"sigma_{ch}"] = _two_digits(np.abs(cols[ch]) * rel[ch])
     arr = np.column_stack(list(cols.values()))
     fmt = ",".join("%d" if c == "seq" else "%r" for c in cols) + "\n"
     body = (fmt * n) % tuple(arr.ravel().tolist())
@@ -107,7 +143,7 @@ def record(shot: Shot, out: Path) -> Path:
         rec_dir = tmp / "rec"
         fixed = lambda: T0                                         # noqa: E731 - deterministic wall stamps
         recorder = Recorder(rec_dir, config, source_name=f"demo:{shot.name}", clock=fixed,
-                            options=RecordingOptions(split="none", sigma=False))
+                            options=RecordingOptions(split="none", sigma=True))
         engine = make_engine(config)
         if engine is not None:
             engine = type(engine).from_config(config, clock=fixed)
