@@ -291,3 +291,34 @@ async def test_a_render_tick_during_shutdown_draws_nothing_and_does_not_raise(ra
     ticks = app.ticks
     app.render_tick()
     assert app.ticks == ticks
+
+
+async def test_shelve_dialog_shows_a_long_alarm_id_whole() -> None:
+    # A predictive alarm's id is the limit's name plus ":predict"; it used to sit in a one-line
+    # title wider than the dialog and was cut at the border. Every line must fit inside the box.
+    from pathlib import Path
+
+    from textual.app import App
+    from textual.widgets import Label
+
+    import monitor.tui.app as app_module
+
+    long_id = "ne_high_in_the_afterglow_of_the_discharge:predict"
+
+    class Host(App[None]):
+        CSS_PATH = str(Path(app_module.__file__).with_name("regime.tcss"))
+
+        def on_mount(self) -> None:
+            self.push_screen(ShelveDialog(long_id))
+
+    app = Host()
+    async with app.run_test(size=(80, 24)) as pilot:
+        await wait_for(pilot, lambda: isinstance(app.screen, ShelveDialog))
+        await pilot.pause()
+        dialog = app.screen.query_one("#dialog")
+        labels = list(dialog.query(Label))
+        assert any(long_id in str(w.render()) for w in labels)
+        for w in labels:
+            assert w.size.width <= dialog.content_size.width, str(w.render())
+        shown = app.screen.query_one("#shelve-alarm")
+        assert shown.size.width * shown.size.height >= len(long_id)   # wrapped, not cut

@@ -34,7 +34,8 @@ class ShelveDialog(ModalScreen[float | None | bool]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="dialog"):
-            yield Label(f"Shelve {self.alarm} for…")
+            yield Label("Shelve for how long?")
+            yield Label(self.alarm, id="shelve-alarm")      # own line, wraps: a long id is never cut
             yield OptionList(*[Option(f"{i + 1}  {label}", id=str(i)) for i, (label, _s) in enumerate(DURATIONS)])
             yield Label("enter or 1-5 to choose · esc to cancel", classes="hint")
 
