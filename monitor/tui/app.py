@@ -27,7 +27,7 @@ class RegimeApp(App[None]):
 
     CSS_PATH = "regime.tcss"
     TITLE = "regime"
-    HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]
+    HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (150, "-wide")]   # 56 + 50 columns leave the map >= 40
     VERTICAL_BREAKPOINTS = [(0, "-short"), (36, "-tall")]
     BINDINGS = [
         Binding("q", "request_quit", "quit"),

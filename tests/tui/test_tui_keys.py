@@ -322,3 +322,17 @@ async def test_shelve_dialog_shows_a_long_alarm_id_whole() -> None:
             assert w.size.width <= dialog.content_size.width, str(w.render())
         shown = app.screen.query_one("#shelve-alarm")
         assert shown.size.width * shown.size.height >= len(long_id)   # wrapped, not cut
+
+
+@pytest.mark.parametrize("size", [(80, 24), (100, 30), (120, 36), (149, 40), (150, 40), (200, 50)])
+async def test_the_map_has_room_to_draw_at_every_common_terminal_width(raised, size) -> None:
+    # At 120 columns the third (derived) column used to leave the map 12 cells: "map needs 20x6 cells".
+    session, tap = raised
+    app = _app(session, tap)
+    async with app.run_test(size=size) as pilot:
+        await wait_for(pilot, lambda: app.ticks > 0)
+        await pilot.pause()
+        the_map = app.watch.query_one("#map")
+        assert the_map.display
+        assert the_map.content_region.width >= 30 and the_map.content_region.height >= 6
+        assert "map needs" not in text_of(the_map)
