@@ -10,7 +10,7 @@ from typing import Any
 
 from monitor.errors import UsageError
 
-__all__ = ["register", "run", "KEYS", "parse_assignments", "compute"]
+__all__ = ["register", "run", "KEYS", "parse_assignments", "compute", "reasons"]
 
 # key -> (what it is, default shown in help)
 KEYS: dict[str, str] = {
@@ -39,7 +39,8 @@ def register(parser: argparse.ArgumentParser) -> None:
                      + "\nexample: regime calc ne=5e16m-3 Te=3eV±10% L=0.3m f=2.45GHz B=0.05T p0=2Pa")
     parser.add_argument("assignments", nargs="*", metavar="KEY=VALUE", help="readings and device constants")
     parser.add_argument("--json", action="store_true",
-                        help='print one JSON object: name -> {"value", "unit", "sigma"}')
+                        help='print one JSON object: name -> {"value", "unit", "sigma"}, plus "reason" '
+                             'where a value or sigma is null because it is not defined (e.g. at B = 0)')
 
 
 def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, float]]:
@@ -99,6 +100,41 @@ def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
 
 
+# Why a quantity that divides by the field has no value at B = 0.
+_AT_ZERO_FIELD = {
+    "electron_gyroradius": "no magnetic field: electrons do not gyrate, the radius is unbounded",
+    "ion_gyroradius": "no magnetic field: ions do not gyrate, the radius is unbounded",
+    "plasma_beta": "no magnetic field: no magnetic pressure to compare with",
+}
+
+
+def _why_not_finite(name: str, x: float, values: dict[str, float], sigmas: dict[str, float],
+                    what: str = "") -> str:
+    """The reason a derived value (or, with what="sigma ", its uncertainty) is not a finite number."""
+    from monitor.physics import REQUIRES
+
+    if "B" in REQUIRES[name] and values.get("B") == 0 and (not what or "B" in sigmas):
+        if what:
+            return f"{what}not defined at B = 0 (first-order propagation uses the relative uncertainty of B)"
+        return f"not defined at B = 0 ({_AT_ZERO_FIELD.get(name, 'no magnetic field')})"
+    if math.isinf(x):
+        return f"{what}beyond the float range (the inputs are too extreme for this formula)"
+    return f"{what}not a number for these inputs"
+
+
+def reasons(values: dict[str, float], sigmas: dict[str, float], derived: Any) -> dict[str, str]:
+    """Quantity name -> why its value or its sigma is not a finite number (only those that are not)."""
+    out: dict[str, str] = {}
+    for name, v in derived.values.items():
+        x = float(v[0])
+        s = float(derived.sigma[name][0]) if name in derived.sigma else 0.0
+        if not math.isfinite(x):
+            out[name] = _why_not_finite(name, x, values, sigmas)
+        elif not math.isfinite(s):
+            out[name] = _why_not_finite(name, s, values, sigmas, "sigma ")
+    return out
+
+
 def run(args: argparse.Namespace) -> int:
     from monitor.quantities import DERIVED
 
@@ -106,10 +142,14 @@ def run(args: argparse.Namespace) -> int:
     device, derived = compute(values, sigmas)
     names = [q for q in DERIVED if q.name in derived.values]
     if args.json:
-        out = {q.name: {"value": _num(derived.values[q.name][0]), "unit": q.unit,
-                        "sigma": _num(derived.sigma[q.name][0]) if q.name in derived.sigma else None}
-               for q in names}
-        print(json.dumps(out))
+        why = reasons(values, sigmas, derived)
+        out: dict[str, dict[str, Any]] = {}
+        for q in names:
+            out[q.name] = {"value": _num(derived.values[q.name][0]), "unit": q.unit,
+                           "sigma": _num(derived.sigma[q.name][0]) if q.name in derived.sigma else None}
+            if q.name in why:
+                out[q.name]["reason"] = why[q.name]
+        print(json.dumps(out, allow_nan=False))
         for code in derived.warnings:
             print(f"regime calc: warning: {code}", file=sys.stderr)
         return 0
@@ -152,13 +192,16 @@ def render(values: dict[str, float], sigmas: dict[str, float], device: Any, deri
         lines.append("         sigma_en default 1e-19 m^2 is an order-of-magnitude value (common practice)")
     rows = [("quantity", "value", "unit", "± sigma", "meaning")]
     electrons_only = "plasma_beta_electrons_only" in derived.warnings
+    why = reasons(values, sigmas, derived)
     for q in DERIVED:
         if q.name not in derived.values:
             continue
         v = float(derived.values[q.name][0])
         s = float(derived.sigma[q.name][0]) if q.name in derived.sigma else None
         meaning = q.meaning + (" (electrons only: Ti not given)" if q.name == "plasma_beta" and electrons_only else "")
-        rows.append((q.name, f"{v:.4g}", q.unit, _fmt_sigma(v, s), meaning))
+        if q.name in why:
+            meaning += f" [{why[q.name]}]"
+        rows.append((q.name, f"{v:.4g}" if math.isfinite(v) else "-", q.unit, _fmt_sigma(v, s), meaning))
     widths = [max(len(r[i]) for r in rows) for i in range(4)]
     lines.append("")
     for r in rows:

@@ -110,3 +110,50 @@ def test_installed_script_exit_code_on_bad_input() -> None:
     out = subprocess.run([str(SCRIPT), "calc", "ne=-1", "Te=3"], capture_output=True, text=True, timeout=60)
     assert out.returncode == 2
     assert "ne=-1 is not a meaningful reading" in out.stderr and out.stdout == ""
+
+
+def _strict_json(text: str) -> dict:
+    """json.loads that refuses the NaN/Infinity tokens Python's json would otherwise accept."""
+    def refuse(token: str) -> None:
+        raise AssertionError(f"non-JSON token {token} in calc --json output")
+    return json.loads(text, parse_constant=refuse)
+
+
+def test_json_at_zero_field_says_why_a_value_is_missing(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["calc", "--json", "ne=5e16", "Te=3eV±10%", "Ti=0.05", "B=0"]) == 0
+    data = _strict_json(capsys.readouterr().out)
+    # r = v_perp / omega_c and beta = 2 mu0 p / B^2 divide by B (NRL Plasma Formulary): unbounded at B = 0
+    for name in ("electron_gyroradius", "ion_gyroradius", "plasma_beta"):
+        assert data[name]["value"] is None and data[name]["sigma"] is None
+        assert data[name]["reason"].startswith("not defined at B = 0 (no magnetic field")
+    # omega_c = q B / m is simply 0 at B = 0, and the Hall parameter with it: real values, no reason
+    for name in ("electron_cyclotron_frequency", "ion_cyclotron_frequency", "hall_parameter"):
+        assert data[name]["value"] == 0.0 and "reason" not in data[name]
+    assert all("reason" not in e for n, e in data.items() if n not in ("electron_gyroradius", "ion_gyroradius",
+                                                                        "plasma_beta"))
+
+
+def test_json_says_why_a_sigma_is_missing_at_zero_field(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["calc", "--json", "ne=5e16", "Te=3", "B=0±0.01"]) == 0
+    data = _strict_json(capsys.readouterr().out)
+    entry = data["electron_cyclotron_frequency"]
+    assert entry["value"] == 0.0 and entry["sigma"] is None
+    assert entry["reason"].startswith("sigma not defined at B = 0")
+
+
+def test_json_says_a_value_overflowed(capsys: pytest.CaptureFixture[str]) -> None:
+    # beta ~ 1e20 * 3 eV / B^2 with B = 1e-200 T is ~1e400, beyond the float64 range (IEEE 754 max ~1.8e308)
+    assert main(["calc", "--json", "ne=1e20", "Te=3", "B=1e-200"]) == 0
+    data = _strict_json(capsys.readouterr().out)
+    assert data["plasma_beta"]["value"] is None
+    assert data["plasma_beta"]["reason"].startswith("beyond the float range")
+    assert "reason" not in data["electron_gyroradius"]          # ~4e194 m: absurd but a finite number
+
+
+def test_table_at_zero_field_gives_the_reason_not_inf(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["calc", "ne=5e16", "Te=3", "Ti=0.05", "B=0"]) == 0
+    out = capsys.readouterr().out
+    rows = {line.split()[0]: line for line in out.splitlines() if line.strip()}
+    for name in ("electron_gyroradius", "ion_gyroradius", "plasma_beta"):
+        assert "not defined at B = 0" in rows[name] and "inf" not in rows[name].split()
+    assert "not defined" not in rows["electron_cyclotron_frequency"]
