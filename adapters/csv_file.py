@@ -169,6 +169,9 @@ class CsvSource:
         self._step_budget: float | None = None
         self._anchor: tuple[float, float] | None = None   # (wall, data time)
         self._current: float | None = None
+        self._catch_up: float | None = None   # a forward seek's target: rows before it are due at once
+        self._played: float | None = None
+        self.released = 0                     # rows handed out in batches (a replay window that selects none)
         self._pending_rejections: list[Rejection] = []
 
     def _rewind(self, offset: int, line: int) -> None:
@@ -182,6 +185,7 @@ class CsvSource:
         self._pos = 0
         self._eof = False
         self._ended = False
+        self._played: float | None = None      # data time of the last row handed out since the (re)wind
 
     # -- parsing -----------------------------------------------------------------------------------
     def _read_block(self) -> bool:
@@ -206,7 +210,8 @@ class CsvSource:
         newlines = body.count(b"\n")
         self._line += newlines + (1 if unterminated else 0)
         rows, lines = self._parse(body, first_line, unterminated, newlines)
-        if len(rows):
+        if len(rows) and (not self._index or start_offset > self._index[-1][0]):
+            # blocks read again after a seek back are indexed already: the index stays sorted
             self._index.append((start_offset, first_line, float(rows[0, self._tcol])))
         self._rows, self._row_lines, self._pos = rows, lines, 0
         return True
@@ -285,7 +290,7 @@ class CsvSource:
                 raise FatalSourceError(f"{self.path}: not open")
             if self._ended:
                 return Polled(status=self.status())
-            held = self._paused and self._step_budget is None
+            held = self._paused and self._step_budget is None and self._catch_up is None
         if held:
             if timeout > 0:
                 self._wake.wait(timeout)
@@ -317,6 +322,16 @@ class CsvSource:
         if self._stop is not None and t[0] > self._stop:
             self._finish()
             return [], 0.0
+        if self._catch_up is not None:
+            # a forward seek: the rows before its target are due now, whatever the speed or a pause
+            n = int(np.searchsorted(t, self._catch_up, side="left"))
+            if n:
+                return [self._take(rows, n)], 0.0
+            self._current, self._catch_up = self._catch_up, None
+            if self._paused and self._step_budget is None:
+                self._anchor = None
+                return [], 0.0
+            self._reanchor()
         limit = self._due_limit(float(t[0]))
         if limit is None:
             n = len(rows)
@@ -324,15 +339,21 @@ class CsvSource:
             n = int(np.searchsorted(t, limit, side="right"))
             if n == 0:
                 return [], self._wait_for(float(t[0]))
+        batch = self._take(rows, n)
+        if self._step_budget is not None:
+            self._step_budget = None
+        return [batch], 0.0
+
+    def _take(self, rows: np.ndarray, n: int) -> Batch:
+        """The first ``n`` of ``rows`` (at most ``batch_rows``, none after ``stop``) as the next batch."""
         if self._stop is not None:
-            n = min(n, int(np.searchsorted(t, self._stop, side="right")))
+            n = min(n, int(np.searchsorted(rows[:, self._tcol], self._stop, side="right")))
         n = min(n, self._batch_rows)
         taken = rows[:n]
         self._pos += n
-        self._current = float(taken[-1, self._tcol])
-        if self._step_budget is not None:
-            self._step_budget = None
-        return [self._batch(taken)], 0.0
+        self.released += n
+        self._current = self._played = float(taken[-1, self._tcol])
+        return self._batch(taken)
 
     def _due_limit(self, next_t: float) -> float | None:
         if self._step_budget is not None:
@@ -375,6 +396,7 @@ class CsvSource:
 
     def _finish(self) -> None:
         self._ended = True
+        self._catch_up = None
         self._state = LinkState.ENDED
         if self.damage is not None:
             line, why = self.damage
@@ -427,21 +449,32 @@ class CsvSource:
             self._reanchor()
         self._wake.set()
 
-    def seek(self, t: float) -> None:
-        """Continue from data time ``t`` (back or forward); the next batch starts at the first row >= t."""
+    def seek(self, t: float) -> str:
+        """Continue from data time ``t``.
+
+        Forward (``t`` at or after the next row not yet played): the rows before ``t`` are released at
+        once, in batches of ``batch_rows``, whatever the speed and even while paused, and pacing (or
+        the pause) resumes at ``t``; returns "forward" (whoever consumes the batches sees the skipped
+        stretch, as in a straight replay). Back: the next batch starts at the first row >= ``t``;
+        returns "back" (the consumer starts its own state over)."""
         with self._lock:
             if self._fh is None or self.header is None:
                 raise FatalSourceError(f"{self.path}: not open")
-            here = float(self._rows[self._pos, self._tcol]) if self._pos < len(self._rows) else None
-            if here is None or t < here:
-                offset, line = self.header.data_offset, self.header.data_line
-                for off, ln, first_t in self._index:
-                    if first_t <= t:
-                        offset, line = off, ln
-                    else:
-                        break
-                self._rewind(offset, line)
-                self._state = LinkState.CONNECTED
+            here = self._next_time()
+            played = self._played
+            if here is not None and not self._ended and (t >= here or (played is not None and t > played)):
+                self._catch_up = t
+                self._wake.set()
+                return "forward"
+            self._catch_up = None
+            offset, line = self.header.data_offset, self.header.data_line
+            for off, ln, first_t in self._index:
+                if first_t <= t:
+                    offset, line = off, ln
+                else:
+                    break
+            self._rewind(offset, line)
+            self._state = LinkState.CONNECTED
             old_start = self._start
             self._start = t if old_start is None else max(t, old_start)
             while True:
@@ -455,12 +488,47 @@ class CsvSource:
             self._current = t
             self._reanchor()
         self._wake.set()
+        return "back"
+
+    def _next_time(self) -> float | None:
+        """Data time of the next row to play (reading on if the block is used up); None at the end."""
+        while self._pos >= len(self._rows):
+            if self._eof or not self._read_block():
+                return None
+            self._skip_before_start()
+        return float(self._rows[self._pos, self._tcol])
+
+    @property
+    def catching_up(self) -> bool:
+        """A forward seek's stretch is still being released."""
+        with self._lock:
+            return self._catch_up is not None
+
+    @property
+    def first_time(self) -> float | None:
+        """Data time of the file's first reading (after ``time_scale``); None before ``open`` or if none parsed."""
+        with self._lock:
+            return self._index[0][2] if self._index else None
+
+    @property
+    def end_time(self) -> float | None:
+        """Data time of the file's last whole line, from its tail (None if none parses)."""
+        return self._end if self._fh is not None else None
+
+    def set_window(self, start: float | None, stop: float | None) -> None:
+        """Bound the data time played (s), like ``start``/``stop`` given at construction; call it after
+        ``open`` and before the first poll (e.g. once ``first_time`` has turned relative times absolute)."""
+        with self._lock:
+            self._start, self._stop = start, stop
+            self._skip_before_start()
 
     def position(self) -> tuple[float, float, float | None, float | None, bool]:
         """(time, start, end, speed, paused) in data time; the shape of monitor.snapshot.ReplayPosition."""
         with self._lock:
             first = self._index[0][2] if self._index else float("nan")
             start = self._start if self._start is not None else first
-            now = self._current if self._current is not None else start
+            # a forward seek in progress stands at its target already (as a seek back does at once)
+            now = self._catch_up if self._catch_up is not None else self._current
+            now = now if now is not None else start
             end = self._end if self._stop is None or self._end is None else min(self._end, self._stop)
             return (now, start, end, self._speed, self._paused)

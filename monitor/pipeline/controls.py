@@ -91,13 +91,20 @@ class SessionControls:
         return self._control("set_speed", speed)
 
     def seek(self, t: float) -> bool:
-        """Seek the replay; the pipeline starts over for the source (time may go back).
+        """Seek the replay to data time ``t``.
+
+        Forward (the source answers "forward", as CsvSource does): the source releases the stretch
+        up to ``t`` at full speed, and the following steps play it through the pipeline and the alarm
+        engine like any other data, so its alarms reach the journal and the states are right at ``t``;
+        nothing starts over. Back (or a source that does not say): the pipeline, the trail and the
+        engine's timing start over (time goes back); alarm states are kept.
 
         Waits for a poll in progress, so that no batch read before the seek is processed after it."""
         if not callable(getattr(self.source, "seek", None)):
             return False
         with self._poll_lock, self._lock:
-            self.source.seek(t)
+            if self.source.seek(t) == "forward":
+                return True
             self.pipeline.reset(self.name)
             self._new_trail()
             self._last_t = None

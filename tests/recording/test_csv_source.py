@@ -93,13 +93,65 @@ def test_pause_step_seek_and_position(tmp_path: Path) -> None:
     stepped = src.poll(0.0).batches[0].t
     assert stepped[0] == 0.01 and abs(stepped[-1] - 0.05) < 1e-9          # one step of 0.05 s data time
     assert src.poll(0.0).batches == [] and src.position()[4] is True
-    src.seek(7.5)
+    assert src.seek(7.5) == "forward"
+    assert src.position()[0] == 7.5 and src.catching_up                   # at the target at once
+    skipped, _ = _drain_now(src)                                           # paused, and no wall time passes
+    np.testing.assert_allclose(skipped, np.arange(6, 750) * 0.01)          # the stretch 0.06 .. 7.49 s, at once
+    assert src.poll(0.0).batches == [] and src.position()[0] == 7.5 and src.position()[4] is True
+    assert not src.catching_up
     src.resume()
     got = src.poll(0.0).batches[0].t
-    assert abs(got[0] - 7.5) < 1e-9
-    src.seek(1.0)                                                          # back again
+    assert abs(got[0] - 7.5) < 1e-9 and len(got) == 1                      # pacing resumes at 7.5 (1x, no wall time)
+    assert src.seek(1.0) == "back"                                         # back again: no stretch is played
     got = src.poll(0.0).batches[0].t
     assert abs(got[0] - 1.0) < 1e-9 and abs(src.position()[0] - 1.0) < 1e-9
+
+
+def _drain_now(src: CsvSource) -> tuple[np.ndarray, int]:
+    """Every batch the source releases without any wall time passing; and how many polls that took."""
+    ts, polls = [], 0
+    while True:
+        p = src.poll(0.0)
+        polls += 1
+        if not p.batches:
+            return (np.concatenate(ts) if ts else np.empty(0)), polls
+        ts.extend(b.t for b in p.batches)
+
+
+def test_forward_seek_releases_the_stretch_in_bounded_batches_then_paces(tmp_path: Path) -> None:
+    clock = FakeClock()
+    src = CsvSource(_write(tmp_path / "f.csv", n=5000), speed=1.0, clock=clock, chunk=8192, batch_rows=300)
+    src.open()
+    assert len(src.poll(0.0).batches[0].t) == 1                            # t = 0 only, at 1x
+    assert src.seek(40.0) == "forward"
+    skipped, polls = _drain_now(src)
+    # 0.01 .. 39.99 s at once, none twice, none lost; then 1x from 40.0, whose row is due at once
+    np.testing.assert_allclose(skipped, np.arange(1, 4001) * 0.01)
+    assert polls >= 4000 // 300                                            # batch_rows bounds every batch
+    clock.now += 0.5
+    got = np.concatenate([b.t for b in src.poll(0.0).batches])
+    assert abs(got[0] - 40.01) < 1e-9 and abs(got[-1] - 40.5) < 1e-9
+    assert src.seek(src.position()[0] + 2.0) == "forward"                 # the seek key pressed twice, before
+    assert src.seek(src.position()[0] + 2.0) == "forward"                 # the stretch was played: 4 s on
+    np.testing.assert_allclose(_drain_now(src)[0], np.arange(4051, 4451) * 0.01)   # 40.51 .. 44.5
+    assert src.seek(src.position()[0] + 0.001) == "forward"               # inside the gap to the next row
+    assert _drain_now(src)[0].size == 0
+    assert src.seek(1e9) == "forward"                                      # past the end: all of it, then ended
+    rest, _ = _drain_now(src)
+    assert abs(rest[0] - 44.51) < 1e-9 and abs(rest[-1] - 49.99) < 1e-9
+    assert src.poll(0.0).status.state is LinkState.ENDED
+
+
+def test_seek_back_keeps_the_block_index_sorted(tmp_path: Path) -> None:
+    src = CsvSource(_write(tmp_path / "i.csv", n=5000), chunk=8192)
+    src.open()
+    _drain(src)
+    blocks = list(src._index)
+    for target in (10.0, 2.0, 30.0, 0.0):
+        assert src.seek(target) == "back"
+        t, _ = _drain(src)
+        assert abs(t[0] - target) < 1e-9 and abs(t[-1] - 49.99) < 1e-9
+    assert src._index == blocks                                            # read again, indexed once
 
 
 def test_from_and_to(tmp_path: Path) -> None:

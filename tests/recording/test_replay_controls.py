@@ -89,3 +89,82 @@ def test_progress_goes_to_stderr_not_into_the_json(tmp_path: Path) -> None:
     assert any(r["type"] == "status" for r in records)
     progress = [line for line in out.stderr.splitlines() if line.startswith("regime replay:")]
     assert progress and "%" in progress[0] and "readings" in progress[0]
+
+
+# -- a forward seek plays the skipped stretch through the pipeline and the alarm engine ----------------
+T0 = 1767261600.0          # recorded shots carry epoch times
+
+
+def _excursion_shot(tmp_path: Path, rate: float = 200.0) -> Path:
+    """30 s at ``rate`` Hz: ne 5e16 m^-3, an excursion to 3e17 from 6 s to 9 s (over ne_high's 1.5e17)."""
+    n = int(30 * rate)
+    t = T0 + np.arange(n) / rate
+    ne = np.where((t - T0 >= 6.0) & (t - T0 < 9.0), 3e17, 5e16)
+    p = tmp_path / "excursion.csv"
+    p.write_text("t,seq,ne,Te\n" + "".join(f"{float(x)!r},{i},{float(v)!r},3.0\n" for i, (x, v) in
+                                           enumerate(zip(t, ne))))
+    return p
+
+
+def _journal_of(tmp_path: Path, envelope: Path, name: str, *, seek: float | None = None, after: float = 2.0,
+                paused: bool = False) -> tuple[list[tuple[str, str, float]], dict[str, str]]:
+    """Replay the shot into a real journal file: straight, or with a seek to T0 + ``seek`` once data
+    time passed T0 + ``after``. The journal's (alarm, state, time) and the alarm states at the seek target."""
+    from monitor.alarms.journal import JournalSink, read_journal
+    from monitor.session import make_engine
+
+    config = load_config(envelope)
+    journal = JournalSink(tmp_path / f"{name}.alarms.jsonl", append=False)
+    src = CsvSource(_excursion_shot(tmp_path), chunk=8192, batch_rows=500, clock=Clock())
+    session = Session(src, config, [journal], engine=make_engine(config), live=False)
+    session.open()
+    states: dict[str, str] = {}
+    if seek is not None:
+        while session.replay_position().time < T0 + after:
+            assert session.step(0.0)
+        assert session.set_speed(1.0)                              # a clock that stands still: only
+        if paused:                                                 # the skipped stretch may flow
+            assert session.pause()
+        assert session.seek(T0 + seek)
+        assert session.replay_position().time == T0 + seek          # where the operator asked to be
+        while src.catching_up:                                      # the stretch plays at full speed
+            assert session.step(0.0)
+        assert session.replay_position().time == T0 + seek
+        states = {v.alarm: v.state.value for v in session.engine.views()}
+        if paused:
+            session.step(0.0)
+            assert session.replay_position().time == T0 + seek and session.replay_position().paused
+            assert session.resume()
+        assert session.set_speed(None)
+    session.run()
+    session.close()
+    return [(d["alarm"], d["state"], d["time"]) for d in read_journal(journal.path)], states
+
+
+def test_forward_seek_over_an_excursion_journals_its_raise_and_clear(tmp_path: Path, envelope: Path) -> None:
+    straight, _ = _journal_of(tmp_path, envelope, "straight")
+    raised = [e for e in straight if e[0] == "ne_high" and e[1] == "unacknowledged"]
+    # the on-delay of 0.3 s after the excursion starts at 6 s; it ends at 9 s (off-delay 0)
+    assert len(raised) == 1 and abs(raised[0][2] - (T0 + 6.3)) < 0.011
+    assert any(e[0] == "ne_high" and e[1] == "returned_unacknowledged" and abs(e[2] - (T0 + 9.0)) < 0.011
+               for e in straight)
+    seeked, _ = _journal_of(tmp_path, envelope, "seeked", seek=20.0)
+    assert seeked == straight                                   # the skipped stretch's alarms, at their data time
+
+
+def test_forward_seek_into_an_excursion_leaves_the_states_of_a_straight_replay(tmp_path: Path,
+                                                                               envelope: Path) -> None:
+    straight, _ = _journal_of(tmp_path, envelope, "straight")
+    seeked, states = _journal_of(tmp_path, envelope, "seeked", seek=7.5, paused=True)
+    assert states["ne_high"] == "unacknowledged"               # raised at 6.3 s inside the skipped stretch
+    assert seeked == straight
+
+
+def test_seek_back_plays_the_stretch_again_as_before(tmp_path: Path, envelope: Path) -> None:
+    straight, _ = _journal_of(tmp_path, envelope, "straight")
+    back, _ = _journal_of(tmp_path, envelope, "back", seek=1.0, after=12.0)
+    # unchanged by the forward seek: back from 12 s to 1 s, the excursion (6-9 s) plays a second time;
+    # the states were kept (ne_high returned unacknowledged), its timing starts over, so it is raised
+    # and returns again at the same data times, and the journal holds both passes
+    assert back == straight + [e for e in straight if e[2] >= T0 + 1.0]
+    assert [e[1] for e in back if e[0] == "ne_high"][-2:] == ["unacknowledged", "returned_unacknowledged"]
