@@ -34,6 +34,7 @@ class Collector:
         self.events: list[AlarmEvent] = []
         self.rejections: dict[str, int] = {}
         self.readings: dict[str, int] = {}      # base key -> readings that carried it (before the hold)
+        self.read: dict[str, list[np.ndarray]] = {}     # base key -> those readings' values (finite only)
         self.n = 0
 
     def on_frame(self, frame: Frame) -> None:
@@ -51,7 +52,10 @@ class Collector:
                 col.append(np.full(n, np.nan))
         self.valid.append(np.asarray(frame.valid, dtype=bool) if frame.valid is not None else np.ones(n, dtype=bool))
         for key, v in (frame.raw or {k: frame.values[k] for k in ("ne", "Te", "Ti", "B", "p0") if k in frame.values}).items():
-            self.readings[key] = self.readings.get(key, 0) + int(np.count_nonzero(np.isfinite(v)))
+            v = np.asarray(v, dtype=np.float64)
+            got = v[np.isfinite(v)]
+            self.readings[key] = self.readings.get(key, 0) + len(got)
+            self.read.setdefault(key, []).append(got)
         self.n += n
 
     def on_rejections(self, rejections: list[Rejection]) -> None:
@@ -66,6 +70,10 @@ class Collector:
 
     def close(self) -> None:
         return None
+
+    def read_values(self) -> dict[str, np.ndarray]:
+        """Base key -> the finite values of the readings that carried it, as read (no hold)."""
+        return {k: np.concatenate(v) for k, v in self.read.items()}
 
     def arrays(self) -> tuple[np.ndarray, dict[str, np.ndarray], np.ndarray]:
         t = np.concatenate(self.t) if self.t else np.empty(0)
@@ -189,7 +197,7 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
                    for spec in getattr(config, "limits", ()))
     units = {q.name: q.unit for q in ALL.values()}
     order = [q.name for q in BASE + DERIVED]
-    stats = tuple(quantity_stats(values, units, order))
+    stats = tuple(quantity_stats(values, units, order, collector.read_values()))
     journal = sibling(path, ".alarms.jsonl")
     if use_journal and config_path is None and journal.is_file():
         alarms = tuple(_read_jsonl(journal, "alarm"))

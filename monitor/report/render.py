@@ -50,7 +50,8 @@ def to_json(report: Report) -> dict[str, Any]:
         "alarm_source": report.alarm_origin,
         "alarms": [{**dict(a), "t_rel": (a["time"] - report.t_first) if isinstance(a.get("time"), (int, float))
                     and report.t_first is not None else None} for a in report.alarms],
-        "quantities": {q.name: {"unit": q.unit, "n": q.n, "min": q.min, "median": q.median, "max": q.max}
+        "quantities": {q.name: {"unit": q.unit, "n": q.n, "min": q.min, "median": q.median, "max": q.max,
+                                **({} if q.held is None else {"held_samples": q.held})}
                        for q in report.quantities},
         "criteria": [dict(v) for v in report.verdicts],
     }
@@ -110,9 +111,14 @@ def to_markdown(report: Report) -> str:
             lines.append(f"| {when} | {a.get('alarm')} | {a.get('state')} | {a.get('previous', '-')} | "
                          f"{_g(a.get('value'))} | {_g(a.get('limit'))} | {a.get('priority', '-')} | "
                          f"{a.get('action') or '-'} |")
-    lines += ["", "## Quantities", "", "| quantity | unit | n | min | median | max |", "|---|---|---|---|---|---|"]
+    lines += ["", "## Quantities", "",
+              "Readings (ne, Te, ...): n, min, median, max over the readings as they arrived; \"held onto\" counts "
+              "the samples a slow channel's readings were held onto (the alignment hold). Derived quantities: "
+              "over the samples.", "",
+              "| quantity | unit | n | min | median | max |", "|---|---|---|---|---|---|"]
     for q in report.quantities:
-        lines.append(f"| {q.name} | {q.unit} | {q.n} | {_g(q.min)} | {_g(q.median)} | {_g(q.max)} |")
+        n = f"{q.n}" if q.held is None or q.held == q.n else f"{q.n} (held onto {q.held} samples)"
+        lines.append(f"| {q.name} | {q.unit} | {n} | {_g(q.min)} | {_g(q.median)} | {_g(q.max)} |")
     lines += ["", "## Plasma criteria (at the shot's median values, discharge on)", ""]
     if not report.verdicts:
         lines.append("No criteria could be evaluated (no discharge-on samples, or the criteria module is absent).")

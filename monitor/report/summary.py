@@ -40,12 +40,18 @@ class LimitSummary:
 
 @dataclass(frozen=True)
 class QuantityStats:
+    """Statistics of one quantity. For a reading (ne, Te, ...) ``n``, min, median and max are over the
+    readings as they arrived; ``held`` is then the number of samples that carried one of them after the
+    alignment hold (a 20 Hz Te held onto a 1 kHz ne clock: n 20 per s, held up to 1000 per s).
+    For a derived quantity ``held`` is None and the figures are over the samples."""
+
     name: str
     unit: str
     n: int
     min: float
     median: float
     max: float
+    held: int | None = None
 
 
 def sample_durations(t: np.ndarray, cap: float) -> np.ndarray:
@@ -137,17 +143,24 @@ def limit_summary(spec: Any, t: np.ndarray, value: np.ndarray, on: np.ndarray, d
                         inside / evaluated if evaluated > 0 else None, tuple(excursions))
 
 
-def quantity_stats(values: Mapping[str, np.ndarray], units: Mapping[str, str],
-                   order: Iterable[str]) -> list[QuantityStats]:
-    """min / median / max of the finite samples of each quantity, in ``order`` then the rest."""
+def quantity_stats(values: Mapping[str, np.ndarray], units: Mapping[str, str], order: Iterable[str],
+                   readings: Mapping[str, np.ndarray] | None = None) -> list[QuantityStats]:
+    """min / median / max of the finite samples of each quantity, in ``order`` then the rest. A quantity
+    in ``readings`` (its values as read, before the alignment hold) is summarised over those, with the
+    number of aligned samples that carried a value as ``held``."""
+    readings = readings or {}
     names = [n for n in order if n in values] + sorted(n for n in values if n not in set(order))
     out: list[QuantityStats] = []
     for name in names:
         v = np.asarray(values[name], dtype=np.float64)
+        held = None
+        if name in readings:
+            held = int(np.count_nonzero(np.isfinite(v)))
+            v = np.asarray(readings[name], dtype=np.float64)
         v = v[np.isfinite(v)]
         if len(v) == 0:
-            out.append(QuantityStats(name, units.get(name, ""), 0, math.nan, math.nan, math.nan))
+            out.append(QuantityStats(name, units.get(name, ""), 0, math.nan, math.nan, math.nan, held))
             continue
         out.append(QuantityStats(name, units.get(name, ""), int(len(v)), float(v.min()), float(np.median(v)),
-                                 float(v.max())))
+                                 float(v.max()), held))
     return out

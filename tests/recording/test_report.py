@@ -77,6 +77,46 @@ def test_report_numbers_against_hand_computation(tmp_path: Path) -> None:
     json.dumps(js, allow_nan=False)
 
 
+HELD_CONFIG = """
+[device]
+length = "0.3m"
+[discharge]
+on_above = 1e15
+[sources]
+max_age = { default = "250ms", Te = "0.5s" }
+"""
+
+
+def test_te_count_is_the_readings_not_the_held_samples(tmp_path: Path) -> None:
+    """ne every 0.1 s (101 rows); Te only every 5th row (t = 0.0, 0.5, ..., 10.0: 21 readings, 2, 3, 4, 2, ...
+    eV), `nan` in the rows between; Te is held 0.5 s, so every one of the 101 samples carries a Te."""
+    t = np.round(np.arange(101) * 0.1, 10)
+    ne = np.full(101, 5e16)
+    ne[t < 1.0] = 1e14
+    te = np.full(101, np.nan)
+    te[::5] = [2.0 + i % 3 for i in range(21)]
+    csv = tmp_path / "held.csv"
+    csv.write_text("t,ne,Te\n" + "".join(f"{a!r},{b!r},{c!r}\n" for a, b, c in zip(t.tolist(), ne.tolist(),
+                                                                                      te.tolist())))
+    cfg = tmp_path / "held.toml"
+    cfg.write_text(HELD_CONFIG)
+    r = build_report(csv, config_path=str(cfg))
+    q = {s.name: s for s in r.quantities}
+    # by hand: 21 Te readings (7 each of 2, 3 and 4 eV), held onto all 101 samples; ne read in every row
+    assert q["Te"].n == 21
+    assert q["Te"].held == 101
+    assert (q["Te"].min, q["Te"].median, q["Te"].max) == (2.0, 3.0, 4.0)
+    assert (q["ne"].n, q["ne"].held) == (101, 101)
+    assert r.samples_by_quantity["Te"] == 21
+    assert q["debye_length"].n == 101 and q["debye_length"].held is None     # derived: per sample
+    md = to_markdown(r)
+    assert "| Te | eV | 21 (held onto 101 samples) | 2 | 3 | 4 |" in md
+    assert "| ne | m^-3 | 101 | 1e+14 | 5e+16 | 5e+16 |" in md
+    js = to_json(r)["quantities"]
+    assert (js["Te"]["n"], js["Te"]["held_samples"]) == (21, 101)
+    assert "held_samples" not in js["debye_length"]
+
+
 def test_deadband_hysteresis_and_unknown_samples_in_excursions() -> None:
     class Spec:
         name, quantity, high, low, off_delay, only_when_on = "x", "ne", 10.0, None, 0.0, True
