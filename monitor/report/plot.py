@@ -13,7 +13,7 @@ from monitor.physics.constants import ELEMENTARY_CHARGE, EPSILON_0, PI
 from monitor.quantities import ALL
 from monitor.report.build import Report
 
-__all__ = ["plot_report", "te_for_debye_length", "te_for_debye_number"]
+__all__ = ["plot_report", "draw_report", "te_for_debye_length", "te_for_debye_number"]
 
 
 def te_for_debye_length(ne: np.ndarray, length: float) -> np.ndarray:
@@ -36,8 +36,36 @@ def _shade(ax: Any, low: float | None, high: float | None) -> None:
         ax.axhspan(low * 1e-6 if low > 0 else -1e300, low, color="tab:red", alpha=0.12, lw=0)
 
 
+def _view(lims: tuple[float, float], bounds: list[float], log: bool) -> tuple[float, float]:
+    """The y range ``lims`` of the data widened so that every limit in ``bounds`` is inside it, with a
+    5 % margin past a limit that widened it (in log space on a log axis)."""
+    lo, hi = float(lims[0]), float(lims[1])
+    marks = [b for b in bounds if math.isfinite(b) and (b > 0 or not log)]
+    if not marks:
+        return lo, hi
+    f = (lambda x: math.log10(x)) if log else (lambda x: x)
+    g = (lambda x: 10.0**x) if log else (lambda x: x)
+    a, b = f(lo), f(hi)
+    new_a, new_b = min(a, *map(f, marks)), max(b, *map(f, marks))
+    pad = 0.05 * ((new_b - new_a) or 1.0)
+    return g(new_a - pad if new_a < a else a), g(new_b + pad if new_b > b else b)
+
+
 def plot_report(report: Report, out: str | Path) -> Path:
     """Draw the figure to ``out`` (PNG). UsageError when matplotlib is not installed."""
+    fig = draw_report(report)                  # UsageError first when matplotlib is missing
+    import matplotlib.pyplot as plt
+
+    out = Path(out)
+    fig.savefig(out, dpi=110)
+    plt.close(fig)
+    return out
+
+
+def draw_report(report: Report) -> Any:
+    """The report's matplotlib Figure (Agg backend): traces with each limit drawn and its outside shaded,
+    every limit inside the visible range; the ne-Te path with the ne and Te limits. UsageError when
+    matplotlib is not installed."""
     try:
         import matplotlib
         matplotlib.use("Agg")
@@ -64,10 +92,12 @@ def plot_report(report: Report, out: str | Path) -> Path:
             ax.set_yscale("log")
         lims = ax.get_ylim()
         _shade_off(ax, t_rel, np.asarray(tr.get("ne", np.full(len(t), np.nan))), report.on_above)
+        bounds: list[float] = []
         for s in specs:
             if s.quantity == name:
                 _shade(ax, s.low, s.high)
-        ax.set_ylim(lims)
+                bounds += [float(b) for b in (s.low, s.high) if b is not None]
+        ax.set_ylim(_view(lims, bounds, ax.get_yscale() == "log"))
         unit = ALL[name].unit if name in ALL else ""
         ax.set_ylabel(f"{name}\n[{unit}]", fontsize=9)
         ax.grid(True, alpha=0.3)
@@ -86,6 +116,13 @@ def plot_report(report: Report, out: str | Path) -> Path:
         lo_t, hi_t = te[ok].min() / 5, te[ok].max() * 5
     else:
         lo_n, hi_n, lo_t, hi_t = 1e14, 1e20, 0.1, 100.0
+    plane_limits = [(s.quantity, float(b)) for s in specs if s.quantity in ("ne", "Te")
+                    for b in (s.low, s.high) if b is not None and math.isfinite(b) and b > 0]
+    for quantity, bound in plane_limits:       # every ne and Te limit inside the plane's view
+        if quantity == "Te":
+            lo_t, hi_t = min(lo_t, bound / 1.5), max(hi_t, bound * 1.5)
+        else:
+            lo_n, hi_n = min(lo_n, bound / 1.5), max(hi_n, bound * 1.5)
     grid_n = np.logspace(math.log10(lo_n), math.log10(hi_n), 200)
     for exp in range(-7, 0):
         lam = 10.0**exp
@@ -99,6 +136,8 @@ def plot_report(report: Report, out: str | Path) -> Path:
     if cutoff is not None and math.isfinite(cutoff):
         ax.axvline(cutoff, color="tab:red", lw=1.0, ls="--")
         ax.text(cutoff, hi_t / 1.5, " cutoff density", color="tab:red", fontsize=8, rotation=90, va="top")
+    for quantity, bound in plane_limits:
+        (ax.axhline if quantity == "Te" else ax.axvline)(bound, color="tab:red", lw=0.8, ls="--")
     if ok.any():
         sc = ax.scatter(ne[ok], te[ok], c=t_rel[ok], s=6, cmap="viridis", zorder=3)
         fig.colorbar(sc, ax=ax, label="time [s]", shrink=0.6)
@@ -108,12 +147,10 @@ def plot_report(report: Report, out: str | Path) -> Path:
     ax.set_ylim(lo_t, hi_t)
     ax.set_xlabel("ne [m^-3]")
     ax.set_ylabel("Te [eV]")
-    ax.set_title("path on the ne-Te plane\n(grey: constant Debye length, green dotted: constant N_D)", fontsize=10)
+    ax.set_title("path on the ne-Te plane\n(grey: constant Debye length, green dotted: constant N_D,\n"
+                 "red dashed: ne and Te limits)", fontsize=10)
     ax.grid(True, which="major", alpha=0.2)
-    out = Path(out)
-    fig.savefig(out, dpi=110)
-    plt.close(fig)
-    return out
+    return fig
 
 
 def _shade_off(ax: Any, t: np.ndarray, ne: np.ndarray, on_above: float) -> None:

@@ -152,6 +152,32 @@ def test_report_command_json_plot_and_no_screen(tmp_path: Path) -> None:
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and png.stat().st_size > 20000
 
 
+def _limit_lines(ax: object, y: float) -> list[object]:
+    """The horizontal straight lines of ``ax`` at height ``y`` (what axhline draws)."""
+    return [ln for ln in ax.get_lines() if len(ln.get_ydata()) == 2 and all(float(v) == y for v in ln.get_ydata())]
+
+
+def test_figure_draws_both_te_limits_inside_the_view(tmp_path: Path) -> None:
+    pytest.importorskip("matplotlib")
+    from monitor.report.plot import draw_report
+
+    csv, cfg = _shot(tmp_path)           # Te 3 eV throughout: both band limits lie outside the data's range
+    cfg.write_text(CONFIG + '[[limit]]\nname = "Te_band"\nquantity = "Te"\nlow = 1.0\nhigh = 5.0\n')
+    fig = draw_report(build_report(csv, config_path=str(cfg)))
+    try:
+        (trace,) = [ax for ax in fig.axes if ax.get_ylabel().startswith("Te\n")]
+        (plane,) = [ax for ax in fig.axes if ax.get_ylabel() == "Te [eV]"]
+        for ax in (trace, plane):
+            lo, hi = ax.get_ylim()
+            for bound in (1.0, 5.0):
+                assert _limit_lines(ax, bound), f"no line at Te = {bound} on {ax.get_ylabel()!r}"
+                assert lo < bound < hi, f"Te = {bound} outside the view {lo:g}..{hi:g} of {ax.get_ylabel()!r}"
+        assert max(trace.get_lines()[0].get_ydata()) == 3.0        # the trace itself is the data
+    finally:
+        import matplotlib.pyplot as plt
+        plt.close(fig)
+
+
 def test_headless_replay_never_imports_the_screen(tmp_path: Path) -> None:
     csv, cfg = _shot(tmp_path)
     code = (
