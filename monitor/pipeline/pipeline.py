@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import collections
+import json
 import math
 import re
 import time
@@ -12,11 +13,13 @@ from typing import Callable, Iterable, Mapping
 import numpy as np
 
 from adapters.batch import Batch, Rejection
+from adapters.framing import DTYPES, MAX_FRAME, SEQ_MAX
 from monitor.config import Config
 from monitor.model import Frame
 from monitor.pipeline.align import Aligner
 from monitor.pipeline.rolling import Rolling
-from monitor.pipeline.validate import SeqTimeState, Verdict, find_restart, validate
+from monitor.pipeline.validate import (CLOCK_RESTART, SeqTimeState, Verdict, find_clock_restart, find_restart,
+                                       validate)
 from monitor.snapshot import SourceCounts, Stats
 
 __all__ = ["Pipeline"]
@@ -24,7 +27,9 @@ __all__ = ["Pipeline"]
 _RATE_SPAN = 2.0      # s of data time over which the reading rate is measured
 _RATE_BUCKET = 0.1
 _AUXILIARY = frozenset({"Ti", "B", "p0"})
-_KEEP_REFUSED = 100_000     # seq numbers of refused lines remembered until their gap is seen
+_KEEP_REFUSED = 100_000     # seq spans of refused lines and frames remembered until their gap is seen
+# the most readings a binary batch within the default frame limit can hold (one field of 4-byte values)
+_MOST_IN_FRAME = MAX_FRAME // min(np.dtype(d).itemsize for d in DTYPES)
 _SEQ_IN_RAW = re.compile(rb'(?:\bseq\s*=\s*|"seq"\s*:\s*)(\d{1,18})\b')
 
 
@@ -39,6 +44,7 @@ class _Counts:
     last_wall_time: float | None = None
     rate_buckets: dict[int, int] = field(default_factory=dict)
     first_time: float | None = None
+    # [first, past-the-last) seq numbers of readings an adapter refused
     refused_seqs: collections.deque = field(default_factory=lambda: collections.deque(maxlen=_KEEP_REFUSED))
 
     def add_rate(self, t: np.ndarray) -> None:
@@ -86,11 +92,12 @@ class Pipeline:
     """
 
     def __init__(self, config: Config | None = None, *, derive: Callable | None = None,
-                 wall: Callable[[], float] = time.time) -> None:
+                 wall: Callable[[], float] = time.time, clock_restart: float = CLOCK_RESTART) -> None:
         self.config = config if config is not None else Config()
         opts = self.config.pipeline
         self._derive = derive if derive is not None else _default_derive()
         self._wall = wall
+        self._clock_restart = clock_restart
         self._aligner = Aligner(self.config.max_age, dict(self.config.max_age_by_key))
         self._seq: dict[str, SeqTimeState] = {}
         self._counts: dict[str, _Counts] = {}
@@ -110,15 +117,17 @@ class Pipeline:
     def reject(self, rejections: Iterable[Rejection]) -> None:
         """Count and keep rejections an adapter made (malformed lines, bad frames, ...).
 
-        A refused line or JSON frame that still shows its ``seq`` is remembered,
-        so that the gap it leaves is not counted once more as lost."""
+        Each counts as the readings it stands for (``_refused_span``): a line or
+        frame as one, a binary batch whose header still reads as its ``n``.
+        The seq numbers it still shows are remembered, so that the gap it
+        leaves is not counted once more as lost."""
         for r in rejections:
             c = self._c(r.source)
-            c.rejected[r.reason] += 1
+            n, span = _refused_span(r.raw)
+            c.rejected[r.reason] += n
             self.rejected_samples.append(r)
-            m = _SEQ_IN_RAW.search(r.raw[:4096]) if b'"fields"' not in r.raw[:4096] else None
-            if m is not None:
-                c.refused_seqs.append(int(m.group(1)))
+            if span is not None:
+                c.refused_seqs.append(span)
 
     def refuse_batch(self, batch: Batch, reason: str, detail: str = "") -> list[Rejection]:
         """Count and keep every reading of ``batch`` as refused (used when processing it failed);
@@ -172,17 +181,22 @@ class Pipeline:
         counts.last_wall_time = self._wall()
         state = self._seq.setdefault(source, SeqTimeState())
         seq = None if batch.seq is None else np.asarray(batch.seq, dtype=np.int64)
+        mapped = self.config.channels.apply(batch)
         k = find_restart(seq, state)
+        clock = find_clock_restart(mapped.t, mapped.values, seq, state, self._clock_restart)
+        keep_seq = clock is not None and (k is None or clock < k)
+        if keep_seq:
+            k = clock
         if k is not None:
-            # a restarted publisher: finish the old stream, then start over
+            # a restarted publisher or clock: finish the old stream, then start over (a seq
+            # that goes on through a restarted clock keeps its reference, so gaps still count)
             head = self.process(_slice(batch, 0, k)) if k > 0 else None
             counts.restarts += 1
-            self._seq[source] = SeqTimeState()
+            self._seq[source] = SeqTimeState(last_seq=state.last_seq if keep_seq else None)
             self._aligner.reset(source)
             self._rolling.pop(source, None)
             tail = self.process(_slice(batch, k, len(batch)))
             return _concat(head, tail) if head is not None else tail
-        mapped = self.config.channels.apply(batch)
         for key, n in mapped.unknown.items():
             counts.unknown[key] += n
         verdict = validate(mapped.t, mapped.values, seq, state)
@@ -255,28 +269,75 @@ class Pipeline:
             self.rejected_samples.append(rej)
 
 
+def _refused_span(raw: bytes) -> tuple[int, tuple[int, int] | None]:
+    """How many readings a refused input stands for, and the seq numbers [first, past-the-last) it shows.
+
+    A text line or a JSON frame is one reading, numbered by the ``seq`` its
+    text still shows. A binary batch whose JSON header still reads is its
+    ``n`` readings numbered on from its ``seq`` (none without one); when its
+    ``n`` cannot be trusted (not a count, or more than a frame holds) it counts
+    as one, standing for its first seq, and the gap its other readings leave
+    counts them as lost. Either way each seq number is counted once.
+    """
+    head = raw[:4096]
+    if b'"fields"' not in head:
+        return 1, _seq_shown(head)
+    try:
+        h, _ = json.JSONDecoder().raw_decode(raw.decode("utf-8", "replace").lstrip())
+    except (ValueError, RecursionError):
+        return 1, None
+    if not isinstance(h, dict) or not isinstance(h.get("fields"), list):
+        return 1, _seq_shown(head)                  # a JSON reading that names a key "fields"
+    n, seq = h.get("n"), h.get("seq")
+    seq = seq if type(seq) is int and 0 <= seq < SEQ_MAX else None
+    if type(n) is int and 0 < n <= _MOST_IN_FRAME and (seq is None or seq <= SEQ_MAX - n):
+        return n, (None if seq is None else (seq, seq + n))
+    if n == 0:
+        return 1, None                           # a refused frame that carried no reading
+    return 1, (None if seq is None else (seq, seq + 1))
+
+
+def _seq_shown(text: bytes) -> tuple[int, int] | None:
+    m = _SEQ_IN_RAW.search(text)
+    return None if m is None else (int(m.group(1)), int(m.group(1)) + 1)
+
+
 def _refused_in_gaps(counts: _Counts, verdict: Verdict, last_seq: int | None) -> int:
     """How many seq numbers in this batch's gaps belong to readings an adapter refused
     (they were received, so they are rejected, not lost); forgets those and older ones."""
     if not counts.refused_seqs:
         return 0
     found = 0
-    r = np.sort(np.fromiter(counts.refused_seqs, dtype=np.int64, count=len(counts.refused_seqs)))
+    spans = np.array(counts.refused_seqs, dtype=np.int64).reshape(-1, 2)
     if verdict.gap_lo is not None and len(verdict.gap_lo):
-        lo = np.searchsorted(r, verdict.gap_lo, side="right")
-        hi = np.searchsorted(r, verdict.gap_hi, side="left")
-        inside = np.zeros(len(r) + 1, dtype=np.int64)
-        np.add.at(inside, lo, 1)
-        np.add.at(inside, hi, -1)
-        in_gap = np.cumsum(inside)[:-1] > 0
-        # a seq refused twice (a duplicate) still fills one gap position only
-        found = int(len(np.unique(r[in_gap])))
+        # a seq refused twice (a duplicate) still fills one gap position only: the union of the spans
+        a, b = _union(spans[:, 0], spans[:, 1])
+        # each gap holds the seq numbers gap_lo + 1 .. gap_hi - 1
+        found = int((_covered(a, b, verdict.gap_hi) - _covered(a, b, verdict.gap_lo + 1)).sum())
     if last_seq is not None:
-        keep = r[r > last_seq]
-        if len(keep) != len(r):
+        keep = spans[spans[:, 1] > last_seq + 1]
+        if len(keep) != len(spans):
             counts.refused_seqs.clear()
-            counts.refused_seqs.extend(keep.tolist())
+            counts.refused_seqs.extend(tuple(x) for x in keep.tolist())
     return found
+
+
+def _union(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The union of the spans [lo, hi) as sorted, disjoint spans."""
+    order = np.argsort(lo, kind="stable")
+    lo, hi = lo[order], hi[order]
+    new = np.ones(len(lo), dtype=bool)
+    new[1:] = lo[1:] > np.maximum.accumulate(hi)[:-1]
+    starts = np.flatnonzero(new)
+    return lo[starts], np.maximum.reduceat(hi, starts)
+
+
+def _covered(a: np.ndarray, b: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """For each x, how many integers below it lie in the sorted, disjoint spans [a, b)."""
+    before = np.concatenate(([0], np.cumsum(b - a)))
+    i = np.searchsorted(a, x, side="left")          # spans that start below x
+    j = np.maximum(i - 1, 0)
+    return np.where(i > 0, before[j] + np.minimum(x, b[j]) - a[j], 0)
 
 
 def _fmt(x: float) -> str:

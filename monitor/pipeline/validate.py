@@ -1,4 +1,5 @@
-"""Validation of readings as they arrive: bad values, time going backwards, duplicate or backwards seq, seq gaps."""
+"""Validation of readings as they arrive: bad values, time going backwards, duplicate or backwards seq, seq gaps,
+and the restarts of a source's seq or clock."""
 
 from __future__ import annotations
 
@@ -7,7 +8,8 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["ABSURD", "POSITIVE", "Verdict", "SeqTimeState", "validate", "find_restart", "RESTART_GAP"]
+__all__ = ["ABSURD", "POSITIVE", "Verdict", "SeqTimeState", "validate", "find_restart", "find_clock_restart",
+           "RESTART_GAP", "CLOCK_RESTART"]
 
 # Magnitudes beyond which a reading is refused as absurd (canonical units).
 # ne above 1e33 m^-3 is beyond solid density by several orders, Te/Ti above
@@ -19,6 +21,13 @@ POSITIVE: frozenset[str] = frozenset({"ne", "Te", "Ti", "p0"})
 # A seq that falls back by more than this (or to 0) is a restarted publisher,
 # not a stream of duplicates: the source's seq and time references start over.
 RESTART_GAP = 1000
+# A reading whose time falls back by more than this many seconds behind the
+# latest accepted time is a restarted clock (an instrument that rebooted, a
+# clock reset far into the past, a wild future time before it), not jitter:
+# the source's time reference starts over. Smaller steps back stay
+# ``time_backwards``; a clock that restarts less than this far back costs at
+# most this many seconds of readings, refused and kept, until it catches up.
+CLOCK_RESTART = 10.0
 
 _FIXED = ("time_not_finite", "time_backwards", "seq_duplicate", "seq_backwards", "no_channels")
 
@@ -75,6 +84,39 @@ def find_restart(seq: np.ndarray | None, state: SeqTimeState) -> int | None:
     return int(idx[0]) if len(idx) else None
 
 
+def find_clock_restart(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | None,
+                       state: SeqTimeState, gap: float = CLOCK_RESTART) -> int | None:
+    """Index of the first reading whose clock restarted, or None; ``state`` is not changed.
+
+    A reading restarts the clock when it would pass every check but time
+    (its time finite, its values good, its seq, if any, above the latest) and
+    its time lies more than ``gap`` seconds before the time reference
+    ``validate`` holds for it (the latest accepted time). A reading whose seq
+    steps back is not one: with its time far back it is more likely a reading
+    sent again (a logger replaying its buffer) than a restart, and accepting
+    it would count the same reading twice; it stays refused (as
+    ``time_backwards``, time being judged first).
+    """
+    n = len(t)
+    if n == 0 or not gap < np.inf:
+        return None
+    # cheap screens: the latest time of any reading bounds the time reference from above
+    lo, hi = float(np.fmin.reduce(t)), float(np.fmax.reduce(t))
+    if lo != lo or lo >= max(state.last_t, hi) - gap:
+        return None                       # no time at all, or none so far back from any other
+    tf = np.isfinite(t)
+    if not (t < _before(np.where(tf, t, -np.inf), state.last_t) - gap).any():
+        return None
+    code, _ = _value_code(values, n)
+    good = tf & (code == 0)
+    if seq is not None:
+        s = seq.astype(np.int64, copy=False)
+        good &= s > _before(s, state.last_seq if state.last_seq is not None else int(s[0]) - 1)
+    # the same reference validate uses: readings that pass the value and seq checks
+    idx = np.flatnonzero(good & (t < _before(np.where(good, t, -np.inf), state.last_t) - gap))
+    return int(idx[0]) if len(idx) else None
+
+
 def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | None,
              state: SeqTimeState) -> Verdict:
     """Judge each reading; update ``state`` (latest time, latest seq).
@@ -88,34 +130,13 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     readings move the time reference on; every reading with a seq moves the
     seq reference on (a refused reading was received, so it is not lost).
     Seq gaps between readings that pass the seq check count as lost readings.
+    A restarted seq or clock (``find_restart``, ``find_clock_restart``) is the
+    caller's to handle before: here every step back is refused.
     """
     n = len(t)
-    reasons: list[str] = list(_FIXED)
-    code = np.zeros(n, dtype=np.int64)
     if n == 0:
-        return Verdict(code, tuple(reasons), 0)
-    # lowest priority first; each later check overwrites
-    carried_any = np.zeros(n, dtype=bool)
-    checks: list[tuple[str, np.ndarray]] = []
-    for key in sorted(values, key=_order):
-        v = values[key]
-        carried = ~np.isnan(v)
-        carried_any |= carried
-        limit = ABSURD.get(key, np.inf)
-        # fast path: the smallest and largest carried values (NaN ignored) show whether any is bad
-        lo, hi = float(np.fmin.reduce(v)), float(np.fmax.reduce(v))
-        if lo != lo or ((lo > 0 or key not in POSITIVE) and -limit <= lo and hi <= limit
-                        and -np.inf < lo and hi < np.inf):
-            continue          # nothing carried, or every carried value finite, in range and positive
-        finite = np.isfinite(v)
-        checks.append((f"{key}_not_finite", carried & ~finite))
-        if key in POSITIVE:
-            checks.append((f"{key}_not_positive", finite & (v <= 0)))
-        if limit != np.inf:
-            checks.append((f"{key}_absurd", finite & (np.abs(v) > limit)))
-    _set(code, ~carried_any, reasons, "no_channels")
-    for name, mask in reversed(checks):
-        _set(code, mask, reasons, name)
+        return Verdict(np.zeros(0, dtype=np.int64), _FIXED, 0)
+    code, reasons = _value_code(values, n)
     lost = 0
     gap_lo = gap_hi = None
     if seq is not None:
@@ -141,6 +162,35 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
     _set(code, ~tf, reasons, "time_not_finite")
     state.last_t = float(max(state.last_t, tt.max()))
     return Verdict(code, tuple(reasons), lost, gap_lo, gap_hi)
+
+
+def _value_code(values: Mapping[str, np.ndarray], n: int) -> tuple[np.ndarray, list[str]]:
+    """Codes and reasons of the value checks alone (0 = every value it carries is good)."""
+    reasons: list[str] = list(_FIXED)
+    code = np.zeros(n, dtype=np.int64)
+    # lowest priority first; each later check overwrites
+    carried_any = np.zeros(n, dtype=bool)
+    checks: list[tuple[str, np.ndarray]] = []
+    for key in sorted(values, key=_order):
+        v = values[key]
+        carried = ~np.isnan(v)
+        carried_any |= carried
+        limit = ABSURD.get(key, np.inf)
+        # fast path: the smallest and largest carried values (NaN ignored) show whether any is bad
+        lo, hi = float(np.fmin.reduce(v)), float(np.fmax.reduce(v))
+        if lo != lo or ((lo > 0 or key not in POSITIVE) and -limit <= lo and hi <= limit
+                        and -np.inf < lo and hi < np.inf):
+            continue          # nothing carried, or every carried value finite, in range and positive
+        finite = np.isfinite(v)
+        checks.append((f"{key}_not_finite", carried & ~finite))
+        if key in POSITIVE:
+            checks.append((f"{key}_not_positive", finite & (v <= 0)))
+        if limit != np.inf:
+            checks.append((f"{key}_absurd", finite & (np.abs(v) > limit)))
+    _set(code, ~carried_any, reasons, "no_channels")
+    for name, mask in reversed(checks):
+        _set(code, mask, reasons, name)
+    return code, reasons
 
 
 def _order(key: str) -> tuple[int, str]:

@@ -262,3 +262,52 @@ def test_an_open_that_fails_for_now_is_retried(collect: CollectSink) -> None:
     assert s.summary()["accepted"] == 10
     retried = [st for st in collect.statuses if st.state is LinkState.DISCONNECTED]
     assert [st.retries for st in retried] == [1, 2] and "port busy" in retried[0].message
+
+
+def test_a_refused_binary_batch_over_zeromq_is_counted_once() -> None:
+    # real sockets: an XPUB on ipc:// and the ZeroMQ source; totals: sent = accepted + rejected + lost
+    import json
+    import tempfile
+
+    import zmq
+
+    from adapters.zmq_stream import ZmqSource
+    from monitor.commands.simulate import encode_binary
+
+    ctx = zmq.Context()
+    d = tempfile.mkdtemp(prefix="rgm")                     # ipc:// paths must stay short
+    ep = f"ipc://{d}/feed.ipc"
+    pub = ctx.socket(zmq.XPUB)
+    pub.setsockopt(zmq.LINGER, 0)
+    pub.bind(ep)
+    src = ZmqSource(ep, context=ctx, name="probe")
+    s = Session(src, Config(), [], live=True)
+    try:
+        s.open()
+        deadline = time.monotonic() + 10
+        while not pub.poll(0, zmq.POLLIN):
+            s.step(0.02)
+            assert time.monotonic() < deadline, "no subscription arrived"
+        pub.recv()
+        batches = [steady(1.0 + k, seq0=1000 * k) for k in range(4)]          # 4 x 1000 readings
+        parts = [encode_binary(b, ("ne", "Te")) for b in batches]
+        header = json.loads(parts[1][0])
+        header["dtype"] = "|O"                                                  # refused: bad_dtype
+        parts[1] = (json.dumps(header).encode(), parts[1][1])
+        parts[2] = (parts[2][0], parts[2][1][:-8])                              # refused: size_mismatch
+        for p in parts:
+            pub.send_multipart(list(p))
+        deadline = time.monotonic() + 10
+        while s.summary()["accepted"] < 2000:                                   # the last batch is in
+            s.step(0.05)
+            assert time.monotonic() < deadline, s.summary()
+        summary = s.summary()
+    finally:
+        s.close()
+        pub.close(0)
+        ctx.term()
+        import shutil
+        shutil.rmtree(d, ignore_errors=True)
+    assert summary["rejected"] == {"bad_dtype": 1000, "size_mismatch": 1000}
+    assert summary["lost"] == 0
+    assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == 4000
