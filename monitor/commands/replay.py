@@ -22,8 +22,10 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--speed", metavar="X|max", default=None,
                         help="times data time (1 = as recorded, 10 = ten times faster) or 'max' "
                              "(default: max headless, 1 on the screen)")
-    parser.add_argument("--from", dest="start", metavar="T", type=float, help="start at data time T (s)")
-    parser.add_argument("--to", dest="stop", metavar="T", type=float, help="stop after data time T (s)")
+    parser.add_argument("--from", dest="start", metavar="T",
+                        help="start T s after the file's first reading; @T: at data time T (the file's own t, "
+                             "s), @2026-01-01T10:00:10+00:00: at that clock time (ISO 8601)")
+    parser.add_argument("--to", dest="stop", metavar="T", help="stop after T s from the first reading; @T as --from")
     parser.add_argument("--map", metavar="F", help="TOML file with a [channels] table for foreign columns, "
                                                    "e.g. time_ms = {quantity = \"t\", unit = \"ms\"}")
     parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
@@ -60,19 +62,17 @@ class _Progress:
 def run(args: argparse.Namespace) -> int:
     from adapters.base import FatalSourceError
     from monitor.headless import HeadlessPrinter
-    from monitor.recording.replaying import open_file, parse_speed
+    from monitor.recording.replaying import open_file, parse_speed, parse_window_time, window_text
     from monitor.session import Session, make_engine
 
     if args.json and not args.headless:
         raise UsageError("--json needs --headless")
     speed = parse_speed(args.speed) if args.speed is not None else (None if args.headless else 1.0)
-    for name in ("start", "stop"):
-        value = getattr(args, name)
-        if value is not None and not math.isfinite(value):
-            raise UsageError(f"--{'from' if name == 'start' else 'to'} must be a finite time in s")
+    start = None if args.start is None else parse_window_time(args.start, "--from")
+    stop = None if args.stop is None else parse_window_time(args.stop, "--to")
     try:
         opened = open_file(args.file, config_path=args.config, map_path=args.map, speed=speed,
-                           start=args.start, stop=args.stop, on_damage=args.on_damage)
+                           start=start, stop=stop, on_damage=args.on_damage)
     except FatalSourceError as exc:
         print(f"regime replay: {exc}", file=sys.stderr)
         return EXIT_SOURCE
@@ -83,8 +83,9 @@ def run(args: argparse.Namespace) -> int:
     outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False)
     session = Session(source, config, outputs.sinks, engine=engine, live=False)
     outputs.bind(session)
+    window = window_text(start, stop)
     if not args.headless:
-        return _screen(session, args)
+        return _screen(session, args, window)
     printer = HeadlessPrinter(sys.stdout, as_json=args.json)
     session.add_sink(printer)
     progress = _Progress(not args.quiet)
@@ -115,10 +116,26 @@ def run(args: argparse.Namespace) -> int:
     if session.failure is not None:
         print(f"regime replay: source failed: {session.failure}", file=sys.stderr)
         return EXIT_SOURCE
-    return EXIT_OK
+    return _empty_window(source, args, window)
 
 
-def _screen(session: Any, args: argparse.Namespace) -> int:
+def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
+    """Exit 2, said on stderr, when a --from/--to window within the file's span was played to its end
+    and held no reading (a gap in the data, or damage before it). A window wholly outside the span
+    was refused before the replay (open_file)."""
+    from adapters.base import LinkState
+
+    if not window or source.released or source.status().state is not LinkState.ENDED:
+        return EXIT_OK
+    why = "no reading lies in that stretch of the file"
+    if source.damage is not None:
+        why = f"the file is damaged at line {source.damage[0]}, before it (--on-damage skip goes on past it)"
+    print(f"regime replay: {args.file}: {window} selects no readings: {why}; --from/--to are seconds from "
+          f"the file's first reading, @T an absolute data time", file=sys.stderr)
+    return EXIT_USAGE
+
+
+def _screen(session: Any, args: argparse.Namespace, window: str) -> int:
     try:
         found = importlib.util.find_spec("monitor.tui.app") is not None
     except ModuleNotFoundError:
@@ -146,4 +163,6 @@ def _screen(session: Any, args: argparse.Namespace) -> int:
     from monitor.headless import human_summary
 
     print(human_summary(session.summary()))
-    return EXIT_SOURCE if session.failure is not None else EXIT_OK
+    if session.failure is not None:
+        return EXIT_SOURCE
+    return _empty_window(session.source, args, window)

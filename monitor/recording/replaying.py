@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import datetime as _dt
+import math
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
@@ -12,7 +14,7 @@ from adapters.csv_file import CsvSource
 from monitor.errors import ConfigError, UsageError
 from monitor.recording.csvformat import RecordingInfo, read_info
 
-__all__ = ["Opened", "open_file", "parse_speed", "sibling"]
+__all__ = ["Opened", "WindowTime", "open_file", "parse_speed", "parse_window_time", "sibling", "window_text"]
 
 
 @dataclass(frozen=True)
@@ -41,6 +43,48 @@ def parse_speed(text: str | None) -> float | None:
     if not v > 0 or v == float("inf"):
         raise UsageError(f"--speed: must be positive, got {text!r}")
     return v
+
+
+@dataclass(frozen=True)
+class WindowTime:
+    """A ``--from``/``--to`` value: ``seconds`` from the file's first reading, or with ``absolute``
+    the file's own data time in s (its time column after the map's unit)."""
+
+    seconds: float
+    absolute: bool = False
+    text: str = ""
+
+    def resolve(self, first: float) -> float:
+        return self.seconds if self.absolute else first + self.seconds
+
+
+_WINDOW_HELP = ("seconds from the file's first reading (e.g. 10 or 2.5), or @ and an absolute data time: "
+                "@1767261610.5 (the file's own t, s) or @2026-01-01T10:00:10+00:00 (ISO 8601; without an "
+                "offset, local time)")
+
+
+def parse_window_time(text: str, option: str) -> WindowTime:
+    """``10`` -> 10 s after the first reading; ``@1767261610.5`` -> that data time;
+    ``@2026-01-01T10:00:10Z`` -> its seconds since the epoch (local time without an offset)."""
+    body = str(text).strip()
+    absolute = body.startswith("@")
+    if absolute:
+        body = body[1:].strip()
+    value: float | None
+    try:
+        value = float(body)
+    except ValueError:
+        value = None
+        if absolute:
+            try:
+                value = _dt.datetime.fromisoformat(body).timestamp()
+            except (ValueError, OverflowError, OSError):
+                value = None
+    if value is None or not math.isfinite(value):
+        raise UsageError(f"{option}: expected {_WINDOW_HELP}; got {text!r}")
+    if not absolute and value < 0:
+        raise UsageError(f"{option}: {text!r} is before the file's first reading; expected {_WINDOW_HELP}")
+    return WindowTime(value, absolute, str(text).strip())
 
 
 def _read_toml(path: str | Path, what: str) -> dict[str, Any]:
@@ -91,10 +135,11 @@ def _time_column(config: Any, columns: tuple[str, ...]) -> tuple[str, float]:
 
 
 def open_file(path: str | Path, *, config_path: str | None = None, map_path: str | None = None,
-              speed: float | None = None, start: float | None = None, stop: float | None = None,
+              speed: float | None = None, start: WindowTime | None = None, stop: WindowTime | None = None,
               on_damage: str = "stop") -> Opened:
-    """Read the file's header, choose the config, build the CsvSource (opened). FatalSourceError
-    (exit 3) when the file cannot be read; ConfigError/UsageError (exit 2) for bad options."""
+    """Read the file's header, choose the config, build the CsvSource (opened) and bound it to the
+    window ``start``..``stop``. FatalSourceError (exit 3) when the file cannot be read;
+    ConfigError/UsageError (exit 2) for bad options, and for a window wholly outside the file's readings."""
     p = Path(path)
     if not p.is_file():
         raise FatalSourceError(f"{p}: no such file")
@@ -107,10 +152,39 @@ def open_file(path: str | Path, *, config_path: str | None = None, map_path: str
     if time_column not in info.header.columns:
         raise UsageError(f"{p}: no time column: the header has {', '.join(info.header.columns)}; name one 't' "
                          f"or map one, e.g. [channels] time_ms = {{quantity = \"t\", unit = \"ms\"}}")
-    if start is not None and stop is not None and stop < start:
-        raise UsageError("--to must not be before --from")
-    source = CsvSource(p, speed=speed, start=start, stop=stop, time_column=time_column, time_scale=scale,
-                       on_damage=on_damage)
+    source = CsvSource(p, speed=speed, time_column=time_column, time_scale=scale, on_damage=on_damage)
     source.open()
+    if start is not None or stop is not None:
+        try:
+            source.set_window(*_window(p, source, start, stop))
+        except UsageError:
+            source.close()
+            raise
     return Opened(source=source, config=config, info=info, config_origin=origin)
+
+
+def window_text(start: WindowTime | None, stop: WindowTime | None) -> str:
+    """The window as the operator gave it, e.g. ``--from 40 --to 50``."""
+    return " ".join(f"{name} {w.text or w.seconds}" for name, w in (("--from", start), ("--to", stop))
+                    if w is not None)
+
+
+def _window(p: Path, source: CsvSource, start: WindowTime | None,
+            stop: WindowTime | None) -> tuple[float | None, float | None]:
+    """The window in the file's data time; UsageError if it cannot select any reading."""
+    first, last = source.first_time, source.end_time
+    given = window_text(start, stop)
+    if first is None:
+        damage = "" if source.damage is None else f" (damaged at line {source.damage[0]}: {source.damage[1]})"
+        raise UsageError(f"{p}: {given} selects no readings: the file has no readable reading{damage}")
+    a = start.resolve(first) if start is not None else None
+    b = stop.resolve(first) if stop is not None else None
+    if a is not None and b is not None and b < a:
+        raise UsageError(f"{given}: --to is at data time {b!r} s, before --from at {a!r} s")
+    if (a is not None and last is not None and a > last) or (b is not None and b < first):
+        span = f"{last - first:g} s" if last is not None else "an unknown length"
+        raise UsageError(f"{p}: {given} selects no readings: the file's readings run from 0 to {span} after "
+                         f"its first (data time {first!r} to {last!r} s); give seconds from the first reading, "
+                         f"or @T for an absolute data time")
+    return a, b
 
