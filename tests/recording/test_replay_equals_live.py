@@ -57,3 +57,31 @@ def test_envelope_in_force_comes_from_the_recording(tmp_path: Path, envelope: Pa
     again = subprocess.run([*REGIME, "replay", str(shot), "--config", str(envelope), "--headless", "--json",
                             "--quiet"], capture_output=True, text=True, timeout=300, cwd=ROOT, env=env())
     assert _alarms(again.stdout.splitlines()) == replayed
+
+
+def test_a_forward_seek_over_the_excursion_still_replays_to_the_live_journal(tmp_path: Path) -> None:
+    from adapters.csv_file import CsvSource
+    from monitor.alarms.journal import JournalSink, read_journal
+    from monitor.recording.replaying import open_file
+    from monitor.session import Session, make_engine
+
+    envelope = ROOT / "monitor" / "demo" / "envelope.toml"
+    live, _, _, shot = _watch_and_replay(tmp_path, envelope, "sim:excursion?speed=max&rate=1000&seed=3")
+    t = np.array([float(r.split(",", 1)[0]) for r in data_rows(shot)])
+    in_shot = [e for e in live if t[0] <= e[2] <= t[-1]]
+    raised = [e for e in in_shot if e[1] == "unacknowledged"]
+    assert raised
+    # replay in this process, and seek from before the first raise to past the last event of the shot
+    opened = open_file(shot, speed=None)                  # the config embedded in the shot
+    opened.source.close()
+    journal = JournalSink(tmp_path / "seeked.alarms.jsonl", append=False)
+    source = CsvSource(shot, batch_rows=100)              # 0.1 s of 1 kHz data a step
+    session = Session(source, opened.config, [journal], engine=make_engine(opened.config), live=False)
+    session.open()
+    while (session.now() or t[0]) < raised[0][2] - 1.0:
+        assert session.step(0.0)
+    assert session.now() < raised[0][2] and in_shot[-1][2] + 0.5 < t[-1]
+    assert session.seek(in_shot[-1][2] + 0.5)
+    session.run()
+    session.close()
+    assert [(d["alarm"], d["state"], d["time"]) for d in read_journal(journal.path)] == in_shot
