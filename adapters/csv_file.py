@@ -170,7 +170,7 @@ class CsvSource:
         self._anchor: tuple[float, float] | None = None   # (wall, data time)
         self._current: float | None = None
         self._catch_up: float | None = None   # a forward seek's target: rows before it are due at once
-        self._played: float | None = None
+        self._played: float | None = None     # data time of the last row handed out since the (re)wind
         self.released = 0                     # rows handed out in batches (a replay window that selects none)
         self._pending_rejections: list[Rejection] = []
 
@@ -185,7 +185,7 @@ class CsvSource:
         self._pos = 0
         self._eof = False
         self._ended = False
-        self._played: float | None = None      # data time of the last row handed out since the (re)wind
+        self._played = None
 
     # -- parsing -----------------------------------------------------------------------------------
     def _read_block(self) -> bool:
