@@ -28,20 +28,24 @@ _DEVICE_KEYS: dict[str, tuple[str, str]] = {
     "sigma_en": ("sigma_en", "area"),
 }
 _SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key", "allow_remote"}
-_PIPELINE_KEYS = {"window", "bins", "trail_seconds", "trail_points", "keep_rejected"}
+_PIPELINE_KEYS = {"window", "bins", "trail_seconds", "trail_points", "keep_rejected", "clock_restart"}
 
 
 @dataclass(frozen=True)
 class PipelineOptions:
     """``[pipeline]``: rolling window (s of data time) split into ``bins`` buckets;
     trails for the screen over ``trail_seconds`` at ``trail_points`` points;
-    ``keep_rejected`` recent rejections kept in memory (all of them go to the sinks)."""
+    ``keep_rejected`` recent rejections kept in memory (all of them go to the sinks);
+    ``clock_restart`` how far (s) a source's time may fall back before it counts as a
+    restarted clock rather than readings refused as ``time_backwards`` (``"off"``: never;
+    the same default as ``monitor.pipeline.validate.CLOCK_RESTART``)."""
 
     window: float = 10.0
     bins: int = 200
     trail_seconds: float = 60.0
     trail_points: int = 600
     keep_rejected: int = 1000
+    clock_restart: float = 10.0
 
 
 @dataclass(frozen=True)
@@ -225,6 +229,10 @@ def _parse_pipeline(table: Mapping[str, Any], path: str | Path | None) -> Pipeli
     d = PipelineOptions()
     window = _number(table, "window", "time", d.window, path, "pipeline", positive=True)
     trail_seconds = _number(table, "trail_seconds", "time", d.trail_seconds, path, "pipeline", positive=True)
+    if table.get("clock_restart") == "off":
+        clock_restart = math.inf
+    else:
+        clock_restart = _number(table, "clock_restart", "time", d.clock_restart, path, "pipeline", positive=True)
     ints: dict[str, int] = {}
     for key, lo, hi in (("bins", 2, 100_000), ("trail_points", 2, 1_000_000), ("keep_rejected", 0, 10_000_000)):
         if key in table:
@@ -234,4 +242,4 @@ def _parse_pipeline(table: Mapping[str, Any], path: str | Path | None) -> Pipeli
             ints[key] = v
     return PipelineOptions(window=window, trail_seconds=trail_seconds,
                            bins=ints.get("bins", d.bins), trail_points=ints.get("trail_points", d.trail_points),
-                           keep_rejected=ints.get("keep_rejected", d.keep_rejected))
+                           keep_rejected=ints.get("keep_rejected", d.keep_rejected), clock_restart=clock_restart)

@@ -18,7 +18,7 @@ from monitor.config import Config
 from monitor.model import Frame
 from monitor.pipeline.align import Aligner
 from monitor.pipeline.rolling import Rolling
-from monitor.pipeline.validate import (CLOCK_RESTART, SeqTimeState, Verdict, find_clock_restart, find_restart,
+from monitor.pipeline.validate import (SeqTimeState, Verdict, find_clock_restart, find_restart,
                                        validate)
 from monitor.snapshot import SourceCounts, Stats
 
@@ -92,12 +92,12 @@ class Pipeline:
     """
 
     def __init__(self, config: Config | None = None, *, derive: Callable | None = None,
-                 wall: Callable[[], float] = time.time, clock_restart: float = CLOCK_RESTART) -> None:
+                 wall: Callable[[], float] = time.time, clock_restart: float | None = None) -> None:
         self.config = config if config is not None else Config()
         opts = self.config.pipeline
         self._derive = derive if derive is not None else _default_derive()
         self._wall = wall
-        self._clock_restart = clock_restart
+        self._clock_restart = opts.clock_restart if clock_restart is None else clock_restart   # [pipeline]
         self._aligner = Aligner(self.config.max_age, dict(self.config.max_age_by_key))
         self._seq: dict[str, SeqTimeState] = {}
         self._counts: dict[str, _Counts] = {}

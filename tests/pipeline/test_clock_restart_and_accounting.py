@@ -102,6 +102,30 @@ def test_the_threshold_is_a_setting() -> None:
     assert not p.counts()["probe"].rejected and p.restarts()["probe"] == 1
 
 
+def test_the_threshold_is_a_pipeline_config_key() -> None:
+    # [pipeline] clock_restart in seconds or with a unit, "off" for never; the default is the module's.
+    from monitor.config import ConfigError, parse_config
+
+    assert parse_config({}, None).pipeline.clock_restart == CLOCK_RESTART
+    t = np.array([0.0, 60.0, 1.0, 2.0])
+    p = Pipeline(parse_config({"pipeline": {"clock_restart": "off"}}, None))
+    p.process(make_batch(t, ne=1e17, Te=3.0))
+    assert dict(p.counts()["probe"].rejected) == {"time_backwards": 2} and p.restarts()["probe"] == 0
+    p = Pipeline(parse_config({"pipeline": {"clock_restart": "30s"}}, None))
+    p.process(make_batch(t, ne=1e17, Te=3.0))
+    assert not p.counts()["probe"].rejected and p.restarts()["probe"] == 1
+    p = Pipeline(parse_config({"pipeline": {"clock_restart": "2min"}}, None))   # 59 s back: jitter at 120 s
+    p.process(make_batch(t, ne=1e17, Te=3.0))
+    assert dict(p.counts()["probe"].rejected) == {"time_backwards": 2}
+    for bad in (0, -5, "fast", True):
+        try:
+            parse_config({"pipeline": {"clock_restart": bad}}, None)
+        except ConfigError as exc:
+            assert "clock_restart" in str(exc)
+        else:
+            raise AssertionError(f"clock_restart = {bad!r} was accepted")
+
+
 @settings(max_examples=150, deadline=None)
 @given(st.lists(st.tuples(st.sampled_from(["on", "jitter", "restart", "nan"]), st.floats(0.0, 5.0)),
                 max_size=80),
