@@ -1,16 +1,35 @@
-"""Append-only files that keep whole lines only (a failed write is cut back), and JSON Lines writers."""
+"""Append-only files that keep whole lines only (a failed write is cut back), JSON Lines writers, the start-up write check."""
 
 from __future__ import annotations
 
 import base64
+import errno
 import json
 import os
+import tempfile
 from pathlib import Path
 from typing import Any, Mapping
 
 from adapters.batch import Rejection
 
-__all__ = ["LineFile", "rejection_json"]
+__all__ = ["LineFile", "rejection_json", "check_writable"]
+
+
+def check_writable(directory: str | os.PathLike[str]) -> None:
+    """Create ``directory`` if needed and prove a file can be written in it (a probe file, removed
+    again); raise OSError with the reason (permission, read-only file system, a file in the way,
+    disk full) otherwise. Mode bits alone would not tell (root, ACLs, read-only mounts)."""
+    path = Path(directory)
+    if path.exists() and not path.is_dir():
+        raise NotADirectoryError(errno.ENOTDIR, "it exists and is not a directory", str(path))
+    path.mkdir(parents=True, exist_ok=True)
+    fd, probe = tempfile.mkstemp(prefix=".regime-write-check-", dir=path)
+    try:
+        os.write(fd, b"regime write check\n")
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+        os.unlink(probe)
 
 
 class LineFile:
@@ -47,6 +66,10 @@ class LineFile:
                     pass
             raise
         self.size += done
+
+    def unlinked(self) -> bool:
+        """True when the file was deleted (or its directory removed) while open: writes would still succeed."""
+        return self._fd is not None and os.fstat(self._fd).st_nlink == 0
 
     def fsync(self) -> None:
         if self._fd is not None:

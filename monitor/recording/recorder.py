@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import collections
 import datetime as _dt
+import errno
 import os
 import re
 import sys
@@ -42,9 +43,16 @@ class RecorderStatus:
     file: str | None
     shots: int
     rows_written: int
-    rows_idle: int
+    rows_idle: int          # readings outside any shot, not recorded (split="discharge")
     dropped: int
     errors: int
+    split: str = "discharge"
+    rows_pending: int = 0   # formatted, waiting for the next write (or for the disk to accept it)
+
+    @property
+    def complete(self) -> bool:
+        """Every reading that belonged to a shot reached the disk, and no write is failing now."""
+        return self.ok and self.dropped == 0
 
 
 class Recorder:
@@ -91,7 +99,12 @@ class Recorder:
         self._closed = False
         self._session: tuple[Any, Any] | None = None
         self._session_stamp = utc_stamp(clock())
+        # own alarm events wait here and are handed to ``emit`` only once the lock is released:
+        # the session calls this sink under its own lock, so emitting under ours could deadlock
+        self._outbox: collections.deque[AlarmEvent] = collections.deque()
+        self._emit_lock = threading.Lock()
         self._open_session_files()
+        self._deliver()
         self._stop = threading.Event()
         self._flusher = threading.Thread(target=self._flush_loop, name="recorder-flush", daemon=True)
         self._flusher.start()
@@ -166,6 +179,7 @@ class Recorder:
                 elif action.kind == "close":
                     self._close_shot()
             self._maybe_flush(force=False)
+        self._deliver()
 
     def on_rejections(self, rejections: list[Rejection]) -> None:
         if not rejections:
@@ -175,6 +189,7 @@ class Recorder:
             self._safe(lambda: self._session and self._session[1].write(data), "rejects side file")
             if self._stream is not None:
                 self._safe(lambda: self._stream.rejects.write(data), "rejects side file")
+        self._deliver()
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
@@ -184,6 +199,7 @@ class Recorder:
                 self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal", self._stream.journal)
             else:
                 self._idle_events.append(event)
+        self._deliver()
 
     def on_status(self, status: SourceStatus) -> None:
         return None
@@ -202,6 +218,7 @@ class Recorder:
                     except OSError as exc:
                         self._problem(f"closing the session files: {exc}")
                 self._session = None
+        self._deliver()
         self._stop.set()
         self._flusher.join(timeout=2.0)
 
@@ -217,7 +234,7 @@ class Recorder:
             ok = self._error is None
             msg = self._error or (f"recording {self.recording}" if self._stream else "waiting for a discharge")
             return RecorderStatus(ok, msg, self.recording, self._shots, self._rows_written, self._rows_idle,
-                                  self._dropped, self._errors)
+                                  self._dropped, self._errors, self.options.split, self._pending_rows)
 
     # -- shots ---------------------------------------------------------------------------------------
     def _columns_for(self, base: Mapping[str, np.ndarray], sigma: Mapping[str, np.ndarray]) -> tuple[str, ...]:
@@ -360,6 +377,9 @@ class Recorder:
             return
         data = "".join(self._pending).encode("ascii")
         try:
+            if self._stream.csv.unlinked():
+                # the file (or its directory) was deleted while open: writing on would succeed into nothing
+                raise FileNotFoundError(errno.ENOENT, "the file was deleted while it was being recorded")
             self._stream.csv.write(data)
             if self.options.fsync and (force or now - self._last_fsync >= self.options.flush_interval):
                 self._stream.csv.fsync()
@@ -385,6 +405,7 @@ class Recorder:
         while not self._stop.wait(period):
             with self._lock:
                 self._maybe_flush(force=False)
+            self._deliver()
 
     def _safe(self, write: Callable[[], Any], what: str, journal: Any = None) -> None:
         """Run one write; an OSError, or a journal that counts a new error of its own (the alarm
@@ -421,10 +442,24 @@ class Recorder:
             except OSError:
                 pass
         if self._emit is not None:
+            self._outbox.append(event)
+
+    def _deliver(self) -> None:
+        """Hand the queued own alarm events to ``emit``, in order, with the recorder's lock not held.
+        One thread delivers at a time; one that finds another delivering leaves the queue to it
+        (never waits: the deliverer may itself be waiting for the session's lock)."""
+        while self._outbox:
+            if not self._emit_lock.acquire(blocking=False):
+                return
             try:
-                self._emit(event)
-            except Exception:   # a listener's failure must not stop the recording
-                pass
+                while self._outbox:
+                    event = self._outbox.popleft()
+                    try:
+                        self._emit(event)   # type: ignore[misc]
+                    except Exception:   # a listener's failure must not stop the recording
+                        pass
+            finally:
+                self._emit_lock.release()
 
     def _report(self, message: str) -> None:
         print(f"regime recorder: {message}", file=sys.stderr, flush=True)
