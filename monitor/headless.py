@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import signal
@@ -15,12 +16,14 @@ from monitor.alarms.events import AlarmEvent
 from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
-__all__ = ["ATTENTION", "HeadlessPrinter", "jsonable", "status_record", "human_status", "human_summary", "run_headless",
-           "install_signals", "restore_signals"]
+__all__ = ["ATTENTION", "EXIT_RECORDING", "HeadlessPrinter", "jsonable", "status_record", "human_status",
+           "human_summary", "recorder_record", "human_recorder", "run_headless", "install_signals", "restore_signals"]
 
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
 # states that want the operator's attention (the others: normal, shelved, suppressed, out_of_service)
 ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
+# the run ended, the source did not fail, but readings of a shot did not reach the disk (or writes still fail)
+EXIT_RECORDING = 4
 
 
 def jsonable(x: Any) -> Any:
@@ -46,6 +49,28 @@ def _active(snap: Snapshot) -> list[dict[str, Any]]:
             out.append({"alarm": v.alarm, "state": state, "priority": getattr(v.priority, "value", v.priority),
                         "quantity": v.quantity, "value": v.value})
     return out
+
+
+def recorder_record(status: Any) -> dict[str, Any]:
+    """The recorder's RecorderStatus as the ``"recorder"`` object of the status and summary lines."""
+    return {
+        "ok": status.ok, "complete": status.complete, "message": status.message, "file": status.file,
+        "shots": status.shots, "rows_written": status.rows_written, "rows_pending": status.rows_pending,
+        "split": status.split, "outside_shots_not_recorded": status.rows_idle,
+        "dropped": status.dropped, "errors": status.errors,
+    }
+
+
+def human_recorder(rec: Mapping[str, Any]) -> str:
+    """``recorded N`` with the readings outside shots that were not recorded, and any loss, loudly."""
+    text = f"recorded {rec['rows_written']:,}"
+    if rec["split"] != "none":
+        text += f" (outside shots: {rec['outside_shots_not_recorded']:,} not recorded)"
+    if rec["dropped"]:
+        text += f"  RECORDER DROPPED {rec['dropped']:,}"
+    if not rec["ok"]:
+        text += f"  RECORDER FAILING: {rec['message']}"
+    return text
 
 
 def status_record(snap: Snapshot) -> dict[str, Any]:
@@ -80,6 +105,8 @@ def status_record(snap: Snapshot) -> dict[str, Any]:
                          "speed": snap.replay.speed, "paused": snap.replay.paused}
     if snap.recording:
         rec["recording"] = snap.recording
+    if snap.recorder is not None:
+        rec["recorder"] = recorder_record(snap.recorder)
     return jsonable(rec)
 
 
@@ -116,6 +143,8 @@ def human_status(snap: Snapshot) -> str:
         parts.append("FLOOD")
     if rec["chattering"]:
         parts.append("chattering: " + ", ".join(rec["chattering"]))
+    if "recorder" in rec:
+        parts.append(human_recorder(rec["recorder"]))
     if rec["message"] and rec["state"] != "connected":
         parts.append(f"({rec['message']})")
     return "  ".join(parts)
@@ -135,6 +164,16 @@ def human_summary(summary: Mapping[str, Any]) -> str:
         lines.append("  unknown keys: " + ", ".join(f"{k} {v}" for k, v in summary["unknown_keys"].items()))
     if summary.get("failure"):
         lines.append(f"  source failure: {summary['failure']}")
+    rec = summary.get("recorder")
+    if rec:
+        line = f"  recorder: shots {rec['shots']}, readings written {rec['rows_written']:,}"
+        if rec["split"] != "none":
+            line += f", outside shots: {rec['outside_shots_not_recorded']:,} not recorded"
+        line += f", dropped {rec['dropped']:,}, write errors {rec['errors']}"
+        lines.append(line)
+        if not rec["complete"]:
+            lines.append(f"  RECORDING INCOMPLETE: {rec['dropped']:,} readings of shots did not reach the disk"
+                         + ("" if rec["ok"] else f"; {rec['message']}"))
     return "\n".join(lines)
 
 
@@ -222,31 +261,49 @@ _AUTO = object()
 def run_headless(source: Any, config: Any, *, json: bool = False, duration: float | None = None,
                  live: bool = True, sinks: Iterable[Any] = (), engine: Any = _AUTO,
                  stream: TextIO | None = None, stop: threading.Event | None = None,
-                 on_session: Callable[[Any], None] | None = None) -> int:
+                 on_session: Callable[[Any], None] | None = None, recorder: Any = None) -> int:
     """Run ``source`` through a Session with status lines once a second and a summary at the end
-    (after ``duration`` wall seconds, the source's end, SIGINT or SIGTERM). Exit code 0, or 3 if
-    the source failed. ``engine`` defaults to the alarm engine built from ``config``."""
+    (after ``duration`` wall seconds, the source's end, SIGINT or SIGTERM). ``engine`` defaults to
+    the alarm engine built from ``config``; ``recorder`` (one of ``sinks``) adds its status to the
+    lines and the summary. ``on_session`` is called once the printer is a sink, so that events
+    raised before (the recorder's) reach it. Exit code 0, 3 if the source failed, else
+    EXIT_RECORDING (4) if the recording is incomplete (readings of a shot dropped, or writes
+    still failing at the end)."""
     from monitor.errors import EXIT_OK, EXIT_SOURCE
     from monitor.session import Session, make_engine
 
     if engine is _AUTO:
         engine = make_engine(config)
     session = Session(source, config, list(sinks), engine=engine, live=live)
-    if on_session is not None:
-        on_session(session)
     printer = HeadlessPrinter(stream if stream is not None else sys.stdout, as_json=json)
     session.add_sink(printer)
+    if on_session is not None:
+        on_session(session)
+
+    def snapshot() -> Snapshot:
+        snap = session.snapshot()
+        return snap if recorder is None else dataclasses.replace(snap, recorder=recorder.status())
+
     stop = stop if stop is not None else threading.Event()
     previous = install_signals(stop)
+    final = None
     try:
         session.open()
-        session.run(duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
+        session.run(duration, stop, on_interval=lambda s: printer.status(snapshot()), interval=1.0)
     finally:
         restore_signals(previous)
         session.close()
-        printer.status(session.snapshot())
-        printer.summary(session.summary())
+        printer.status(snapshot())
+        summary = session.summary()
+        if recorder is not None:
+            final = recorder.status()
+            summary["recorder"] = recorder_record(final)
+        printer.summary(summary)
     if session.failure is not None:
         print(f"regime: source failed: {session.failure}", file=sys.stderr)
         return EXIT_SOURCE
+    if final is not None and not final.complete:
+        print(f"regime: the recording is incomplete: {final.dropped} readings of shots did not reach the disk"
+              + ("" if final.ok else f" ({final.message})"), file=sys.stderr)
+        return EXIT_RECORDING
     return EXIT_OK

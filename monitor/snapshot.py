@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Any, Mapping
 
 import numpy as np
 
@@ -84,3 +84,4 @@ class Snapshot:
     flood: bool = False
     alarm_rate_10min: int = 0
     chattering: tuple[str, ...] = ()
+    recorder: Any = None                               # the recorder's RecorderStatus, when the run records

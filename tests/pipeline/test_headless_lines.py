@@ -1,7 +1,8 @@
-"""Headless lines: the status record's keys, NaN as null, alarm counts by state, the printer as a sink."""
+"""Headless lines: the status record's keys, NaN as null, alarm counts by state, the printer as a sink, the recorder's status."""
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import json
 import math
@@ -10,7 +11,8 @@ import numpy as np
 
 from adapters.base import LinkState, SourceStatus
 from monitor.alarms.events import AlarmEvent, AlarmState, Priority
-from monitor.headless import HeadlessPrinter, human_status, jsonable, status_record
+from monitor.headless import HeadlessPrinter, human_status, human_summary, jsonable, recorder_record, status_record
+from monitor.recording import RecorderStatus
 from monitor.snapshot import AlarmView, Snapshot, SourceCounts, Stats
 
 
@@ -64,3 +66,38 @@ def test_printer_writes_one_json_object_per_line() -> None:
     assert recs[0] == json.loads(json.dumps(ev.to_json()))
     assert recs[1]["state"] == "disconnected" and recs[1]["retries"] == 2
     assert recs[3]["x"] is None
+
+
+def recorder(**kw: object) -> RecorderStatus:
+    base = dict(ok=True, message="recording shots/shot-0002.csv", file="shots/shot-0002.csv", shots=2,
+                rows_written=4500, rows_idle=300, dropped=0, errors=0, split="discharge", rows_pending=20)
+    base.update(kw)
+    return RecorderStatus(**base)  # type: ignore[arg-type]
+
+
+def test_status_lines_carry_the_recorder_and_what_it_did_not_record() -> None:
+    s = dataclasses.replace(snap(), recorder=recorder())
+    rec = status_record(s)["recorder"]
+    assert rec == {"ok": True, "complete": True, "message": "recording shots/shot-0002.csv",
+                   "file": "shots/shot-0002.csv", "shots": 2, "rows_written": 4500, "rows_pending": 20,
+                   "split": "discharge", "outside_shots_not_recorded": 300, "dropped": 0, "errors": 0}
+    assert "recorded 4,500 (outside shots: 300 not recorded)" in human_status(s)
+    assert "recorder" not in status_record(snap())               # no recorder, no key
+    every = dataclasses.replace(snap(), recorder=recorder(split="none", rows_idle=0))
+    assert "outside shots" not in human_status(every)             # split = "none" records them all
+    failing = dataclasses.replace(snap(), recorder=recorder(ok=False, message="cannot write x: disk full", dropped=7))
+    line = human_status(failing)
+    assert "RECORDER DROPPED 7" in line and "RECORDER FAILING: cannot write x: disk full" in line
+    assert status_record(failing)["recorder"]["complete"] is False
+
+
+def test_summary_says_what_was_recorded_and_when_the_recording_is_incomplete() -> None:
+    base = {"source": "probe", "accepted": 4800, "rejected": {}, "lost": 0, "state": "ended", "alarm_events": 1}
+    text = human_summary({**base, "recorder": recorder_record(recorder())})
+    assert "  recorder: shots 2, readings written 4,500, outside shots: 300 not recorded, dropped 0, " \
+           "write errors 0" in text.splitlines()
+    assert "INCOMPLETE" not in text
+    lost = human_summary({**base, "recorder": recorder_record(recorder(ok=False, message="disk full", dropped=12,
+                                                                       errors=3))})
+    assert "  RECORDING INCOMPLETE: 12 readings of shots did not reach the disk; disk full" in lost.splitlines()
+    assert "recorder" not in human_summary(base)
