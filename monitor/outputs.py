@@ -2,32 +2,57 @@
 
 from __future__ import annotations
 
+import dataclasses
 import importlib.util
+import threading
 from dataclasses import dataclass, field
 from typing import Any
 
 from monitor.alarms.events import AlarmEvent
 from monitor.errors import UsageError
 
-__all__ = ["Outputs", "build_outputs"]
+__all__ = ["Outputs", "build_outputs", "publisher_endpoint"]
 
 
 @dataclass
 class Outputs:
-    """The sinks of a run and the late link from the recorder's own alarm to the session."""
+    """The sinks of a run and the late link from the recorder's own alarm to the session.
+
+    Events the recorder raises before ``bind`` (a journal it could not open while the session
+    was still being built) are queued and handed over, in order, when the session attaches."""
 
     sinks: list[Any] = field(default_factory=list)
     recorder: Any = None
     _session: Any = None
+    _early: list[AlarmEvent] = field(default_factory=list)
+    _lock: threading.Lock = field(default_factory=threading.Lock)
 
     def relay(self, event: AlarmEvent) -> None:
         """The recorder's write alarm reaches the screen, the printers and the publisher."""
-        if self._session is not None:
-            self._session.emit(event, origin=self.recorder)
+        with self._lock:
+            session = self._session
+            if session is None:
+                self._early.append(event)
+                return
+        session.emit(event, origin=self.recorder)
 
     def bind(self, session: Any) -> None:
-        """Attach to the session that now carries these sinks."""
-        self._session = session
+        """Attach to the session that now carries these sinks, and deliver what came before."""
+        with self._lock:
+            self._session = session
+            early, self._early = self._early, []
+        for event in early:
+            session.emit(event, origin=self.recorder)
+
+    def recorder_status(self) -> Any:
+        """The recorder's RecorderStatus, or None when the run does not record."""
+        return self.recorder.status() if self.recorder is not None else None
+
+    def annotate(self, snapshot: Any) -> Any:
+        """``snapshot`` with the recorder's status in its ``recorder`` field (unchanged without a recorder)."""
+        if snapshot is None or self.recorder is None:
+            return snapshot
+        return dataclasses.replace(snapshot, recorder=self.recorder.status())
 
 
 def _available(name: str) -> bool:
@@ -37,29 +62,61 @@ def _available(name: str) -> bool:
         return False
 
 
+def publisher_endpoint(alarm_pub: str, config: Any, allow_remote: bool = False) -> tuple[str, bool]:
+    """The endpoint the alarm publisher binds, and whether it may bind beyond loopback: asked for by
+    ``allow_remote`` (``--allow-remote``) or by ``[sources] allow_remote = true`` in the config, the same
+    opt-in that lets a ZeroMQ source connect off this machine. Raise UsageError for a non-loopback
+    address without it."""
+    from monitor.alarms.publisher import normalise_endpoint
+
+    remote = bool(allow_remote or getattr(config, "allow_remote", False))
+    return normalise_endpoint(alarm_pub, allow_remote=remote), remote
+
+
+def _recording_directory(directory: str, flag: str) -> None:
+    """Refuse, before any reading is taken, a directory that cannot be created or written."""
+    from monitor.recording.files import check_writable
+
+    try:
+        check_writable(directory)
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+        raise UsageError(f"{flag} {directory}: cannot record there: {reason}") from None
+
+
 def build_outputs(config: Any, *, source_name: str, record: str | None = None,
-                  alarm_pub: str | None = None, config_directory: bool = True) -> Outputs:
+                  alarm_pub: str | None = None, config_directory: bool = True,
+                  allow_remote: bool = False) -> Outputs:
     """Recorder (``record`` or ``[recording] directory``), alarm publisher, and the command hooks
-    of ``[alarms]``; raise UsageError for an output that cannot be made. A replay passes
-    ``config_directory=False`` so that an old shot's ``[recording]`` table does not record it again."""
+    of ``[alarms]``; raise UsageError for an output that cannot be made (a recording directory that
+    cannot be created or written, a publisher address that is refused or cannot be bound). A replay
+    passes ``config_directory=False`` so that an old shot's ``[recording]`` table does not record it again."""
     out = Outputs()
-    directory = record
+    directory, flag = record, "--record"
     if directory is None and config_directory:
         directory = getattr(getattr(config, "recording", None), "directory", None)
+        flag = "[recording] directory"
     if directory:
         if not _available("monitor.recording"):
-            raise UsageError("--record: the recorder is not available in this build")
+            raise UsageError(f"{flag}: the recorder is not available in this build")
         from monitor.recording import Recorder
 
+        _recording_directory(str(directory), flag)
         try:
             out.recorder = Recorder(directory, config, source_name=source_name, emit=out.relay)
         except OSError as exc:
-            raise UsageError(f"--record {directory}: {exc.strerror or exc}") from None
+            raise UsageError(f"{flag} {directory}: {exc.strerror or exc}") from None
         out.sinks.append(out.recorder)
     if alarm_pub:
         from monitor.alarms.publisher import AlarmPublisher
 
-        out.sinks.append(AlarmPublisher(alarm_pub))
+        endpoint, remote = publisher_endpoint(alarm_pub, config, allow_remote)
+        try:
+            out.sinks.append(AlarmPublisher(endpoint, allow_remote=remote))
+        except UsageError:
+            if out.recorder is not None:
+                out.recorder.close()
+            raise
     from monitor.alarms.hooks import hook_sink
 
     hooks = hook_sink(getattr(config, "alarms", None))

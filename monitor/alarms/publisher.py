@@ -29,8 +29,8 @@ def normalise_endpoint(endpoint: str | None, *, allow_remote: bool = False) -> s
         raise UsageError(f"alarm publisher endpoint {endpoint!r}: use tcp://127.0.0.1:PORT, PORT or ipc://PATH")
     host = ep[len("tcp://"):].rsplit(":", 1)[0]
     if host not in _LOOPBACK and not allow_remote:
-        raise UsageError(f"alarm publisher endpoint {endpoint!r} is not loopback; "
-                         "binding beyond this machine must be asked for explicitly")
+        raise UsageError(f"alarm publisher endpoint {endpoint!r} is not loopback; binding beyond this machine "
+                         "must be asked for explicitly (--allow-remote, or [sources] allow_remote = true)")
     return ep
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import importlib.util
 import math
 import sys
@@ -25,6 +26,9 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
     parser.add_argument("--duration", metavar="S", type=float, help="stop after S seconds (wall clock)")
     parser.add_argument("--alarm-pub", metavar="ENDPOINT", help="publish alarm events on ZeroMQ (PUB) at ENDPOINT")
+    parser.add_argument("--allow-remote", action="store_true",
+                        help="ZeroMQ beyond loopback: let --alarm-pub bind a non-loopback address and a tcp:// "
+                             "SOURCE connect off this machine (as [sources] allow_remote = true)")
 
 
 def _module(name: str) -> Any | None:
@@ -48,16 +52,19 @@ def run(args: argparse.Namespace) -> int:
     if args.duration is not None and not (args.duration > 0 and math.isfinite(args.duration)):
         raise UsageError(f"--duration must be a positive number of seconds, got {args.duration}")
     config = load_config(args.config)
+    if getattr(args, "allow_remote", False) and not config.allow_remote:
+        config = dataclasses.replace(config, allow_remote=True)
     source = open_source(args.source, config)
     engine = make_engine(config)
+    # a recording directory that cannot be written, or a refused publisher address, stops here (exit 2),
+    # before the source is opened and any reading is taken
     outputs = build_outputs(config, source_name=getattr(source, "name", args.source), record=args.record,
                             alarm_pub=args.alarm_pub)
     if args.headless:
         return run_headless(source, config, json=args.json, duration=args.duration, live=is_live(args.source),
-                            sinks=outputs.sinks, engine=engine, on_session=outputs.bind)
+                            sinks=outputs.sinks, engine=engine, on_session=outputs.bind, recorder=outputs.recorder)
     session = Session(source, config, outputs.sinks, engine=engine, live=is_live(args.source))
-    outputs.bind(session)
-    return _screen(session, config)
+    return _screen(session, config, outputs)
 
 
 # kept for the other commands that share the signal handling
@@ -71,7 +78,7 @@ def _restore_signals(previous: dict[int, Any]) -> None:
     restore_signals(previous)
 
 
-def _screen(session: Any, config: Any) -> int:
+def _screen(session: Any, config: Any, outputs: Any) -> int:
     if _module("monitor.tui.app") is None or _module("monitor.tui.launch") is None:
         for sink in session.sinks:
             close = getattr(sink, "close", None)
@@ -79,12 +86,31 @@ def _screen(session: Any, config: Any) -> int:
                 close()
         print("regime watch: the screen is not available in this build; use --headless", file=sys.stderr)
         return EXIT_USAGE
-    from monitor.headless import human_summary
-    from monitor.tui.feed import EventTap
-    from monitor.tui.launch import run_screen, settings_for
+    from monitor.headless import EXIT_RECORDING, human_summary, recorder_record
+    from monitor.tui.app import RegimeApp
+    from monitor.tui.feed import EventTap, SessionFeed
+    from monitor.tui.launch import settings_for
+
+    class RecordedFeed(SessionFeed):
+        """The session's snapshots with the recorder's status, for the sources panel."""
+
+        def snapshot(self) -> Any:
+            return outputs.annotate(super().snapshot())
 
     tap = EventTap()
     session.add_sink(tap)
-    code = run_screen(session, tap, settings_for(config, title=f"regime watch {session.name}"))
-    print(human_summary(session.summary()))
-    return EXIT_SOURCE if session.failure is not None else code
+    outputs.bind(session)          # after the tap: the recorder's early events reach the journal screen
+    app = RegimeApp(RecordedFeed(session, tap), settings_for(config, title=f"regime watch {session.name}"))
+    try:
+        app.run()
+    finally:
+        app.stop.set()
+        session.close()
+    summary = session.summary()
+    final = outputs.recorder_status()
+    if final is not None:
+        summary["recorder"] = recorder_record(final)
+    print(human_summary(summary))
+    if session.failure is not None:
+        return EXIT_SOURCE
+    return EXIT_RECORDING if final is not None and not final.complete else 0

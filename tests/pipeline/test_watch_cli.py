@@ -357,3 +357,28 @@ def test_a_source_that_can_never_work_exits_3(tmp_path: Path) -> None:
     assert "source failed" in out.stderr and "missing.key" in out.stderr
     recs = json_lines(out.stdout)
     assert recs[-1]["type"] == "summary" and recs[-1]["state"] == "failed" and recs[-1]["accepted"] == 0
+
+
+def test_recorder_status_in_the_lines_accounts_for_every_reading(tmp_path: Path) -> None:
+    shots = tmp_path / "shots"
+    out = regime("watch", "sim:excursion?speed=max&rate=200", "--headless", "--json", "--record", str(shots),
+                 "--allow-remote", "--alarm-pub", "tcp://127.0.0.1:*")       # the opt-in, used on loopback
+    assert out.returncode == 0, out.stderr
+    recs = json_lines(out.stdout)
+    status = [r for r in recs if r["type"] == "status"]
+    assert status and all("recorder" in r for r in status)
+    summary = recs[-1]
+    rec = summary["recorder"]
+    assert rec["ok"] and rec["complete"] and rec["dropped"] == 0 and rec["split"] == "discharge"
+    rows = sum(1 for p in shots.rglob("shot-*.csv") for line in p.read_text().splitlines()
+               if line and not line.startswith(("#", "t,")))
+    assert rows == rec["rows_written"] > 0
+    # the readings before and after the discharge are not recorded, and the status says how many
+    assert rec["outside_shots_not_recorded"] > 0
+    assert rec["rows_written"] + rec["outside_shots_not_recorded"] == summary["accepted"] == 9000
+    human = regime("watch", "sim:excursion?speed=max&rate=200", "--headless", "--record", str(tmp_path / "h"))
+    assert human.returncode == 0, human.stderr
+    last_status = [line for line in human.stdout.splitlines() if line.startswith("[")][-1]
+    assert f"recorded {rec['rows_written']:,} (outside shots: {rec['outside_shots_not_recorded']:,} not recorded)" \
+        in last_status
+    assert f"  recorder: shots 1, readings written {rec['rows_written']:,}" in human.stdout
