@@ -1,6 +1,9 @@
-"""The sources panel: link state, rate, age of the last reading, accepted / rejected / lost; trouble is loud."""
+"""The sources panel: link state, rate, age of the last reading, accepted / rejected / lost, and the recorder; trouble is loud."""
 
 from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
 
 from rich.text import Text
 from textual.app import RenderResult
@@ -13,7 +16,7 @@ from monitor.tui import palette
 from monitor.tui.formatting import fmt_age, fmt_number
 from monitor.tui.renderables.grid import grid_text
 
-__all__ = ["SourcesPanel", "source_trouble"]
+__all__ = ["SourcesPanel", "source_trouble", "recorder_trouble", "recorder_line"]
 
 _LINK = {
     LinkState.CONNECTING: ("◌", "connecting", palette.CAUTION),
@@ -45,6 +48,43 @@ def _count(n: int) -> str:
     return f"{n:,}"
 
 
+def recorder_trouble(status: Any) -> str | None:
+    """``WRITE FAILING`` while the disk refuses writes, ``DROPPED`` once readings of a shot were lost, else None."""
+    if status is None:
+        return None
+    if not status.ok:
+        return "WRITE FAILING"
+    if status.dropped:
+        return "DROPPED"
+    return None
+
+
+def recorder_line(status: Any, *, wide: bool) -> Text:
+    """One line for the recorder: rows written, readings outside shots not recorded (unless
+    split = "none"), dropped, then the file (the first to be cut on a narrow screen); a failing
+    write in words, glyph and colour, with its reason."""
+    trouble = recorder_trouble(status)
+    line = Text(no_wrap=True)
+    if trouble == "WRITE FAILING":
+        line.append("✖", style=palette.ALERT)
+        line.append(" recorder ", style=palette.NORMAL)
+        line.append("WRITE FAILING", style=palette.ALERT + palette.LOUD)
+    else:
+        line.append("●" if status.file else "◌", style=palette.ALERT if trouble else palette.OK_MARK)
+        line.append(" recorder", style=palette.NORMAL)
+    line.append(f"  written {_count(status.rows_written)}", style=palette.DIM)
+    if status.split != "none":
+        line.append(f"  outside shots: {_count(status.rows_idle)} not recorded", style=palette.DIM)
+    line.append(f"  dropped {_count(status.dropped)}", style=palette.ALERT if status.dropped else palette.DIM)
+    if trouble == "WRITE FAILING":
+        line.append(f"  {status.message}", style=palette.ALERT)
+        return line
+    if wide and status.errors:
+        line.append(f"  write errors {status.errors}", style=palette.CAUTION)
+    line.append(f"  {Path(status.file).name}" if status.file else "  between shots", style=palette.DIM)
+    return line
+
+
 class SourcesPanel(Widget):
     """One line per source; a stale or broken link is shown in words, a glyph and colour."""
 
@@ -71,10 +111,12 @@ class SourcesPanel(Widget):
         self._shape: object = None
 
     def watch_snapshot(self, snapshot: Snapshot | None) -> None:
-        trouble = snapshot is not None and any(
+        trouble = snapshot is not None and (any(
             source_trouble(snapshot, n, self.now, self.stale_after) for n in snapshot.sources)
+            or recorder_trouble(snapshot.recorder) is not None)
         self.set_class(bool(trouble) or self.error is not None, "-trouble")
-        shape = (None if snapshot is None else len(set(snapshot.sources) | set(snapshot.counts)), self.error is not None)
+        shape = (None if snapshot is None else len(set(snapshot.sources) | set(snapshot.counts)), self.error is not None,
+                 snapshot is not None and snapshot.recorder is not None)
         if shape != self._shape:
             self._shape = shape
             self.refresh(layout=True)
@@ -112,4 +154,8 @@ class SourcesPanel(Widget):
         if self.error is not None:
             rows.append([Text("✖", style=palette.ALERT), Text("pipeline", style=palette.NORMAL),
                          Text(f"STOPPED: {self.error}", style=palette.ALERT)])
-        return grid_text(rows, max_width=self.size.width or None)
+        out = grid_text(rows, max_width=self.size.width or None)
+        if snap.recorder is not None:
+            out.append("\n")
+            out.append_text(recorder_line(snap.recorder, wide=wide))
+        return out
