@@ -1,14 +1,15 @@
-"""Error roots of the monitor layer: bad usage or configuration (exit 2) and source failure (exit 3)."""
+"""Error roots of the monitor layer: bad usage or configuration (exit 2), source failure (exit 3); exit 4 = recording incomplete."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["MonitorError", "UsageError", "ConfigError", "EXIT_OK", "EXIT_USAGE", "EXIT_SOURCE"]
+__all__ = ["MonitorError", "UsageError", "ConfigError", "EXIT_OK", "EXIT_USAGE", "EXIT_SOURCE", "EXIT_RECORDING"]
 
 EXIT_OK = 0
 EXIT_USAGE = 2
 EXIT_SOURCE = 3
+EXIT_RECORDING = 4      # the run ended, the source did not fail, but readings of a shot did not reach the disk
 
 
 class MonitorError(Exception):

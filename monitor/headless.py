@@ -13,6 +13,7 @@ from typing import Any, Callable, Iterable, Mapping, TextIO
 from adapters.base import SourceStatus
 from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent
+from monitor.errors import EXIT_RECORDING  # re-exported: 4, the recording is incomplete
 from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
@@ -22,8 +23,6 @@ __all__ = ["ATTENTION", "EXIT_RECORDING", "HeadlessPrinter", "jsonable", "status
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
 # states that want the operator's attention (the others: normal, shelved, suppressed, out_of_service)
 ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
-# the run ended, the source did not fail, but readings of a shot did not reach the disk (or writes still fail)
-EXIT_RECORDING = 4
 
 
 def jsonable(x: Any) -> Any:
