@@ -119,11 +119,14 @@ class Pipeline:
 
         Each counts as the readings it stands for (``_refused_span``): a line or
         frame as one, a binary batch whose header still reads as its ``n``.
-        The seq numbers it still shows are remembered, so that the gap it
-        leaves is not counted once more as lost."""
+        The seq numbers it still shows (in its raw text, else ``seq=N`` in its
+        detail) are remembered, so that the gap it leaves is not counted once
+        more as lost."""
         for r in rejections:
             c = self._c(r.source)
             n, span = _refused_span(r.raw)
+            if span is None and n == 1 and r.detail:
+                span = _seq_shown(r.detail.encode("utf-8", "replace"))   # e.g. a CSV line: "... (seq=N)"
             c.rejected[r.reason] += n
             self.rejected_samples.append(r)
             if span is not None:
