@@ -22,6 +22,9 @@ MAGIC = "regime recording"          # first metadata line of our own recordings
 _BLOCK = 4 << 20                    # bytes read per chunk (bounded memory)
 _EMPTY_FIELD = re.compile(rb"(?<=,)(?=,|\r?\n|$)|^(?=,)", re.MULTILINE)
 _SIGMA_PREFIX = "sigma_"
+_KEEP_SKIPPED_LINES = 100           # line numbers of skipped damaged lines kept for the summary
+_SHOW_SKIPPED_LINES = 5             # ... and named in the end message
+_SEQ_MAX = (1 << 62) - 1
 
 
 @dataclass(frozen=True)
@@ -96,7 +99,11 @@ class CsvSource:
     sequence numbers; any other column is passed as a raw key for the channel map.
     ``batch_rows`` caps the rows of one batch (the pipeline's temporaries grow with it).
     ``on_damage`` "stop" ends the replay at the first unreadable line, "skip" rejects it and goes on;
-    either way the line is a Rejection and the status names the line number and the reason.
+    either way the line is a Rejection and the status names the line number and the reason. ``damage``
+    is the first damaged line (number, reason); in skip mode ``skipped`` counts the skipped lines and
+    ``skipped_lines`` holds the first ``_KEEP_SKIPPED_LINES`` of their numbers. A damaged line's
+    rejection detail ends with ``(seq=N)`` where its seq column still reads, so that the pipeline
+    counts it as rejected and not once more as lost.
     """
 
     def __init__(self, path: str | os.PathLike[str], *, speed: float | None = None, start: float | None = None,
@@ -123,6 +130,11 @@ class CsvSource:
         self.name = name or self.path.name
         self.header: CsvHeader | None = None
         self.damage: tuple[int, str] | None = None     # (line number, reason) of the first damage
+        self.skipped = 0                               # damaged lines skipped (skip mode), each once
+        self.skipped_lines: list[int] = []             # their line numbers, the first _KEEP_SKIPPED_LINES
+        self._skipped_reasons: dict[str, int] = {}     # reason token -> skipped lines
+        self._skipped_upto = 0                         # highest line counted (a seek back reads lines again)
+        self._end_label = "end of file"                # or "end of the replay window" (--to)
         self._lock = threading.RLock()
         self._wake = threading.Event()
         self._fh: io.BufferedReader | None = None
@@ -157,7 +169,8 @@ class CsvSource:
                 break
         self._skip_before_start()
         self._state = LinkState.CONNECTED
-        self._message = f"replaying {self.path.name}"
+        if self.damage is None:                        # damage in the first block stays the status
+            self._message = f"replaying {self.path.name}"
 
     def _reset_stream(self) -> None:
         self._rows: np.ndarray = np.empty((0, 0))
@@ -254,10 +267,10 @@ class CsvSource:
             if not stripped or stripped.startswith(b"#"):
                 continue
             reason = ""
+            fields = stripped.split(b",")
             if force_bad_last and i == len(raw_lines) - 1:
                 reason, why = "truncated_line", "the file ends inside a line (cut off mid-write)"
             else:
-                fields = stripped.split(b",")
                 if len(fields) != ncol:
                     reason = "truncated_line" if len(fields) < ncol and i == len(raw_lines) - 1 and self._eof \
                         else "damaged_line"
@@ -267,13 +280,9 @@ class CsvSource:
                         good.append([float(f) if f.strip() else float("nan") for f in fields])
                         lines.append(number)
                         continue
-                    except ValueError as exc:
-                        reason, why = "damaged_line", f"unreadable number ({exc})"
-            detail = f"line {number}: {why}"
-            self._pending_rejections.append(Rejection(self.name, reason, raw, time.time(), detail))
-            if self.damage is None:
-                self.damage = (number, why)
-                self._message = f"{self.path.name}: damaged at {detail}"
+                    except ValueError:
+                        reason, why = "damaged_line", self._unreadable(fields)
+            self._damaged(number, reason, why, raw, fields)
             if self._on_damage == "stop":
                 self._eof = True
                 self._carry = b""
@@ -282,6 +291,81 @@ class CsvSource:
         if len(rows):
             rows[:, self._tcol] *= self._time_scale
         return rows, np.array(lines, dtype=np.int64)
+
+    def _unreadable(self, fields: list[bytes]) -> str:
+        """Why a line with the right number of fields does not read: its first bad field and column."""
+        assert self.header is not None
+        for j, f in enumerate(fields):
+            if not f.strip():
+                continue
+            try:
+                float(f)
+            except ValueError:
+                text = f.strip().decode("utf-8", errors="replace")
+                text = text if len(text) <= 40 else text[:40] + "..."
+                return f"unreadable number {text!r} in column {self.header.columns[j]}"
+        return "unreadable number"
+
+    def _seq_of(self, fields: list[bytes]) -> int | None:
+        """The seq a damaged line still shows in the seq column, if it reads as a whole number."""
+        if self._seqcol is None or self._seqcol >= len(fields):
+            return None
+        try:
+            v = float(fields[self._seqcol])
+        except ValueError:
+            return None
+        return int(v) if v.is_integer() and 0 <= v <= _SEQ_MAX else None
+
+    def _damaged(self, number: int, reason: str, why: str, raw: bytes, fields: list[bytes]) -> None:
+        """One damaged line: a Rejection (with the seq it shows), the first damage, the skip count, the status."""
+        seq = self._seq_of(fields)
+        detail = f"line {number}: {why}" + ("" if seq is None else f" (seq={seq})")
+        self._pending_rejections.append(Rejection(self.name, reason, raw, time.time(), detail))
+        if self.damage is None:
+            self.damage = (number, why)
+        if self._on_damage == "stop":
+            self._message = f"{self.path.name}: damaged at line {number}: {why}"
+            return
+        if number > self._skipped_upto:           # a line read again after a seek back counts once
+            self._skipped_upto = number
+            self.skipped += 1
+            self._skipped_reasons[reason] = self._skipped_reasons.get(reason, 0) + 1
+            if len(self.skipped_lines) < _KEEP_SKIPPED_LINES:
+                self.skipped_lines.append(number)
+        self._message = (f"{self.path.name}: damaged at line {number} ({why}); skipping, "
+                         f"{self.skipped} skipped so far")
+
+    def end_message(self, end: str | None = None) -> str:
+        """What the replay's end says about damage (without the file name): in stop mode where it
+        stopped and why; in skip mode how many lines were skipped, which, and that they were kept."""
+        end = end or self._end_label
+        if self.damage is None:
+            return end
+        line, why = self.damage
+        if self._on_damage == "stop":
+            return f"replayed up to line {line}, damaged there: {why}"
+        n = self.skipped
+        shown = ", ".join(str(x) for x in self.skipped_lines[:_SHOW_SKIPPED_LINES])
+        more = f" (+{n - _SHOW_SKIPPED_LINES} more)" if n > _SHOW_SKIPPED_LINES else ""
+        if len(self._skipped_reasons) == 1:
+            (token,) = self._skipped_reasons
+            how = f"rejected as {token}"
+        else:
+            how = "rejected (" + ", ".join(f"{k} {v}" for k, v in sorted(self._skipped_reasons.items())) + ")"
+        if n == 1:
+            return f"{end}; 1 damaged line skipped (line {line}: {why}), {how} and kept with the rejections"
+        return (f"{end}; {n} damaged lines skipped (lines {shown}{more}; first: {why}), each {how} "
+                f"and kept with the rejections")
+
+    def damage_summary(self) -> dict[str, object] | None:
+        """The summary's ``damage`` object: ``line`` and ``reason`` of the first damaged line, ``mode``;
+        in skip mode also ``skipped`` (count), ``lines`` (the first ``lines_cap`` line numbers)."""
+        if self.damage is None:
+            return None
+        out: dict[str, object] = {"line": self.damage[0], "reason": self.damage[1], "mode": self._on_damage}
+        if self._on_damage == "skip":
+            out.update(skipped=self.skipped, lines=list(self.skipped_lines), lines_cap=_KEEP_SKIPPED_LINES)
+        return out
 
     # -- the Source protocol ---------------------------------------------------------------------------
     def poll(self, timeout: float) -> Polled:
@@ -320,7 +404,7 @@ class CsvSource:
         rows = self._rows[self._pos:]
         t = rows[:, self._tcol]
         if self._stop is not None and t[0] > self._stop:
-            self._finish()
+            self._finish("end of the replay window")
             return [], 0.0
         if self._catch_up is not None:
             # a forward seek: the rows before its target are due now, whatever the speed or a pause
@@ -394,15 +478,12 @@ class CsvSource:
         t = np.ascontiguousarray(rows[:, self._tcol])
         return Batch(source=self.name, t=t, columns=columns, sigma=sigma, seq=seq, t_from_source=True)
 
-    def _finish(self) -> None:
+    def _finish(self, end: str = "end of file") -> None:
         self._ended = True
         self._catch_up = None
         self._state = LinkState.ENDED
-        if self.damage is not None:
-            line, why = self.damage
-            self._message = f"{self.path.name}: replayed up to line {line}, damaged there: {why}"
-        else:
-            self._message = f"{self.path.name}: end of file"
+        self._end_label = end
+        self._message = f"{self.path.name}: {self.end_message(end)}"
 
     def status(self) -> SourceStatus:
         return SourceStatus(self.name, self._state, self._message)

@@ -107,12 +107,12 @@ def run(args: argparse.Namespace) -> int:
         summary = dict(session.summary())
         summary["file"] = str(args.file)
         summary["config"] = opened.config_origin
-        summary["damage"] = None if source.damage is None else {"line": source.damage[0], "reason": source.damage[1]}
+        # {"line", "reason", "mode"}; skip mode adds "skipped" and "lines" (the first "lines_cap")
+        summary["damage"] = source.damage_summary()
         printer.status(session.snapshot())
         printer.summary(summary)
     if source.damage is not None:
-        print(f"regime replay: {args.file}: replayed up to line {source.damage[0]}, damaged there: "
-              f"{source.damage[1]}", file=sys.stderr)
+        print(f"regime replay: {args.file}: {source.end_message()}", file=sys.stderr)
     if session.failure is not None:
         print(f"regime replay: source failed: {session.failure}", file=sys.stderr)
         return EXIT_SOURCE
@@ -128,7 +128,7 @@ def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
     if not window or source.released or source.status().state is not LinkState.ENDED:
         return EXIT_OK
     why = "no reading lies in that stretch of the file"
-    if source.damage is not None:
+    if source.damage is not None and args.on_damage == "stop":
         why = f"the file is damaged at line {source.damage[0]}, before it (--on-damage skip goes on past it)"
     print(f"regime replay: {args.file}: {window} selects no readings: {why}; --from/--to are seconds from "
           f"the file's first reading, @T an absolute data time", file=sys.stderr)

@@ -1,4 +1,4 @@
-"""A damaged or truncated file replays up to the damage and says where (line number) and why."""
+"""A damaged file replays up to the damage and says where and why; skipped, it names the lines, each counted once."""
 
 from __future__ import annotations
 
@@ -86,3 +86,113 @@ def test_replay_command_reports_the_damage(tmp_path: Path) -> None:
     assert summary["damage"]["line"] == where and "unreadable number" in summary["damage"]["reason"]
     assert f"line {where}" in out.stderr
     assert summary["rejected"].get("damaged_line") == 1
+
+
+def _skip_file(tmp_path: Path, short_t: str = "2.06") -> tuple[Path, int, int]:
+    """A 500-row recording (seq 0..499) with a bad number at t = 2.0 and a short line at ``short_t``."""
+    csv = _recording(tmp_path)
+    bad, short = _line_of(csv, "2.0"), _line_of(csv, short_t)
+    lines = csv.read_text().splitlines()
+    lines[bad - 1] = "2.0,200,5e16,#!garbage"
+    lines[short - 1] = f"{short_t},{round(float(short_t) * 100)}"
+    csv.write_text("\n".join(lines) + "\n")
+    return csv, bad, short
+
+
+def test_replay_skip_names_every_skipped_line_and_says_they_were_kept(tmp_path: Path) -> None:
+    csv, bad, short = _skip_file(tmp_path)
+    out = subprocess.run([*REGIME, "replay", str(csv), "--headless", "--json", "--quiet", "--on-damage", "skip"],
+                         capture_output=True, text=True, timeout=120, cwd=ROOT, env=env())
+    assert out.returncode == 0, out.stderr
+    records = [json.loads(x) for x in out.stdout.splitlines() if x.startswith("{")]
+    summary = [r for r in records if r.get("type") == "summary"][-1]
+    expected = (f"{csv.name}: end of file; 2 damaged lines skipped (lines {bad}, {short}; first: unreadable "
+                f"number '#!garbage' in column Te), each rejected as damaged_line and kept with the rejections")
+    assert summary["message"] == expected
+    assert out.stderr.strip().splitlines()[-1] == f"regime replay: {csv}: {expected.split(': ', 1)[1]}"
+    assert "replayed up to line" not in out.stdout + out.stderr       # it went past the damage
+    assert summary["damage"] == {"line": bad, "reason": "unreadable number '#!garbage' in column Te",
+                                 "mode": "skip", "skipped": 2, "lines": [bad, short], "lines_cap": 100}
+    assert summary["accepted"] == 498 and summary["rejected"] == {"damaged_line": 2}
+    assert summary["lost"] == 0                                        # the two seq gaps are the rejected rows
+    assert summary["data_time_last"] == 4.99
+
+
+def test_skip_status_during_the_run_counts_the_skipped_lines(tmp_path: Path) -> None:
+    csv, bad, short = _skip_file(tmp_path, "4.0")                 # 4 kB blocks: the two are in different blocks
+    src = CsvSource(csv, chunk=4096, on_damage="skip")
+    src.open()
+    seen: list[str] = []
+    while True:
+        p = src.poll(0.0)
+        if not seen or seen[-1] != p.status.message:
+            seen.append(p.status.message)
+        if p.status.state is LinkState.ENDED:
+            break
+    assert (f"{csv.name}: damaged at line {bad} (unreadable number '#!garbage' in column Te); skipping, "
+            f"1 skipped so far") in seen
+    assert f"{csv.name}: damaged at line {short} (2 fields, expected 4); skipping, 2 skipped so far" in seen
+    assert src.skipped == 2 and src.skipped_lines == [bad, short]
+
+
+def test_skip_many_damaged_lines_are_counted_and_capped(tmp_path: Path) -> None:
+    csv = _recording(tmp_path)
+    lines = csv.read_text().splitlines()
+    first = _line_of(csv, "0.0")
+    damaged = [first + 2 * k for k in range(120)]                  # every other row of the first 240
+    for number in damaged:
+        lines[number - 1] = lines[number - 1] + ",x"                # one field too many
+    csv.write_text("\n".join(lines) + "\n")
+    n, rejections, src = _play(csv, on_damage="skip")
+    assert n == 380 and len(rejections) == 120
+    summary = src.damage_summary()
+    assert summary is not None and summary["skipped"] == 120 and summary["lines"] == damaged[:100]
+    assert summary["lines_cap"] == 100 and summary["mode"] == "skip"
+    shown = ", ".join(str(x) for x in damaged[:5])
+    assert (f"120 damaged lines skipped (lines {shown} (+115 more); first: 5 fields, expected 4), each rejected "
+            f"as damaged_line and kept with the rejections") in src.status().message
+
+
+def test_skip_counts_each_reading_once_through_the_session(tmp_path: Path) -> None:
+    from monitor.session import Session
+
+    csv, bad, short = _skip_file(tmp_path)
+    lines = csv.read_text().splitlines()
+    mid = _line_of(csv, "3.5")
+    lines[mid - 1] = "3.5,350,5e16"                                # a third one, in another block
+    csv.write_text("\n".join(lines) + "\n")
+    src = CsvSource(csv, chunk=4096, on_damage="skip")
+    session = Session(src, load_config(None), [], live=False)
+    session.open()
+    session.run()
+    summary = session.summary()
+    rows = sum(1 for ln in lines[1:] if ln and not ln.startswith("#"))
+    assert rows == 500
+    assert summary["accepted"] == 497 and summary["rejected"] == {"damaged_line": 3} and summary["lost"] == 0
+    assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == rows
+    assert src.skipped == 3 and src.skipped_lines == [bad, short, mid]
+    session.close()
+
+
+def test_skip_lines_read_again_after_a_seek_back_count_once(tmp_path: Path) -> None:
+    csv, bad, short = _skip_file(tmp_path)
+    n, rejections, src = _play(csv, on_damage="skip")
+    assert src.seek(0.0) == "back"
+    while src.poll(0.0).status.state is not LinkState.ENDED:
+        pass
+    assert src.skipped == 2 and src.skipped_lines == [bad, short]
+    assert "2 damaged lines skipped" in src.status().message
+
+
+def test_replay_stop_mode_still_says_where_it_stopped(tmp_path: Path) -> None:
+    csv, bad, short = _skip_file(tmp_path)
+    out = subprocess.run([*REGIME, "replay", str(csv), "--headless", "--json", "--quiet"], capture_output=True,
+                         text=True, timeout=120, cwd=ROOT, env=env())
+    assert out.returncode == 0, out.stderr
+    summary = [json.loads(x) for x in out.stdout.splitlines() if '"summary"' in x][-1]
+    why = "unreadable number '#!garbage' in column Te"
+    assert summary["message"] == f"{csv.name}: replayed up to line {bad}, damaged there: {why}"
+    last = out.stderr.strip().splitlines()[-1]
+    assert last == f"regime replay: {csv}: replayed up to line {bad}, damaged there: {why}"
+    assert summary["damage"]["line"] == bad and summary["damage"]["reason"] == why
+    assert summary["accepted"] == 200 and summary["rejected"] == {"damaged_line": 1} and summary["lost"] == 0
