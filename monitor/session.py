@@ -13,13 +13,13 @@ import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceStatus, TransientSourceError
 from adapters.batch import Rejection
-from monitor.alarms.events import AlarmEvent
+from monitor.alarms.events import AlarmEvent, AlarmState
 from monitor.config import Config
 from monitor.model import Frame
 from monitor.pipeline import Pipeline
 from monitor.pipeline.controls import SessionControls
 from monitor.pipeline.rolling import Trail
-from monitor.snapshot import Snapshot, Stats
+from monitor.snapshot import AlarmView, Snapshot, Stats
 
 __all__ = ["Session", "make_engine", "TRAIL_BASE"]
 
@@ -98,6 +98,8 @@ class Session(SessionControls):
         self._last_t: float | None = None
         self._first_t: float | None = None
         self._last_arrival: float | None = None
+        # alarms raised outside the engine (the recorder's recorder:write): latest event per id
+        self._external: dict[str, AlarmEvent] = {}
         self._started = self._wall()
         self._alarm_events = 0
         self._events_by_state: collections.Counter = collections.Counter()
@@ -157,6 +159,7 @@ class Session(SessionControls):
             self._alarm_events += 1
             self._events_by_state[getattr(event.state, "value", str(event.state))] += 1
             self.recent_events.append(event)
+            self._external[event.alarm] = event
             for sink in self.sinks:
                 if sink is not origin:
                     self._call(sink, "on_alarm", event)
@@ -339,6 +342,8 @@ class Session(SessionControls):
             if self.engine is not None:
                 alarms = tuple(self.engine.views())
                 rate10, flood, chatter = self.engine.load()
+            alarms += self._external_views()
+            if self.engine is not None:
                 discharge_on = bool(self.engine.discharge_on)
             else:
                 ne = latest.get("ne", (math.nan, None))[0]
@@ -352,6 +357,13 @@ class Session(SessionControls):
                 recording=self._recording(), flood=bool(flood), alarm_rate_10min=int(rate10),
                 chattering=tuple(chatter),
             )
+
+    def _external_views(self) -> tuple[AlarmView, ...]:
+        """The alarms raised outside the engine that are not normal, as the alarm list shows them."""
+        return tuple(AlarmView(alarm=e.alarm, state=e.state, priority=e.priority, kind=e.kind,
+                               quantity=e.quantity, value=e.value, limit=e.limit, since=e.time,
+                               description=e.message)
+                     for e in self._external.values() if e.state is not AlarmState.NORMAL)
 
     def _recording(self) -> str | None:
         for sink in self.sinks:
@@ -382,6 +394,7 @@ class Session(SessionControls):
             if self.engine is not None:
                 active = [v.alarm for v in self.engine.views()
                           if getattr(v.state, "value", v.state) in _ATTENTION]
+            active += [v.alarm for v in self._external_views() if v.state.value in _ATTENTION]
             return {
                 "type": "summary",
                 "source": self.name,

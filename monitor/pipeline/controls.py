@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import threading
+from dataclasses import replace
 from typing import Any
 
-from monitor.alarms.events import AlarmEvent
+from monitor.alarms.events import AlarmEvent, AlarmState
 from monitor.errors import UsageError
 from monitor.snapshot import ReplayPosition
 
@@ -22,6 +23,8 @@ class SessionControls:
     _lock: threading.RLock
     _poll_lock: threading.Lock
     _last_t: float | None
+    _external: dict[str, AlarmEvent]
+    _wall: Any
 
     def now(self) -> float | None:  # pragma: no cover - provided by Session
         raise NotImplementedError
@@ -35,16 +38,43 @@ class SessionControls:
     # -- operator actions (forwarded to the alarm engine) ---------------------
     def _action(self, name: str, *args: Any) -> list[AlarmEvent]:
         with self._lock:
-            if self.engine is None:
-                return []
             at = self.now()
             at = at if at is not None else 0.0
-            try:
-                events = list(getattr(self.engine, name)(*args, at=at))
-            except UsageError as exc:          # an unknown alarm id: the caller's mistake, not ours
-                raise KeyError(str(exc)) from None
+            alarm = args[0] if args else None
+            external = getattr(self, "_external", {})
+            if alarm in external:
+                if name != "acknowledge":
+                    raise KeyError(f"{alarm} is raised outside the alarm engine: it can be acknowledged, "
+                                   f"and it returns by itself when its cause is gone")
+                events = self._acknowledge_external([alarm], at)
+            else:
+                events = []
+                if self.engine is not None:
+                    try:
+                        events = list(getattr(self.engine, name)(*args, at=at))
+                    except UsageError as exc:          # an unknown alarm id: the caller's mistake, not ours
+                        raise KeyError(str(exc)) from None
+                if name == "acknowledge" and alarm is None:
+                    events += self._acknowledge_external(list(external), at)
             self._dispatch(events)
             return events
+
+    def _acknowledge_external(self, alarms: list[str], at: float) -> list[AlarmEvent]:
+        """ISA-18.2 acknowledgement of alarms raised outside the engine (the recorder's): unacknowledged
+        becomes acknowledged, returned unacknowledged becomes normal. Their origin hears the event as a
+        sink (the recorder then knows that a later return or raise starts from the acknowledged state)."""
+        events = []
+        for alarm in alarms:
+            last = self._external[alarm]
+            after = {AlarmState.UNACKNOWLEDGED: AlarmState.ACKNOWLEDGED,
+                     AlarmState.RETURNED_UNACKNOWLEDGED: AlarmState.NORMAL}.get(last.state)
+            if after is None:
+                continue
+            ev = replace(last, time=at, wall=self._wall(), state=after, previous=last.state,
+                         action="acknowledge", message=last.message)
+            self._external[alarm] = ev
+            events.append(ev)
+        return events
 
     def acknowledge(self, alarm: str | None = None) -> list[AlarmEvent]:
         """Acknowledge one alarm, or every unacknowledged one with None.

@@ -31,6 +31,7 @@ __all__ = ["Recorder", "RecorderStatus"]
 
 _MAX_BACKLOG = 64 << 20        # bytes kept in memory while the disk refuses writes
 _RETRY_EVERY = 1.0             # s between retries after a write error
+_WRITE_ALARM = "recorder:write"  # the recorder's own alarm id
 
 
 @dataclass(frozen=True)
@@ -95,6 +96,7 @@ class Recorder:
         self._dropped = 0
         self._errors = 0
         self._error: str | None = None
+        self._alarm_state = AlarmState.NORMAL    # of recorder:write (ISA-18.2), acknowledged via on_alarm
         self._next_retry = 0.0
         self._closed = False
         self._session: tuple[Any, Any] | None = None
@@ -193,6 +195,8 @@ class Recorder:
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
+            if event.alarm == _WRITE_ALARM and event.action == "acknowledge":
+                self._alarm_state = event.state      # the operator acknowledged our own alarm
             if self._session is not None:
                 self._safe(lambda: self._session[0].on_alarm(event), "session journal", self._session[0])
             if self._stream is not None:
@@ -397,8 +401,10 @@ class Recorder:
         if self._error is not None:
             self._error = None
             self._report("recording resumed: the disk accepts writes again")
-            self._alarm(AlarmState.RETURNED_UNACKNOWLEDGED, AlarmState.UNACKNOWLEDGED,
-                        "recording resumed: the disk accepts writes again")
+            # ISA-18.2: an acknowledged alarm that returns is normal; an unacknowledged one waits
+            back = AlarmState.NORMAL if self._alarm_state is AlarmState.ACKNOWLEDGED \
+                else AlarmState.RETURNED_UNACKNOWLEDGED
+            self._alarm(back, self._alarm_state, "recording resumed: the disk accepts writes again")
 
     def _flush_loop(self) -> None:
         period = self.options.flush_interval / 4
@@ -427,12 +433,13 @@ class Recorder:
         if first:
             self._report(message)
         if raised:
-            self._alarm(AlarmState.UNACKNOWLEDGED, AlarmState.NORMAL, message)
+            self._alarm(AlarmState.UNACKNOWLEDGED, self._alarm_state, message)
 
     def _alarm(self, state: AlarmState, previous: AlarmState, message: str) -> None:
         """The recorder's own data-quality alarm (``recorder:write``), kept in ``alarm_events``, written
         to the session journal when it can be, and handed to ``emit`` (the session's dispatch)."""
-        event = AlarmEvent(time=self._data_time, wall=self._clock(), alarm="recorder:write", state=state,
+        self._alarm_state = state
+        event = AlarmEvent(time=self._data_time, wall=self._clock(), alarm=_WRITE_ALARM, state=state,
                            previous=previous, quantity=None, value=None, limit=None, priority=Priority.HIGH,
                            kind="quality", message=message)
         self.alarm_events.append(event)
