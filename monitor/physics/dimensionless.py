@@ -29,31 +29,54 @@ def debye_number(ne: ArrayLike, Te: ArrayLike) -> np.ndarray:
 
 
 def debye_ratio(L: float, ne: ArrayLike, Te: ArrayLike) -> np.ndarray:
-    """Quasi-neutrality margin L / lambda_D (device scale over Debye length)."""
+    """Quasi-neutrality margin L / lambda_D (device scale over Debye length), dimensionless.
+
+    L in m, ne in m^-3, Te in eV. A plasma must be much larger than its Debye
+    length to stay quasi-neutral (Chen, Introduction to Plasma Physics, sec. 1.4,
+    from memory; common practice).
+    """
     with np.errstate(all="ignore"):
         return L / debye_length(ne, Te)
 
 
 def knudsen_number(mean_free_path: ArrayLike, L: float) -> np.ndarray:
-    """Knudsen number Kn = lambda_mfp / L."""
+    """Knudsen number Kn = lambda_mfp / L, dimensionless (mean free path and L in m).
+
+    The usual definition of rarefied-gas dynamics (common practice): Kn << 1
+    collisional, Kn >> 1 collisionless over the device.
+    """
     return _f(mean_free_path) / L
 
 
 def ionization_fraction(ne: ArrayLike, n0: ArrayLike) -> np.ndarray:
-    """Ionisation fraction ne / (ne + n0)."""
+    """Ionisation fraction ne / (ne + n0), dimensionless (ne, n0 in m^-3).
+
+    For singly charged ions, ni = ne: the fraction of heavy particles that are
+    ions, the usual definition (common practice).
+    """
     ne_a = _f(ne)
     with np.errstate(all="ignore"):
         return ne_a / (ne_a + _f(n0))
 
 
 def collectivity(omega_pe: ArrayLike, collision_frequency: ArrayLike) -> np.ndarray:
-    """omega_pe / (nu_ei + nu_en): > 1 means collective rather than collision-dominated."""
+    """omega_pe / (nu_ei + nu_en), dimensionless (both in rad/s and 1/s).
+
+    > 1 means collective rather than collision-dominated: the criterion
+    omega tau > 1 of Chen, Introduction to Plasma Physics, sec. 1.6 (from
+    memory; common practice).
+    """
     with np.errstate(all="ignore"):
         return _f(omega_pe) / _f(collision_frequency)
 
 
 def hall_parameter(omega_ce: ArrayLike, collision_frequency: ArrayLike) -> np.ndarray:
-    """Electron Hall parameter omega_ce / (nu_ei + nu_en): > 1 means magnetised electrons."""
+    """Electron Hall parameter omega_ce / (nu_ei + nu_en), dimensionless.
+
+    > 1 means magnetised electrons (they gyrate more than once between
+    collisions); PlasmaPy's ``dimensionless.Hall_parameter`` uses the same
+    ratio (common practice).
+    """
     with np.errstate(all="ignore"):
         return _f(omega_ce) / _f(collision_frequency)
 
@@ -72,5 +95,8 @@ def plasma_beta(ne: ArrayLike, Te: ArrayLike, B: ArrayLike, Ti: ArrayLike | None
 
 
 def cutoff_ratio(ne: ArrayLike, cutoff_density: ArrayLike) -> np.ndarray:
-    """ne / n_c: above 1 the wave of the configured frequency cannot propagate (overdense)."""
+    """ne / n_c, dimensionless (both m^-3): above 1 the wave of the configured
+    frequency cannot propagate (overdense). n_c = eps0 me (2 pi f)^2 / e^2, NRL
+    Plasma Formulary (common practice); see ``densities.cutoff_density``.
+    """
     return _f(ne) / _f(cutoff_density)

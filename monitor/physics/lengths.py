@@ -52,7 +52,9 @@ def electron_mean_free_path(v_thermal: ArrayLike, collision_frequency: ArrayLike
     """Electron mean free path lambda_mfp = v_Te / (nu_ei + nu_en), m.
 
     ``v_thermal`` is the electron thermal speed sqrt(k Te / me) and
-    ``collision_frequency`` the total electron collision rate (1/s).
+    ``collision_frequency`` the total electron collision rate (1/s). The
+    definition lambda = v / nu (NRL Plasma Formulary, "collisions and
+    transport", from memory; common practice).
     """
     with np.errstate(all="ignore"):
         return np.asarray(v_thermal, dtype=np.float64) / np.asarray(collision_frequency, dtype=np.float64)
