@@ -9,7 +9,7 @@ import sys
 
 from monitor import __version__
 from monitor.commands import COMMANDS
-from monitor.errors import EXIT_USAGE, UsageError
+from monitor.errors import EXIT_SOURCE, EXIT_USAGE, UsageError
 
 
 def _parser_for(argv: list[str]) -> tuple[argparse.ArgumentParser, str | None]:
@@ -39,9 +39,6 @@ def main(argv: list[str] | None = None) -> int:
     module = importlib.import_module(f"monitor.commands.{args.command}")
     try:
         return int(module.run(args) or 0)
-    except UsageError as exc:
-        print(f"regime {args.command}: {exc}", file=sys.stderr)
-        return EXIT_USAGE
     except KeyboardInterrupt:
         return 130
     except BrokenPipeError:
@@ -49,3 +46,16 @@ def main(argv: list[str] | None = None) -> int:
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         return 0
+    except Exception as exc:
+        if not _fatal_source(exc) and not isinstance(exc, UsageError):
+            raise
+        # a source that can never work exits 3, also when it is a UsageError too (an alarm publisher
+        # address that cannot be bound, as `regime simulate` exits 3 for it); other bad usage exits 2
+        print(f"regime {args.command}: {exc}", file=sys.stderr)
+        return EXIT_SOURCE if _fatal_source(exc) else EXIT_USAGE
+
+
+def _fatal_source(exc: BaseException) -> bool:
+    """``exc`` is an adapters FatalSourceError (looked up without importing the adapters for every command)."""
+    base = sys.modules.get("adapters.base")
+    return base is not None and isinstance(exc, base.FatalSourceError)

@@ -5,15 +5,22 @@ from __future__ import annotations
 import threading
 from typing import Any
 
+from adapters.base import FatalSourceError
 from monitor.alarms.events import AlarmEvent
 from monitor.alarms.journal import event_line
 from monitor.errors import UsageError
 from monitor.sinks import AlarmOnlySink
 
-__all__ = ["AlarmPublisher", "DEFAULT_ENDPOINT", "normalise_endpoint"]
+__all__ = ["AlarmPublisher", "PublisherBindError", "DEFAULT_ENDPOINT", "normalise_endpoint"]
 
 DEFAULT_ENDPOINT = "tcp://127.0.0.1:5581"
 _LOOPBACK = {"127.0.0.1", "localhost", "::1", "[::1]"}
+
+
+class PublisherBindError(FatalSourceError, UsageError):
+    """The publisher's address is valid but cannot be bound (in use, no such ipc directory): the CLI
+    exits 3, as ``regime simulate`` does for the same address. It is also a UsageError, so a caller that
+    cleans up on refused outputs (build_outputs) treats it like any other output that cannot be made."""
 
 
 def normalise_endpoint(endpoint: str | None, *, allow_remote: bool = False) -> str:
@@ -56,7 +63,7 @@ class AlarmPublisher(AlarmOnlySink):
             self._sock.bind(ep)
         except zmq.ZMQError as exc:
             self._sock.close(0)
-            raise UsageError(f"cannot bind the alarm publisher to {ep}: {exc}") from None
+            raise PublisherBindError(f"cannot bind the alarm publisher to {ep}: {exc}") from None
         self.endpoint = self._sock.getsockopt_string(zmq.LAST_ENDPOINT)
         self.sent = 0
         self.dropped = 0
