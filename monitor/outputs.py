@@ -1,11 +1,13 @@
-"""The optional outputs of a run (recorder, alarm publisher, command hooks), built once for watch, replay and demo."""
+"""The optional outputs of a run (alarm journal, recorder, alarm publisher, command hooks), built once for watch, replay and demo."""
 
 from __future__ import annotations
 
 import dataclasses
 import importlib.util
+import sys
 import threading
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 from monitor.alarms.events import AlarmEvent
@@ -43,6 +45,13 @@ class Outputs:
             early, self._early = self._early, []
         for event in early:
             session.emit(event, origin=self.recorder)
+
+    def close(self) -> None:
+        """Close what was made so far (an output refused later in build_outputs)."""
+        for sink in self.sinks:
+            close = getattr(sink, "close", None)
+            if callable(close):
+                close()
 
     def recorder_status(self) -> Any:
         """The recorder's RecorderStatus, or None when the run does not record."""
@@ -84,38 +93,74 @@ def _recording_directory(directory: str, flag: str) -> None:
         raise UsageError(f"{flag} {directory}: cannot record there: {reason}") from None
 
 
+def _journal_sink(path: str, flag: str) -> Any:
+    """The alarm journal at ``path``, appended to (an existing journal keeps its lines); refused with
+    UsageError naming the file and the reason when it cannot be opened for writing."""
+    from monitor.alarms.journal import JournalSink
+
+    def warn(text: str) -> None:
+        print(f"regime: {text}", file=sys.stderr, flush=True)
+
+    target = Path(path)
+    if target.is_dir():
+        raise UsageError(f"{flag} {path}: cannot write the journal there: it is a directory, give a file name")
+    existing = next((p for p in target.parents if p.exists()), None)
+    if existing is not None and not existing.is_dir():
+        raise UsageError(f"{flag} {path}: cannot write the journal there: {existing} is not a directory")
+    try:
+        return JournalSink(target, append=True, warn=warn)
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+        raise UsageError(f"{flag} {path}: cannot write the journal there: {reason}") from None
+
+
 def build_outputs(config: Any, *, source_name: str, record: str | None = None,
                   alarm_pub: str | None = None, config_directory: bool = True,
-                  allow_remote: bool = False) -> Outputs:
-    """Recorder (``record`` or ``[recording] directory``), alarm publisher, and the command hooks
-    of ``[alarms]``; raise UsageError for an output that cannot be made (a recording directory that
-    cannot be created or written, a publisher address that is refused or cannot be bound). A replay
-    passes ``config_directory=False`` so that an old shot's ``[recording]`` table does not record it again."""
+                  allow_remote: bool = False, journal: str | None = None) -> Outputs:
+    """Alarm journal (``journal`` or ``[alarms] journal``), recorder (``record`` or ``[recording]
+    directory``), alarm publisher, and the command hooks of ``[alarms]``; raise UsageError for an
+    output that cannot be made (a journal file or a recording directory that cannot be created or
+    written, a publisher address that is refused; PublisherBindError, exit 3, for one that cannot be
+    bound). A replay passes ``config_directory=False`` so that an old shot's ``[recording]`` table
+    does not record it again and its ``[alarms] journal`` is not appended to."""
     out = Outputs()
+    journal_path, journal_flag = journal, "--journal"
+    if journal_path is None and config_directory:
+        journal_path = getattr(getattr(config, "alarms", None), "journal", None)
+        journal_flag = "[alarms] journal"
+    if journal_path:
+        # first: nothing else is opened or bound when the journal is refused
+        out.sinks.append(_journal_sink(str(journal_path), journal_flag))
+
     directory, flag = record, "--record"
     if directory is None and config_directory:
         directory = getattr(getattr(config, "recording", None), "directory", None)
         flag = "[recording] directory"
     if directory:
         if not _available("monitor.recording"):
+            out.close()
             raise UsageError(f"{flag}: the recorder is not available in this build")
         from monitor.recording import Recorder
 
-        _recording_directory(str(directory), flag)
+        try:
+            _recording_directory(str(directory), flag)
+        except UsageError:
+            out.close()
+            raise
         try:
             out.recorder = Recorder(directory, config, source_name=source_name, emit=out.relay)
         except OSError as exc:
+            out.close()
             raise UsageError(f"{flag} {directory}: {exc.strerror or exc}") from None
         out.sinks.append(out.recorder)
     if alarm_pub:
         from monitor.alarms.publisher import AlarmPublisher
 
-        endpoint, remote = publisher_endpoint(alarm_pub, config, allow_remote)
         try:
+            endpoint, remote = publisher_endpoint(alarm_pub, config, allow_remote)
             out.sinks.append(AlarmPublisher(endpoint, allow_remote=remote))
         except UsageError:
-            if out.recorder is not None:
-                out.recorder.close()
+            out.close()
             raise
     from monitor.alarms.hooks import hook_sink
 

@@ -104,6 +104,7 @@ class AlarmOptions:
     discharge_delay: float = 0.0    # s a change of discharge state must hold
     bell: bool = False
     hooks: Mapping[Priority, HookSpec] = field(default_factory=dict)
+    journal: str | None = None      # JSON Lines file of every transition and operator action (resolved path)
 
 
 def _err(path: str | Path | None, key: str, message: str) -> ConfigError:
@@ -296,7 +297,7 @@ def parse_limits(tables: Any, path: str | Path | None) -> tuple[LimitSpec, ...]:
 _OPTION_KEYS = ("flood_count", "flood_clear", "flood_window", "chatter_count", "chatter_window", "max_shelve",
                 "stale_priority", "quality_priority", "quality_window", "quality_above", "quality_below",
                 "quality_min_samples", "predict_window", "predict_step", "predict_priority", "discharge_deadband",
-                "discharge_delay", "bell", "hooks")
+                "discharge_delay", "bell", "hooks", "journal")
 
 
 def _parse_hook(raw: Any, path: str | Path | None, key: str) -> HookSpec:
@@ -322,6 +323,17 @@ def _parse_hook(raw: Any, path: str | Path | None, key: str) -> HookSpec:
                                                                   allow_zero=False), states=tuple(states))
 
 
+def _journal_path(raw: Any, path: str | Path | None) -> str | None:
+    """``[alarms] journal``: a file name, relative to the config file's directory (absolute kept)."""
+    if raw is None:
+        return None
+    if not isinstance(raw, str) or not raw.strip():
+        raise _err(path, "alarms.journal", f"expected a file name, got {raw!r}")
+    if path is not None and not Path(raw).is_absolute():
+        return str(Path(path).parent / raw)
+    return raw
+
+
 def parse_alarm_options(table: Any, path: str | Path | None) -> AlarmOptions:
     """The `[alarms]` table (absent or empty: the defaults); ConfigError naming file and key."""
     if table is None:
@@ -339,6 +351,7 @@ def parse_alarm_options(table: Any, path: str | Path | None) -> AlarmOptions:
     hooks = {_priority(p, path, f"alarms.hooks.{p}"): _parse_hook(h, path, f"alarms.hooks.{p}")
              for p, h in hooks_raw.items()}
     opts = AlarmOptions(
+        journal=_journal_path(g("journal"), path),
         flood_count=_int(g("flood_count", d.flood_count), path, "alarms.flood_count", 1),
         flood_clear=_int(g("flood_clear", d.flood_clear), path, "alarms.flood_clear", 1),
         flood_window=parse_seconds(g("flood_window", d.flood_window), path, "alarms.flood_window", allow_zero=False),

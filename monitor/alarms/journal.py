@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 import threading
 from pathlib import Path
-from typing import Any, IO
+from typing import Any, Callable, IO
 
 from monitor.alarms.events import AlarmEvent
 from monitor.sinks import AlarmOnlySink
@@ -38,13 +38,21 @@ class JournalSink(AlarmOnlySink):
 
     It never raises for its own I/O trouble: a failed write is counted in
     ``errors`` and kept in ``last_error``, and writing resumes when it can.
+    With ``warn`` (a callable taking one line of text) the trouble is also said
+    aloud: the first failure of a run of failures, the return to writing after
+    one, and at ``close`` how many events did not reach the file. Each line is
+    flushed as written, so a crash of the process loses no written event.
     """
 
-    def __init__(self, path: str | Path, *, append: bool = True) -> None:
+    def __init__(self, path: str | Path, *, append: bool = True,
+                 warn: Callable[[str], None] | None = None) -> None:
         self.path = Path(path)
-        self.errors = 0
+        self.errors = 0                 # failed writes and a failed close
+        self.failed = 0                 # events that did not reach the file
         self.written = 0
         self.last_error: str | None = None
+        self._warn = warn
+        self._failing = 0               # failures since the last successful write
         self._lock = threading.Lock()
         self._fh: IO[str] | None = None
         self.path.parent.mkdir(parents=True, exist_ok=True)
@@ -60,7 +68,23 @@ class JournalSink(AlarmOnlySink):
                 self.written += 1
             except (OSError, ValueError) as exc:
                 self.errors += 1
+                self.failed += 1
                 self.last_error = f"{type(exc).__name__}: {exc}"
+                self._failing += 1
+                if self._failing == 1:
+                    self._say(f"journal {self.path}: cannot write an event ({self.last_error}); "
+                              "events are counted and writing is retried with the next one")
+                return
+            if self._failing:
+                self._say(f"journal {self.path}: writing again after {self._failing} event(s) not written")
+                self._failing = 0
+
+    def _say(self, text: str) -> None:
+        if self._warn is not None:
+            try:
+                self._warn(text)
+            except Exception:  # noqa: BLE001 - a broken warning channel must not stop the journal
+                pass
 
     def close(self) -> None:
         with self._lock:
@@ -70,3 +94,6 @@ class JournalSink(AlarmOnlySink):
                 except OSError as exc:
                     self.errors += 1
                     self.last_error = str(exc)
+            if self.failed:
+                self._say(f"journal {self.path}: {self.failed} event(s) not written; "
+                          f"last error: {self.last_error}")

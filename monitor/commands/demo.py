@@ -24,6 +24,8 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--seed", type=int, default=0, help="noise seed of the simulated discharge (default 0)")
     parser.add_argument("--once", action="store_true", help="play the 60 s scenario once instead of looping")
     parser.add_argument("--no-bell", action="store_true", help="no terminal bell on new high-priority alarms")
+    parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
+                             "(the alarm objects of --json); an existing journal keeps its lines")
     parser.add_argument("--units", choices=("practical", "SI"), default="practical",
                         help="units shown first (u switches on the screen)")
 
@@ -43,6 +45,7 @@ def _spec(args: argparse.Namespace, loop: bool) -> str:
 def run(args: argparse.Namespace) -> int:
     from monitor.config import load_config
     from monitor.errors import UsageError
+    from monitor.outputs import build_outputs
     from monitor.session import Session, make_engine
     from monitor.sources import open_source
 
@@ -51,18 +54,23 @@ def run(args: argparse.Namespace) -> int:
     config = load_config(envelope_path())
     loop = not args.once and not (args.headless and args.duration is None)
     source = open_source(_spec(args, loop), config)
+    # only --journal: the bundled envelope names no recording directory or journal of its own
+    outputs = build_outputs(config, source_name=getattr(source, "name", "demo"), journal=args.journal,
+                            config_directory=False)
     if args.headless:
-        return _headless(source, config, args)
+        return _headless(source, config, args, outputs)
     from monitor.tui.feed import EventTap
     from monitor.tui.launch import run_screen, settings_for
 
     tap = EventTap()
-    session = Session(source, config, sinks=[tap], engine=make_engine(config), live=True)
+    session = Session(source, config, sinks=[tap, *outputs.sinks], engine=make_engine(config), live=True)
+    outputs.bind(session)
     settings = settings_for(config, title="regime demo", bell=False if args.no_bell else None, units=args.units,
                             quit_after=args.duration)
     return run_screen(session, tap, settings)
 
 
-def _headless(source: object, config: object, args: argparse.Namespace) -> int:
+def _headless(source: object, config: object, args: argparse.Namespace, outputs: object) -> int:
     from monitor import headless
-    return int(headless.run_headless(source, config, json=args.json, duration=args.duration, live=True) or 0)
+    return int(headless.run_headless(source, config, json=args.json, duration=args.duration, live=True,
+                                     sinks=outputs.sinks, on_session=outputs.bind) or 0)

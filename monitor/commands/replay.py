@@ -31,6 +31,9 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
     parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
     parser.add_argument("--record", metavar="DIR", help="record the replay again into DIR")
+    parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
+                             "(the alarm objects of --json); an existing journal keeps its lines" +
+                             " (a recording's own [alarms] journal is not used)")
     parser.add_argument("--on-damage", choices=("stop", "skip"), default="stop",
                         help="at an unreadable line: stop there (default) or reject it and go on")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
@@ -80,7 +83,8 @@ def run(args: argparse.Namespace) -> int:
     engine = make_engine(config)
     from monitor.outputs import build_outputs
 
-    outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False)
+    outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False,
+                            journal=args.journal)
     session = Session(source, config, outputs.sinks, engine=engine, live=False)
     outputs.bind(session)
     window = window_text(start, stop)

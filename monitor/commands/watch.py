@@ -22,6 +22,9 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--config", metavar="F", help="TOML config: device, channels, limits, alarms, recording")
     parser.add_argument("--record", metavar="DIR", help="record every accepted reading, the alarm journal and "
                                                         "the rejects into DIR")
+    parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
+                             "(the alarm objects of --json); an existing journal keeps its lines" +
+                             " (as [alarms] journal)")
     parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
     parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
     parser.add_argument("--duration", metavar="S", type=float, help="stop after S seconds (wall clock)")
@@ -56,10 +59,10 @@ def run(args: argparse.Namespace) -> int:
         config = dataclasses.replace(config, allow_remote=True)
     source = open_source(args.source, config)
     engine = make_engine(config)
-    # a recording directory that cannot be written, or a refused publisher address, stops here (exit 2),
-    # before the source is opened and any reading is taken
+    # a journal or recording directory that cannot be written, or a refused publisher address, stops
+    # here (exit 2; a publisher address that cannot be bound: exit 3), before any reading is taken
     outputs = build_outputs(config, source_name=getattr(source, "name", args.source), record=args.record,
-                            alarm_pub=args.alarm_pub)
+                            alarm_pub=args.alarm_pub, journal=args.journal)
     if args.headless:
         return run_headless(source, config, json=args.json, duration=args.duration, live=is_live(args.source),
                             sinks=outputs.sinks, engine=engine, on_session=outputs.bind, recorder=outputs.recorder)
