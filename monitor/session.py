@@ -354,7 +354,8 @@ class Session(SessionControls):
                 trail_t=trail_t, trail=trail, warnings=self._warnings,
                 sources={self.name: self._status}, counts=counts, alarms=alarms,
                 discharge_on=discharge_on, live=self.live, replay=self.replay_position(),
-                recording=self._recording(), flood=bool(flood), alarm_rate_10min=int(rate10),
+                recording=self._recording(), recorder=self._recorder_status(),
+                flood=bool(flood), alarm_rate_10min=int(rate10),
                 chattering=tuple(chatter),
             )
 
@@ -364,6 +365,16 @@ class Session(SessionControls):
                                quantity=e.quantity, value=e.value, limit=e.limit, since=e.time,
                                description=e.message)
                      for e in self._external.values() if e.state is not AlarmState.NORMAL)
+
+    def _recorder_status(self) -> Any:
+        """The RecorderStatus of the sink that records (the one with a ``recording`` attribute), or None."""
+        for sink in self.sinks:
+            if hasattr(sink, "recording") and callable(getattr(sink, "status", None)):
+                try:
+                    return sink.status()
+                except Exception:  # noqa: BLE001 - a broken status is not shown, never raised
+                    return None
+        return None
 
     def _recording(self) -> str | None:
         for sink in self.sinks:

@@ -10,7 +10,7 @@ import threading
 import time
 from typing import Any
 
-from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
+from monitor.errors import EXIT_OK, EXIT_RECORDING, EXIT_SOURCE, EXIT_USAGE, UsageError
 
 __all__ = ["register", "run"]
 
@@ -64,7 +64,7 @@ class _Progress:
 
 def run(args: argparse.Namespace) -> int:
     from adapters.base import FatalSourceError
-    from monitor.headless import HeadlessPrinter
+    from monitor.headless import HeadlessPrinter, recorder_record
     from monitor.recording.replaying import open_file, parse_speed, parse_window_time, window_text
     from monitor.session import Session, make_engine
 
@@ -86,12 +86,12 @@ def run(args: argparse.Namespace) -> int:
     outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False,
                             journal=args.journal)
     session = Session(source, config, outputs.sinks, engine=engine, live=False)
-    outputs.bind(session)
     window = window_text(start, stop)
     if not args.headless:
-        return _screen(session, args, window)
+        return _screen(session, args, window, outputs)
     printer = HeadlessPrinter(sys.stdout, as_json=args.json)
     session.add_sink(printer)
+    outputs.bind(session)              # after the printer: the recorder's early events reach it
     progress = _Progress(not args.quiet)
     stop = threading.Event()
     from monitor.commands.watch import _install_signals, _restore_signals
@@ -113,6 +113,9 @@ def run(args: argparse.Namespace) -> int:
         summary["config"] = opened.config_origin
         # {"line", "reason", "mode"}; skip mode adds "skipped" and "lines" (the first "lines_cap")
         summary["damage"] = source.damage_summary()
+        final = outputs.recorder_status()
+        if final is not None:
+            summary["recorder"] = recorder_record(final)
         printer.status(session.snapshot())
         printer.summary(summary)
     if source.damage is not None:
@@ -120,6 +123,10 @@ def run(args: argparse.Namespace) -> int:
     if session.failure is not None:
         print(f"regime replay: source failed: {session.failure}", file=sys.stderr)
         return EXIT_SOURCE
+    if final is not None and not final.complete:
+        print(f"regime replay: the recording is incomplete: {final.dropped} readings of shots did not reach "
+              f"the disk" + ("" if final.ok else f" ({final.message})"), file=sys.stderr)
+        return EXIT_RECORDING
     return _empty_window(source, args, window)
 
 
@@ -139,7 +146,7 @@ def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
     return EXIT_USAGE
 
 
-def _screen(session: Any, args: argparse.Namespace, window: str) -> int:
+def _screen(session: Any, args: argparse.Namespace, window: str, outputs: Any) -> int:
     try:
         found = importlib.util.find_spec("monitor.tui.app") is not None
     except ModuleNotFoundError:
@@ -156,6 +163,7 @@ def _screen(session: Any, args: argparse.Namespace, window: str) -> int:
         return EXIT_USAGE
     tap = EventTap()
     session.add_sink(tap)
+    outputs.bind(session)          # after the tap: the recorder's early events reach the journal screen
     # device guides and envelope box from the config, as `regime watch` does
     app = RegimeApp(SessionFeed(session, tap), settings_for(session.config, title=f"regime replay {session.name}"))
     session.open()
@@ -164,9 +172,15 @@ def _screen(session: Any, args: argparse.Namespace, window: str) -> int:
     finally:
         app.stop.set()
         session.close()
-    from monitor.headless import human_summary
+    from monitor.headless import human_summary, recorder_record
 
-    print(human_summary(session.summary()))
+    summary = session.summary()
+    final = outputs.recorder_status()
+    if final is not None:
+        summary["recorder"] = recorder_record(final)
+    print(human_summary(summary))
     if session.failure is not None:
         return EXIT_SOURCE
+    if final is not None and not final.complete:
+        return EXIT_RECORDING
     return _empty_window(session.source, args, window)

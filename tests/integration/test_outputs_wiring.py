@@ -196,3 +196,26 @@ def test_watch_alarm_pub_off_loopback_exits_2_and_names_the_opt_in() -> None:
     help_text = subprocess.run([sys.executable, "-m", "monitor", "watch", "--help"], capture_output=True,
                                text=True, timeout=120).stdout
     assert "--allow-remote" in help_text
+
+
+def test_replay_with_a_recorder_reports_it_and_exits_4_when_the_recording_is_incomplete(tmp_path: Path) -> None:
+    # replay --record: the recorder in the status lines and the summary, its readings accounted for
+    shot = Path(__file__).resolve().parents[2] / "replay_data" / "argon_rf_excursion.csv"
+    base = [sys.executable, "-m", "monitor", "replay", str(shot), "--headless", "--json", "--quiet"]
+    ok = subprocess.run(base + ["--record", str(tmp_path / "again")], capture_output=True, text=True, timeout=120)
+    assert ok.returncode == 0, ok.stderr
+    lines = [json.loads(line) for line in ok.stdout.splitlines() if line.startswith("{")]
+    assert any(x["type"] == "status" and "recorder" in x for x in lines)
+    summary = lines[-1]
+    rec = summary["recorder"]
+    assert rec["complete"] is True and rec["dropped"] == 0 and rec["rows_written"] > 0
+    assert rec["rows_written"] + rec["outside_shots_not_recorded"] + rec["dropped"] == summary["accepted"]
+    # the same under a file-size limit: the disk refuses, the alarm is in the output, exit 4
+    full = subprocess.run([sys.executable, "-c", _LIMITED] + base + ["--record", str(tmp_path / "full")],
+                          capture_output=True, text=True, timeout=120)
+    assert full.returncode == 4, full.stderr
+    lines = [json.loads(line) for line in full.stdout.splitlines() if line.startswith("{")]
+    assert any(x["type"] == "alarm" and x["alarm"] == "recorder:write" for x in lines)
+    rec = lines[-1]["recorder"]
+    assert rec["complete"] is False and rec["dropped"] > 0
+    assert "the recording is incomplete" in full.stderr
