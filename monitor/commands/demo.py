@@ -26,6 +26,9 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--no-bell", action="store_true", help="no terminal bell on new high-priority alarms")
     parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
                              "(the alarm objects of --json); an existing journal keeps its lines")
+    parser.add_argument("--alarm-pub", metavar="ENDPOINT", help="publish alarm events on ZeroMQ (PUB) at ENDPOINT "
+                        "(loopback or ipc:// unless --allow-remote)")
+    parser.add_argument("--allow-remote", action="store_true", help="let --alarm-pub bind a non-loopback address")
     parser.add_argument("--units", choices=("practical", "SI"), default="practical",
                         help="units shown first (u switches on the screen)")
 
@@ -56,7 +59,7 @@ def run(args: argparse.Namespace) -> int:
     source = open_source(_spec(args, loop), config)
     # only --journal: the bundled envelope names no recording directory or journal of its own
     outputs = build_outputs(config, source_name=getattr(source, "name", "demo"), journal=args.journal,
-                            config_directory=False)
+                            config_directory=False, alarm_pub=args.alarm_pub, allow_remote=args.allow_remote)
     if args.headless:
         return _headless(source, config, args, outputs)
     from monitor.tui.feed import EventTap

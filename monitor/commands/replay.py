@@ -34,6 +34,9 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
                              "(the alarm objects of --json); an existing journal keeps its lines" +
                              " (a recording's own [alarms] journal is not used)")
+    parser.add_argument("--alarm-pub", metavar="ENDPOINT", help="publish alarm events on ZeroMQ (PUB) at ENDPOINT "
+                        "(loopback or ipc:// unless --allow-remote)")
+    parser.add_argument("--allow-remote", action="store_true", help="let --alarm-pub bind a non-loopback address")
     parser.add_argument("--on-damage", choices=("stop", "skip"), default="stop",
                         help="at an unreadable line: stop there (default) or reject it and go on")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
@@ -84,7 +87,7 @@ def run(args: argparse.Namespace) -> int:
     from monitor.outputs import build_outputs
 
     outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False,
-                            journal=args.journal)
+                            journal=args.journal, alarm_pub=args.alarm_pub, allow_remote=args.allow_remote)
     session = Session(source, config, outputs.sinks, engine=engine, live=False)
     window = window_text(start, stop)
     if not args.headless:
