@@ -27,7 +27,7 @@ _DEVICE_KEYS: dict[str, tuple[str, str]] = {
     "wave_frequency": ("wave_frequency", "frequency"),
     "sigma_en": ("sigma_en", "area"),
 }
-_SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key", "allow_remote"}
+_SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key", "allow_remote", "receive_queue"}
 _PIPELINE_KEYS = {"window", "bins", "trail_seconds", "trail_points", "keep_rejected", "clock_restart"}
 
 
@@ -59,7 +59,9 @@ class Config:
     parser is not installed), ``recording`` the recorder's options (likewise).
     ``curve_server_key``/``curve_client_key`` name the zmq.auth key files of a
     CURVE-secured ZeroMQ source; ``allow_remote`` lets a ZeroMQ source connect
-    beyond loopback without CURVE. ``raw`` is the parsed TOML as read.
+    beyond loopback without CURVE; ``receive_queue`` is a ZeroMQ source's receive
+    high-water mark in messages (None: the adapter's default, 200,000). ``raw``
+    is the parsed TOML as read.
     """
 
     path: str | None = None
@@ -76,6 +78,7 @@ class Config:
     curve_server_key: str | None = None
     curve_client_key: str | None = None
     allow_remote: bool = False
+    receive_queue: int | None = None
     raw: Mapping[str, Any] = field(default_factory=dict)
 
     def hold_for(self, key: str) -> float:
@@ -121,6 +124,11 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
     allow_remote = sources.get("allow_remote", False)
     if not isinstance(allow_remote, bool):
         raise ConfigError(path, "sources.allow_remote", f"must be true or false, got {allow_remote!r}")
+    receive_queue = sources.get("receive_queue")
+    if receive_queue is not None and (isinstance(receive_queue, bool) or not isinstance(receive_queue, int)
+                                      or not 1 <= receive_queue <= 100_000_000):
+        raise ConfigError(path, "sources.receive_queue",
+                          f"expected a whole number of messages from 1 to 100000000, got {receive_queue!r}")
     if (curve["curve_server_key"] is None) != (curve["curve_client_key"] is None):
         raise ConfigError(path, "sources.curve_client_key", "CURVE needs both curve_server_key and curve_client_key")
     channels_table = raw.get("channels", {})
@@ -142,7 +150,7 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
         max_age=max_age, max_age_by_key=by_key, channels=channels,
         limits=limits, alarms=alarms, recording=recording, pipeline=pipeline,
         curve_server_key=curve["curve_server_key"], curve_client_key=curve["curve_client_key"],
-        allow_remote=allow_remote, raw=dict(raw),
+        allow_remote=allow_remote, receive_queue=receive_queue, raw=dict(raw),
     )
 
 

@@ -59,6 +59,8 @@ def open_source(spec: str, config: Config | None = None) -> Source:
         kwargs = {"curve": curve}
         if config.allow_remote:
             kwargs["allow_remote"] = True
+        if config.receive_queue is not None:
+            kwargs["rcvhwm"] = config.receive_queue      # [sources] receive_queue
         return _construct(ZmqSource, spec, spec, **kwargs)
     if spec.startswith("serial:"):
         rest = spec[len("serial:"):]

@@ -63,3 +63,24 @@ def test_file_specs(tmp_path: Path) -> None:
 def test_bad_specs(spec: str) -> None:
     with pytest.raises(UsageError):
         open_source(spec, None)
+
+
+def test_the_zeromq_receive_queue_is_a_sources_setting(tmp_path) -> None:
+    # [sources] receive_queue sets the ZeroMQ receive high-water mark (messages); checked on a real socket
+    import zmq
+
+    from monitor.config import ConfigError
+
+    assert open_source("tcp://127.0.0.1:5599", parse_config({}, None)).rcvhwm == 200_000
+    config = parse_config({"sources": {"receive_queue": 5000}}, None)
+    src = open_source("tcp://127.0.0.1:5599", config)
+    src.open()
+    try:
+        assert src.rcvhwm == 5000
+        socks = [v for v in vars(src).values() if isinstance(v, zmq.Socket)]
+        assert socks and socks[0].getsockopt(zmq.RCVHWM) == 5000
+    finally:
+        src.close()
+    for bad in (0, -1, 2.5, "many", True):
+        with pytest.raises(ConfigError, match="receive_queue"):
+            parse_config({"sources": {"receive_queue": bad}}, None)
