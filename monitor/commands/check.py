@@ -18,7 +18,14 @@ def _load(path: str) -> tuple[tuple[Any, ...], Any, dict[str, Any]]:
     from monitor.config import load_config
 
     cfg = load_config(path)
-    return tuple(cfg.limits), cfg.alarms, {"on_above": cfg.on_above, "stale_after": cfg.stale_after}
+    facts = {"on_above": cfg.on_above, "stale_after": cfg.stale_after,
+             "journal": _text(getattr(cfg.alarms, "journal", None)),
+             "recording_directory": _text(getattr(cfg.recording, "directory", None))}
+    return tuple(cfg.limits), cfg.alarms, facts
+
+
+def _text(value: Any) -> str | None:
+    return None if value is None else str(value)
 
 
 def _describe(lim: Any) -> str:
@@ -62,5 +69,9 @@ def run(args: argparse.Namespace) -> int:
         print(_describe(lim))
     if options is not None and options.hooks:
         print(f"  hooks for: {', '.join(p.value for p in options.hooks)}")
+    if facts.get("journal"):
+        print(f"  alarm journal: {facts['journal']} (watch; --journal wins)")
+    if facts.get("recording_directory"):
+        print(f"  records into: {facts['recording_directory']} (watch; --record wins)")
     sys.stdout.flush()
     return 0

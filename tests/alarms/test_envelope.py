@@ -131,6 +131,19 @@ def test_regime_check_summarises_a_good_file(tmp_path: Path, capsys) -> None:
     assert "ok, 2 limits" in out and "debye-long: debye_length high 4e-05 m" in out and "latching" in out
 
 
+def test_regime_check_says_where_watch_will_write(tmp_path: Path, capsys) -> None:
+    import json
+
+    path = tmp_path / "env.toml"
+    path.write_text(ISSUE_EXAMPLE + '\n[alarms]\njournal = "shift.jsonl"\n[recording]\ndirectory = "shots"\n')
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert f"alarm journal: {tmp_path / 'shift.jsonl'}" in out and "records into:" in out and "shots" in out
+    assert main(["check", str(path), "--json"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    assert got["journal"] == str(tmp_path / "shift.jsonl") and got["recording_directory"].endswith("shots")
+
+
 def test_regime_check_exits_2_naming_file_and_key(tmp_path: Path, capsys) -> None:
     path = tmp_path / "bad.toml"
     path.write_text(ISSUE_EXAMPLE.replace('quantity = "debye_length"', 'quantity = "debye_length"\ncolour = 1'))
