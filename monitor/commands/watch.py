@@ -67,7 +67,7 @@ def run(args: argparse.Namespace) -> int:
         return run_headless(source, config, json=args.json, duration=args.duration, live=is_live(args.source),
                             sinks=outputs.sinks, engine=engine, on_session=outputs.bind, recorder=outputs.recorder)
     session = Session(source, config, outputs.sinks, engine=engine, live=is_live(args.source))
-    return _screen(session, config, outputs)
+    return _screen(session, config, outputs, duration=args.duration)
 
 
 # kept for the other commands that share the signal handling
@@ -81,7 +81,7 @@ def _restore_signals(previous: dict[int, Any]) -> None:
     restore_signals(previous)
 
 
-def _screen(session: Any, config: Any, outputs: Any) -> int:
+def _screen(session: Any, config: Any, outputs: Any, duration: float | None = None) -> int:
     if _module("monitor.tui.app") is None or _module("monitor.tui.launch") is None:
         for sink in session.sinks:
             close = getattr(sink, "close", None)
@@ -103,7 +103,8 @@ def _screen(session: Any, config: Any, outputs: Any) -> int:
     tap = EventTap()
     session.add_sink(tap)
     outputs.bind(session)          # after the tap: the recorder's early events reach the journal screen
-    app = RegimeApp(RecordedFeed(session, tap), settings_for(config, title=f"regime watch {session.name}"))
+    app = RegimeApp(RecordedFeed(session, tap), settings_for(config, title=f"regime watch {session.name}",
+                                                                  quit_after=duration))
     try:
         app.run()
     finally:
