@@ -240,7 +240,7 @@ class Session(SessionControls):
             if len(batch) == 0:
                 continue
             try:
-                frame = self.pipeline.process(batch)
+                parts = self.pipeline.process_parts(batch)
             except Exception as exc:  # noqa: BLE001 - our own fault must not stop the run or lose readings
                 self._internal_error(f"processing a batch from {batch.source}: {exc!r}")
                 self._fan("on_rejections", self.pipeline.refuse_batch(batch, "internal_error", repr(exc)))
@@ -248,8 +248,20 @@ class Session(SessionControls):
             rejected = self.pipeline.drain_rejections()
             if rejected:
                 self._fan("on_rejections", rejected)
-            if len(frame):
-                self._on_frame(frame)
+            for frame, new_clock in parts:
+                if new_clock:
+                    self._clock_restarted(frame)
+                if len(frame):
+                    self._on_frame(frame)
+
+    def _clock_restarted(self, frame: Frame) -> None:
+        """The source's clock went back (a counted restart): the trail and the alarm engine's timing
+        start over from the new clock, as after a seek back; alarm states are kept."""
+        self._new_trail()
+        self._last_t = None
+        hook = getattr(self.engine, "on_seek", None)
+        if callable(hook):
+            hook(float(frame.t[0]) if len(frame) else math.nan)
 
     def _on_frame(self, frame: Frame) -> None:
         if self._first_t is None:

@@ -125,6 +125,8 @@ class Pipeline:
         for r in rejections:
             c = self._c(r.source)
             n, span = _refused_span(r.raw)
+            if r.reason == "size_mismatch" and n > 1:
+                n, span = _held_by_payload(n, span, r.detail)
             if span is None and n == 1 and r.detail:
                 span = _seq_shown(r.detail.encode("utf-8", "replace"))   # e.g. a CSV line: "... (seq=N)"
             c.rejected[r.reason] += n
@@ -177,7 +179,18 @@ class Pipeline:
 
     # -- processing ---------------------------------------------------------
     def process(self, batch: Batch) -> Frame:
-        """Map, validate, align, derive and add to the rolling statistics."""
+        """Map, validate, align, derive and add to the rolling statistics: one frame (a batch cut by a
+        restart gives its parts joined; the Session uses ``process_parts`` to keep them apart)."""
+        parts = self.process_parts(batch)
+        frame = parts[0][0]
+        for more, _new_clock in parts[1:]:
+            frame = _concat(frame, more)
+        return frame
+
+    def process_parts(self, batch: Batch) -> list[tuple[Frame, bool]]:
+        """As ``process``, but a batch cut by a restarted publisher or clock gives one frame per part,
+        in order, each with True where its part begins a restarted clock (time went back: whoever keeps
+        time from the frames, the alarm engine's timers and stale check, must start over there)."""
         source = batch.source
         self._last_source = source
         counts = self._c(source)
@@ -193,13 +206,15 @@ class Pipeline:
         if k is not None:
             # a restarted publisher or clock: finish the old stream, then start over (a seq
             # that goes on through a restarted clock keeps its reference, so gaps still count)
-            head = self.process(_slice(batch, 0, k)) if k > 0 else None
+            head = self.process_parts(_slice(batch, 0, k)) if k > 0 else []
             counts.restarts += 1
             self._seq[source] = SeqTimeState(last_seq=state.last_seq if keep_seq else None)
             self._aligner.reset(source)
             self._rolling.pop(source, None)
-            tail = self.process(_slice(batch, k, len(batch)))
-            return _concat(head, tail) if head is not None else tail
+            tail = self.process_parts(_slice(batch, k, len(batch)))
+            if keep_seq:                   # the clock restarted here (not only the seq)
+                tail[0] = (tail[0][0], True)
+            return head + tail
         for key, n in mapped.unknown.items():
             counts.unknown[key] += n
         verdict = validate(mapped.t, mapped.values, seq, state)
@@ -222,7 +237,7 @@ class Pipeline:
             if counts.first_time is None:
                 counts.first_time = float(t[0])
             counts.add_rate(t)
-        return frame
+        return [(frame, False)]
 
     def _derive_frame(self, source: str, t: np.ndarray, values: dict[str, np.ndarray],
                       sigma: dict[str, np.ndarray], raw: Mapping[str, np.ndarray],
@@ -298,6 +313,22 @@ def _refused_span(raw: bytes) -> tuple[int, tuple[int, int] | None]:
     if n == 0:
         return 1, None                           # a refused frame that carried no reading
     return 1, (None if seq is None else (seq, seq + 1))
+
+
+_PAYLOAD = re.compile(r"payload (\d+) B, header says \d+ x (\d+) x (\d+) B")
+
+
+def _held_by_payload(n: int, span: tuple[int, int] | None, detail: str) -> tuple[int, tuple[int, int] | None]:
+    """A binary batch refused for its size stands for at most the readings its payload could hold
+    (its header's ``n`` may be the very thing that is wrong); the rest, if any were sent, leave a
+    seq gap and count as lost there, so each reading counts once."""
+    m = _PAYLOAD.search(detail or "")
+    if m is None:
+        return n, span
+    per_reading = int(m.group(2)) * int(m.group(3))
+    # a payload cut inside a reading still held that reading: round up
+    held = max(1, min(n, -(-int(m.group(1)) // per_reading))) if per_reading else 1
+    return held, (None if span is None else (span[0], span[0] + held))
 
 
 def _seq_shown(text: bytes) -> tuple[int, int] | None:

@@ -194,6 +194,20 @@ def test_a_refused_binary_batch_counts_its_readings_once() -> None:
     assert len(p.rejected_samples) == 1                            # the frame is kept once, whole header
 
 
+def test_a_binary_batch_whose_header_overstates_its_payload_counts_what_the_payload_held() -> None:
+    # header says 9000 readings, the payload holds 1000, the next batch goes on at seq 2000:
+    # 3000 readings were sent, so 3000 are accounted for (the header's n alone would say 11,000)
+    good1, good2 = _binary(0, 1000, 0.0), _binary(2000, 1000, 2.0)
+    header, payload = _binary(1000, 1000, 1.0)
+    lying = (header.replace(b'"n": 1000', b'"n": 9000').replace(b'"n":1000', b'"n":9000'), payload)
+    assert lying[0] != header
+    p = Pipeline(Config())
+    _feed(p, [good1, lying, good2])
+    c = p.counts()["probe"]
+    assert dict(c.rejected) == {"size_mismatch": 1000} and c.lost == 0 and c.accepted == 2000
+    received_everything(p, 3000)
+
+
 def test_a_refused_binary_batch_and_a_real_loss_are_told_apart() -> None:
     bad_dtype = (_binary(1000, 500, 1.0)[0].replace(b'"<f8"', b'"|O"'), _binary(1000, 500, 1.0)[1])
     p = Pipeline(Config())

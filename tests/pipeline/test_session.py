@@ -311,3 +311,38 @@ def test_a_refused_binary_batch_over_zeromq_is_counted_once() -> None:
     assert summary["rejected"] == {"bad_dtype": 1000, "size_mismatch": 1000}
     assert summary["lost"] == 0
     assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == 4000
+
+
+def test_after_a_clock_restart_a_silent_source_still_goes_stale(collect: CollectSink) -> None:
+    # a probe controller that reboots counts time from 0 again: the engine's stale check must follow
+    config = parse_config({"sources": {"stale_after": 2.0}}, None)
+    wall = [1000.0]
+    src = ListSource([steady(1.7e9, 100), steady(0.0, 100)], end=False)
+    s = Session(src, config, [collect], engine=make_engine(config), live=True, wall=lambda: wall[0])
+    s.open()
+    s.step(0.01)
+    s.step(0.01)
+    assert s.summary()["restarts"] == 1 and s.summary()["accepted"] == 200
+    assert s.now() == pytest.approx(0.099)           # the new clock
+    wall[0] += 2.5                                   # 2.5 s of silence
+    s.step(0.01)
+    stale = [e for e in collect.alarms if "stale" in e.alarm]
+    assert [e.state.value for e in stale] == ["unacknowledged"]
+    assert stale[0].time == pytest.approx(2.099)     # in the new clock: data stopped + stale_after
+
+
+def test_a_restart_inside_one_batch_keeps_every_alarms_journal_in_order(collect: CollectSink) -> None:
+    # head (old clock) over the limit, tail (new clock, time back to 0) inside: one batch, two parts
+    config = parse_config({"limit": [{"name": "dense", "quantity": "ne", "high": 2e17, "on_delay": 0.0,
+                                       "priority": "high"}]}, None)
+    head = steady(1.7e9, 500, ne=3e17)
+    tail = steady(0.0, 500, ne=1e17)
+    both = make_batch(np.concatenate([head.t, tail.t]), ne=np.concatenate([head.columns["ne"], tail.columns["ne"]]),
+                      Te=np.concatenate([head.columns["Te"], tail.columns["Te"]]))
+    s = Session(ListSource([both]), config, [collect], engine=make_engine(config), live=False)
+    drive(s)
+    dense = [e for e in collect.alarms if e.alarm == "dense"]
+    assert dense and any(e.state.value == "unacknowledged" for e in dense)
+    for before, after in zip(dense, dense[1:]):      # each event starts where the one before ended
+        assert after.previous == before.state, [(e.previous.value, e.state.value, e.time) for e in dense]
+    assert dense[-1].state.value == "returned_unacknowledged"
