@@ -32,8 +32,7 @@ def debye_ratio(L: float, ne: ArrayLike, Te: ArrayLike) -> np.ndarray:
     """Quasi-neutrality margin L / lambda_D (device scale over Debye length), dimensionless.
 
     L in m, ne in m^-3, Te in eV. A plasma must be much larger than its Debye
-    length to stay quasi-neutral (Chen, Introduction to Plasma Physics, sec. 1.4,
-    from memory; common practice).
+    length to stay quasi-neutral (the textbook plasma criterion; common practice).
     """
     with np.errstate(all="ignore"):
         return L / debye_length(ne, Te)
@@ -62,9 +61,8 @@ def ionization_fraction(ne: ArrayLike, n0: ArrayLike) -> np.ndarray:
 def collectivity(omega_pe: ArrayLike, collision_frequency: ArrayLike) -> np.ndarray:
     """omega_pe / (nu_ei + nu_en), dimensionless (both in rad/s and 1/s).
 
-    > 1 means collective rather than collision-dominated: the criterion
-    omega tau > 1 of Chen, Introduction to Plasma Physics, sec. 1.6 (from
-    memory; common practice).
+    > 1 means collective rather than collision-dominated: the textbook
+    criterion omega tau > 1 (common practice).
     """
     with np.errstate(all="ignore"):
         return _f(omega_pe) / _f(collision_frequency)
