@@ -195,8 +195,10 @@ class Recorder:
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
-            if event.alarm == _WRITE_ALARM and event.action == "acknowledge":
-                self._alarm_state = event.state      # the operator acknowledged our own alarm
+            if event.alarm == _WRITE_ALARM and event.action == "acknowledge" and event.previous is self._alarm_state:
+                # the operator acknowledged our own alarm in the state we last gave it (one that crossed
+                # our own later event, still queued for the session, does not apply)
+                self._alarm_state = event.state
             if self._session is not None:
                 self._safe(lambda: self._session[0].on_alarm(event), "session journal", self._session[0])
             if self._stream is not None:
