@@ -50,6 +50,7 @@ class JournalSink(AlarmOnlySink):
         self.errors = 0                 # failed writes and a failed close
         self.failed = 0                 # events that did not reach the file
         self.written = 0
+        self._held = 0                  # events in the write buffer whose flush failed: written late, or lost at close
         self.last_error: str | None = None
         self._warn = warn
         self._failing = 0               # failures since the last successful write
@@ -64,20 +65,30 @@ class JournalSink(AlarmOnlySink):
                 if self._fh is None or self._fh.closed:
                     self._fh = open(self.path, "a", encoding="utf-8")
                 self._fh.write(event_line(event) + "\n")
-                self._fh.flush()
-                self.written += 1
             except (OSError, ValueError) as exc:
-                self.errors += 1
-                self.failed += 1
-                self.last_error = f"{type(exc).__name__}: {exc}"
-                self._failing += 1
-                if self._failing == 1:
-                    self._say(f"journal {self.path}: cannot write an event ({self.last_error}); "
-                              "events are counted and writing is retried with the next one")
+                self.failed += 1                     # not even in the buffer: this event is lost
+                self._trouble(exc)
                 return
+            try:
+                self._fh.flush()
+            except (OSError, ValueError) as exc:
+                self._held += 1                      # kept in the buffer, written by the next flush that works
+                self._trouble(exc)
+                return
+            self.written += 1 + self._held
             if self._failing:
-                self._say(f"journal {self.path}: writing again after {self._failing} event(s) not written")
+                late = f", {self._held} of them written late from the buffer" if self._held else ""
+                self._say(f"journal {self.path}: writing again after {self._failing} failed write(s){late}")
                 self._failing = 0
+            self._held = 0
+
+    def _trouble(self, exc: BaseException) -> None:
+        self.errors += 1
+        self.last_error = f"{type(exc).__name__}: {exc}"
+        self._failing += 1
+        if self._failing == 1:
+            self._say(f"journal {self.path}: cannot write an event ({self.last_error}); "
+                      "events are counted and writing is retried with the next one")
 
     def _say(self, text: str) -> None:
         if self._warn is not None:
@@ -90,10 +101,13 @@ class JournalSink(AlarmOnlySink):
         with self._lock:
             if self._fh is not None and not self._fh.closed:
                 try:
-                    self._fh.close()
+                    self._fh.close()                 # flushes what the buffer still holds
+                    self.written += self._held
                 except OSError as exc:
                     self.errors += 1
+                    self.failed += self._held
                     self.last_error = str(exc)
+                self._held = 0
             if self.failed:
                 self._say(f"journal {self.path}: {self.failed} event(s) not written; "
                           f"last error: {self.last_error}")

@@ -75,3 +75,42 @@ def test_non_finite_values_are_written_as_null(tmp_path: Path) -> None:
     sink.close()
     rows = read_journal(tmp_path / "j.jsonl")
     assert rows[0]["value"] is None and rows[-1]["value"] == 9.0
+
+
+_HELD_BACK = r"""
+import json, resource, signal, sys
+from monitor.alarms.events import AlarmEvent, AlarmState, Priority
+from monitor.alarms.journal import JournalSink
+
+signal.signal(signal.SIGXFSZ, signal.SIG_IGN)            # a write past the limit fails with EFBIG
+said = []
+sink = JournalSink(sys.argv[1], warn=said.append)
+def event(i):
+    return AlarmEvent(time=float(i), wall=0.0, alarm="ne_high", state=AlarmState.UNACKNOWLEDGED,
+                      previous=AlarmState.NORMAL, quantity="ne", value=1e17, limit=1.5e17, priority=Priority.HIGH)
+hard = resource.getrlimit(resource.RLIMIT_FSIZE)[1]
+sink.on_alarm(event(0))                                    # fits
+resource.setrlimit(resource.RLIMIT_FSIZE, (300, hard))   # the disk is full now
+sink.on_alarm(event(1))
+sink.on_alarm(event(2))
+resource.setrlimit(resource.RLIMIT_FSIZE, (hard, hard))   # room again
+sink.on_alarm(event(3))
+sink.close()
+print(json.dumps({"written": sink.written, "failed": sink.failed, "errors": sink.errors, "said": said}))
+"""
+
+
+def test_events_held_in_the_buffer_by_a_full_disk_are_written_late_not_called_lost(tmp_path: Path) -> None:
+    import subprocess
+    import sys
+
+    path = tmp_path / "j.jsonl"
+    out = subprocess.run([sys.executable, "-c", _HELD_BACK, str(path)], capture_output=True, text=True, timeout=60,
+                         cwd=Path(__file__).resolve().parents[2])
+    assert out.returncode == 0, out.stderr
+    res = json.loads(out.stdout.splitlines()[-1])
+    lines = path.read_text().splitlines()
+    assert [json.loads(x)["time"] for x in lines] == [0.0, 1.0, 2.0, 3.0]   # every event reached the file
+    assert res["written"] == 4 and res["failed"] == 0 and res["errors"] >= 1
+    assert any("cannot write" in x for x in res["said"])
+    assert not any("not written" in x for x in res["said"]), res["said"]
