@@ -177,6 +177,10 @@ def _window(p: Path, source: CsvSource, start: WindowTime | None,
     if first is None:
         damage = "" if source.damage is None else f" (damaged at line {source.damage[0]}: {source.damage[1]})"
         raise UsageError(f"{p}: {given} selects no readings: the file has no readable reading{damage}")
+    if last is not None and last < first:
+        raise UsageError(f"{p}: {given}: the file's clock goes back (its last reading, data time {last!r} s, is "
+                         f"before its first, {first!r} s: a restarted clock), so --from/--to cannot cut a window "
+                         f"from it; replay it whole")
     a = start.resolve(first) if start is not None else None
     b = stop.resolve(first) if stop is not None else None
     if a is not None and b is not None and b < a:

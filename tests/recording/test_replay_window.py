@@ -104,3 +104,18 @@ def test_relative_window_on_a_mapped_time_column(tmp_path: Path) -> None:
         assert abs(pos[1] - 1.5) < 1e-12 and abs(pos[2] - 2.0) < 1e-12   # 1000 ms + 0.5 s, + 1 s
     finally:
         opened.source.close()
+
+
+def test_a_window_on_a_file_whose_clock_restarts_is_refused_with_the_reason(tmp_path) -> None:
+    # a probe controller rebooted mid-file: its time starts again near 0 (a counted clock restart)
+    import sys
+
+    import numpy as np
+
+    t = list(1767261600.0 + np.arange(300) * 0.01) + list(np.arange(300) * 0.01)
+    path = tmp_path / "rebooted.csv"
+    path.write_text("t,ne,Te\n" + "".join(f"{x:.2f},5e16,3.0\n" for x in t))
+    out = subprocess.run([sys.executable, "-m", "monitor", "replay", str(path), "--headless", "--from", "1",
+                          "--to", "2"], capture_output=True, text=True, timeout=60)
+    assert out.returncode == 2
+    assert "clock goes back" in out.stderr and "replay it whole" in out.stderr
