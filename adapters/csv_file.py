@@ -4,10 +4,8 @@ from __future__ import annotations
 
 import io
 import os
-import re
 import threading
 import time
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
@@ -15,80 +13,10 @@ import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
+from adapters.csv_blocks import BLOCK_BYTES, MAGIC, BlockReader, CsvHeader, last_time, read_header, rows_to_batch
+from adapters.csv_damage import DamageRecord
 
 __all__ = ["CsvHeader", "CsvSource", "read_header", "MAGIC"]
-
-MAGIC = "regime recording"          # first metadata line of our own recordings
-_BLOCK = 4 << 20                    # bytes read per chunk (bounded memory)
-_EMPTY_FIELD = re.compile(rb"(?<=,)(?=,|\r?\n|$)|^(?=,)", re.MULTILINE)
-_SIGMA_PREFIX = "sigma_"
-_KEEP_SKIPPED_LINES = 100           # line numbers of skipped damaged lines kept for the summary
-_SHOW_SKIPPED_LINES = 5             # ... and named in the end message
-_SEQ_MAX = (1 << 62) - 1
-
-
-@dataclass(frozen=True)
-class CsvHeader:
-    """What precedes the data: column names, `# key: value` metadata (values in order), where data starts."""
-
-    columns: tuple[str, ...]
-    metadata: dict[str, list[str]] = field(default_factory=dict)
-    data_offset: int = 0              # byte offset of the first data line
-    data_line: int = 1                # 1-based line number of the first data line
-    ours: bool = False                # written by our recorder
-
-    def first(self, key: str, default: str | None = None) -> str | None:
-        values = self.metadata.get(key)
-        return values[0] if values else default
-
-
-def read_header(path: str | os.PathLike[str]) -> CsvHeader:
-    """Read the header row and the `#` metadata lines around it (before the first data line)."""
-    columns: tuple[str, ...] | None = None
-    meta: dict[str, list[str]] = {}
-    ours = False
-    offset = 0
-    line_no = 0
-    with open(path, "rb") as fh:
-        while True:
-            raw = fh.readline(1 << 20)
-            if not raw:
-                break
-            line_no += 1
-            text = raw.decode("utf-8", errors="replace").strip()
-            if text.startswith("#"):
-                body = text[1:].strip()
-                if body.startswith(MAGIC):
-                    ours = True
-                if ":" in body:
-                    key, _, value = body.partition(":")
-                    meta.setdefault(key.strip(), []).append(value.strip())
-            elif not text:
-                pass
-            elif columns is None:
-                columns = tuple(c.strip().strip('"') for c in text.split(","))
-            else:
-                break
-            offset += len(raw)
-    if columns is None:
-        raise FatalSourceError(f"{path}: no header row (a first line naming the columns, e.g. t,ne,Te)")
-    return CsvHeader(columns=columns, metadata=meta, data_offset=offset, data_line=line_no, ours=ours)
-
-
-def _last_time(path: Path, header: CsvHeader, tcol: int, scale: float) -> float | None:
-    """Data time of the last whole line, read from the file's tail (None if none parses)."""
-    size = path.stat().st_size
-    with open(path, "rb") as fh:
-        fh.seek(max(header.data_offset, size - 65536))
-        tail = fh.read()
-    for raw in reversed(tail.split(b"\n")[:-1] if not tail.endswith(b"\n") else tail.split(b"\n")):
-        fields = raw.split(b",")
-        if len(fields) == len(header.columns) and not raw.startswith(b"#"):
-            try:
-                return float(fields[tcol]) * scale
-            except ValueError:
-                continue
-    return None
 
 
 class CsvSource:
@@ -101,13 +29,13 @@ class CsvSource:
     ``on_damage`` "stop" ends the replay at the first unreadable line, "skip" rejects it and goes on;
     either way the line is a Rejection and the status names the line number and the reason. ``damage``
     is the first damaged line (number, reason); in skip mode ``skipped`` counts the skipped lines and
-    ``skipped_lines`` holds the first ``_KEEP_SKIPPED_LINES`` of their numbers. A damaged line's
+    ``skipped_lines`` holds the first ``KEEP_SKIPPED_LINES`` (csv_damage) of their numbers. A damaged line's
     rejection detail ends with ``(seq=N)`` where its seq column still reads, so that the pipeline
     counts it as rejected and not once more as lost.
     """
 
     def __init__(self, path: str | os.PathLike[str], *, speed: float | None = None, start: float | None = None,
-                 stop: float | None = None, chunk: int = _BLOCK, name: str | None = None,
+                 stop: float | None = None, chunk: int = BLOCK_BYTES, name: str | None = None,
                  time_column: str = "t", time_scale: float = 1.0, on_damage: str = "stop",
                  step_seconds: float = 0.1, batch_rows: int = 16384,
                  clock: Callable[[], float] = time.monotonic) -> None:
@@ -129,11 +57,7 @@ class CsvSource:
         self._explicit_name = name
         self.name = name or self.path.name
         self.header: CsvHeader | None = None
-        self.damage: tuple[int, str] | None = None     # (line number, reason) of the first damage
-        self.skipped = 0                               # damaged lines skipped (skip mode), each once
-        self.skipped_lines: list[int] = []             # their line numbers, the first _KEEP_SKIPPED_LINES
-        self._skipped_reasons: dict[str, int] = {}     # reason token -> skipped lines
-        self._skipped_upto = 0                         # highest line counted (a seek back reads lines again)
+        self._damage = DamageRecord(on_damage)         # the damaged lines met (csv_damage)
         self._end_label = "end of file"                # or "end of the replay window" (--to)
         self._lock = threading.RLock()
         self._wake = threading.Event()
@@ -160,11 +84,13 @@ class CsvSource:
             self.name = self.header.first("source") or self.path.name
         self._tcol = cols.index(self._time_column)
         self._seqcol = cols.index("seq") if "seq" in cols else None
-        self._end = _last_time(self.path, self.header, self._tcol, self._time_scale)
+        self._end = last_time(self.path, self.header, self._tcol, self._time_scale)
         self._fh = open(self.path, "rb")
-        self._index: list[tuple[int, int, float]] = []   # (byte offset, line number, first t) per block
+        self._reader = BlockReader(self._fh, self.header, tcol=self._tcol, seqcol=self._seqcol,
+                                   time_scale=self._time_scale, block=self._block,
+                                   stop_on_damage=self._on_damage == "stop", on_damaged=self._damaged)
         self._rewind(self.header.data_offset, self.header.data_line)
-        while not self._eof and len(self._rows) == 0:     # prime: the start time is known at once
+        while not self._reader.eof and len(self._rows) == 0:     # prime: the start time is known at once
             if not self._read_block():
                 break
         self._skip_before_start()
@@ -176,7 +102,6 @@ class CsvSource:
         self._rows: np.ndarray = np.empty((0, 0))
         self._row_lines: np.ndarray = np.empty(0, dtype=np.int64)
         self._pos = 0                      # next row within self._rows
-        self._eof = False
         self._ended = False
         self._paused = False
         self._step_budget: float | None = None
@@ -188,184 +113,62 @@ class CsvSource:
         self._pending_rejections: list[Rejection] = []
 
     def _rewind(self, offset: int, line: int) -> None:
-        assert self._fh is not None
-        self._fh.seek(offset)
-        self._offset = offset
-        self._line = line
-        self._carry = b""
+        self._reader.rewind(offset, line)
         self._rows = np.empty((0, len(self.header.columns) if self.header else 0))
         self._row_lines = np.empty(0, dtype=np.int64)
         self._pos = 0
-        self._eof = False
         self._ended = False
         self._played = None
 
-    # -- parsing -----------------------------------------------------------------------------------
+    # -- reading ------------------------------------------------------------------------------------
     def _read_block(self) -> bool:
-        """Parse the next block of whole lines into self._rows; False at the end of the file."""
-        assert self._fh is not None and self.header is not None
-        start_offset = self._offset - len(self._carry)
-        data = self._fh.read(self._block)
-        self._offset += len(data)
-        buf = self._carry + data
-        if not data:
-            self._eof = True
-            if not buf.strip():
-                return False
-            body, self._carry, unterminated = buf, b"", True
-        else:
-            cut = buf.rfind(b"\n")
-            if cut < 0:
-                self._carry = buf
-                return True
-            body, self._carry, unterminated = buf[: cut + 1], buf[cut + 1:], False
-        first_line = self._line
-        newlines = body.count(b"\n")
-        self._line += newlines + (1 if unterminated else 0)
-        rows, lines = self._parse(body, first_line, unterminated, newlines)
-        if len(rows) and (not self._index or start_offset > self._index[-1][0]):
-            # blocks read again after a seek back are indexed already: the index stays sorted
-            self._index.append((start_offset, first_line, float(rows[0, self._tcol])))
-        self._rows, self._row_lines, self._pos = rows, lines, 0
+        """The next block of whole lines (csv_blocks.BlockReader) as self._rows; False at the end of the file."""
+        got = self._reader.read()
+        if got is None:
+            return False
+        self._rows, self._row_lines = got
+        self._pos = 0
         return True
 
-    def _parse(self, body: bytes, first_line: int, unterminated: bool, newlines: int) -> tuple[np.ndarray, np.ndarray]:
-        ncol = len(self.header.columns) if self.header else 0
-        if unterminated and self.header is not None and self.header.ours:
-            # our recorder writes whole lines only: an unterminated last line is a cut-off write
-            return self._fallback(body, first_line, force_bad_last=True)
-        try:
-            rows = np.loadtxt(io.BytesIO(body), delimiter=",", comments="#", ndmin=2, dtype=np.float64)
-        except ValueError:
-            # empty fields (missing values in a foreign file) are NaN; only then is the block rewritten
-            try:
-                rows = np.loadtxt(io.BytesIO(_EMPTY_FIELD.sub(b"nan", body)), delimiter=",", comments="#",
-                                  ndmin=2, dtype=np.float64)
-            except ValueError:
-                return self._fallback(body, first_line, force_bad_last=False)
-        if rows.shape[0] and rows.shape[1] != ncol:
-            return self._fallback(body, first_line, force_bad_last=False)
-        if rows.shape[0] != newlines + (1 if unterminated else 0):
-            # comment or blank lines inside the block: line numbers come from the slow path
-            return self._fallback(body, first_line, force_bad_last=False)
-        rows = rows.reshape(-1, ncol)
-        if self._time_scale != 1.0:
-            rows[:, self._tcol] *= self._time_scale
-        return rows, np.arange(first_line, first_line + len(rows), dtype=np.int64)
+    @property
+    def _index(self) -> list[tuple[int, int, float]]:
+        """(byte offset, line number, first t) of each block read, sorted (the reader's block index)."""
+        return self._reader.index
 
-    def _fallback(self, body: bytes, first_line: int, force_bad_last: bool) -> tuple[np.ndarray, np.ndarray]:
-        """Line by line, only for a block that failed the fast path: find where and why."""
-        ncol = len(self.header.columns) if self.header else 0
-        good: list[list[float]] = []
-        lines: list[int] = []
-        raw_lines = body.split(b"\n")
-        if raw_lines and raw_lines[-1] == b"":
-            raw_lines.pop()
-        for i, raw in enumerate(raw_lines):
-            number = first_line + i
-            stripped = raw.strip()
-            if not stripped or stripped.startswith(b"#"):
-                continue
-            reason = ""
-            fields = stripped.split(b",")
-            if force_bad_last and i == len(raw_lines) - 1:
-                reason, why = "truncated_line", "the file ends inside a line (cut off mid-write)"
-            else:
-                if len(fields) != ncol:
-                    reason = "truncated_line" if len(fields) < ncol and i == len(raw_lines) - 1 and self._eof \
-                        else "damaged_line"
-                    why = f"{len(fields)} fields, expected {ncol}"
-                else:
-                    try:
-                        good.append([float(f) if f.strip() else float("nan") for f in fields])
-                        lines.append(number)
-                        continue
-                    except ValueError:
-                        reason, why = "damaged_line", self._unreadable(fields)
-            self._damaged(number, reason, why, raw, fields)
-            if self._on_damage == "stop":
-                self._eof = True
-                self._carry = b""
-                break
-        rows = np.array(good, dtype=np.float64).reshape(-1, ncol)
-        if len(rows):
-            rows[:, self._tcol] *= self._time_scale
-        return rows, np.array(lines, dtype=np.int64)
-
-    def _unreadable(self, fields: list[bytes]) -> str:
-        """Why a line with the right number of fields does not read: its first bad field and column."""
-        assert self.header is not None
-        for j, f in enumerate(fields):
-            if not f.strip():
-                continue
-            try:
-                float(f)
-            except ValueError:
-                text = f.strip().decode("utf-8", errors="replace")
-                text = text if len(text) <= 40 else text[:40] + "..."
-                return f"unreadable number {text!r} in column {self.header.columns[j]}"
-        return "unreadable number"
-
-    def _seq_of(self, fields: list[bytes]) -> int | None:
-        """The seq a damaged line still shows in the seq column, if it reads as a whole number."""
-        if self._seqcol is None or self._seqcol >= len(fields):
-            return None
-        try:
-            v = float(fields[self._seqcol])
-        except ValueError:
-            return None
-        return int(v) if v.is_integer() and 0 <= v <= _SEQ_MAX else None
-
-    def _damaged(self, number: int, reason: str, why: str, raw: bytes, fields: list[bytes]) -> None:
+    def _damaged(self, number: int, reason: str, why: str, raw: bytes, seq: int | None) -> None:
         """One damaged line: a Rejection (with the seq it shows), the first damage, the skip count, the status."""
-        seq = self._seq_of(fields)
         detail = f"line {number}: {why}" + ("" if seq is None else f" (seq={seq})")
         self._pending_rejections.append(Rejection(self.name, reason, raw, time.time(), detail))
-        if self.damage is None:
-            self.damage = (number, why)
+        self._damage.note(number, reason, why)
         if self._on_damage == "stop":
             self._message = f"{self.path.name}: damaged at line {number}: {why}"
             return
-        if number > self._skipped_upto:           # a line read again after a seek back counts once
-            self._skipped_upto = number
-            self.skipped += 1
-            self._skipped_reasons[reason] = self._skipped_reasons.get(reason, 0) + 1
-            if len(self.skipped_lines) < _KEEP_SKIPPED_LINES:
-                self.skipped_lines.append(number)
         self._message = (f"{self.path.name}: damaged at line {number} ({why}); skipping, "
                          f"{self.skipped} skipped so far")
+
+    @property
+    def damage(self) -> tuple[int, str] | None:
+        """(line number, reason) of the first damaged line; None while there is none."""
+        return self._damage.first
+
+    @property
+    def skipped(self) -> int:
+        """Damaged lines skipped (skip mode), each once."""
+        return self._damage.skipped
+
+    @property
+    def skipped_lines(self) -> list[int]:
+        """Line numbers of the skipped lines, the first ``KEEP_SKIPPED_LINES`` (csv_damage)."""
+        return self._damage.lines
 
     def end_message(self, end: str | None = None) -> str:
         """What the replay's end says about damage (without the file name): in stop mode where it
         stopped and why; in skip mode how many lines were skipped, which, and that they were kept."""
-        end = end or self._end_label
-        if self.damage is None:
-            return end
-        line, why = self.damage
-        if self._on_damage == "stop":
-            return f"replayed up to line {line}, damaged there: {why}"
-        n = self.skipped
-        shown = ", ".join(str(x) for x in self.skipped_lines[:_SHOW_SKIPPED_LINES])
-        more = f" (+{n - _SHOW_SKIPPED_LINES} more)" if n > _SHOW_SKIPPED_LINES else ""
-        if len(self._skipped_reasons) == 1:
-            (token,) = self._skipped_reasons
-            how = f"rejected as {token}"
-        else:
-            how = "rejected (" + ", ".join(f"{k} {v}" for k, v in sorted(self._skipped_reasons.items())) + ")"
-        if n == 1:
-            return f"{end}; 1 damaged line skipped (line {line}: {why}), {how} and kept with the rejections"
-        return (f"{end}; {n} damaged lines skipped (lines {shown}{more}; first: {why}), each {how} "
-                f"and kept with the rejections")
+        return self._damage.end_message(end or self._end_label)
 
     def damage_summary(self) -> dict[str, object] | None:
-        """The summary's ``damage`` object: ``line`` and ``reason`` of the first damaged line, ``mode``;
-        in skip mode also ``skipped`` (count), ``lines`` (the first ``lines_cap`` line numbers)."""
-        if self.damage is None:
-            return None
-        out: dict[str, object] = {"line": self.damage[0], "reason": self.damage[1], "mode": self._on_damage}
-        if self._on_damage == "skip":
-            out.update(skipped=self.skipped, lines=list(self.skipped_lines), lines_cap=_KEEP_SKIPPED_LINES)
-        return out
+        """The summary's ``damage`` object (csv_damage.DamageRecord.summary); None without damage."""
+        return self._damage.summary()
 
     # -- the Source protocol ---------------------------------------------------------------------------
     def poll(self, timeout: float) -> Polled:
@@ -397,7 +200,7 @@ class CsvSource:
     def _collect(self) -> tuple[list[Batch], float]:
         """Rows now due (by speed, step, start/stop) as one batch, or how long until the next is due."""
         while self._pos >= len(self._rows):
-            if self._eof or not self._read_block():
+            if self._reader.eof or not self._read_block():
                 self._finish()
                 return [], 0.0
             self._skip_before_start()
@@ -437,7 +240,8 @@ class CsvSource:
         self._pos += n
         self.released += n
         self._current = self._played = float(taken[-1, self._tcol])
-        return self._batch(taken)
+        assert self.header is not None
+        return rows_to_batch(taken, self.header, self._tcol, self._seqcol, self.name)
 
     def _due_limit(self, next_t: float) -> float | None:
         if self._step_budget is not None:
@@ -458,25 +262,6 @@ class CsvSource:
     def _skip_before_start(self) -> None:
         if self._start is not None and len(self._rows):
             self._pos = max(self._pos, int(np.searchsorted(self._rows[:, self._tcol], self._start, side="left")))
-
-    def _batch(self, rows: np.ndarray) -> Batch:
-        assert self.header is not None
-        columns: dict[str, np.ndarray] = {}
-        sigma: dict[str, np.ndarray] = {}
-        seq = None
-        for j, name in enumerate(self.header.columns):
-            if j == self._tcol:
-                continue
-            col = np.ascontiguousarray(rows[:, j])
-            if j == self._seqcol:
-                if np.all(np.isfinite(col)):
-                    seq = col.astype(np.int64)
-            elif name.startswith(_SIGMA_PREFIX) and name[len(_SIGMA_PREFIX):] in self.header.columns:
-                sigma[name[len(_SIGMA_PREFIX):]] = col
-            else:
-                columns[name] = col
-        t = np.ascontiguousarray(rows[:, self._tcol])
-        return Batch(source=self.name, t=t, columns=columns, sigma=sigma, seq=seq, t_from_source=True)
 
     def _finish(self, end: str = "end of file") -> None:
         self._ended = True
@@ -563,7 +348,7 @@ class CsvSource:
                     self._skip_before_start()
                     if self._pos < len(self._rows):
                         break
-                if self._eof or not self._read_block():
+                if self._reader.eof or not self._read_block():
                     break
             self._start = old_start
             self._current = t
@@ -574,7 +359,7 @@ class CsvSource:
     def _next_time(self) -> float | None:
         """Data time of the next row to play (reading on if the block is used up); None at the end."""
         while self._pos >= len(self._rows):
-            if self._eof or not self._read_block():
+            if self._reader.eof or not self._read_block():
                 return None
             self._skip_before_start()
         return float(self._rows[self._pos, self._tcol])
