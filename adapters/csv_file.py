@@ -62,6 +62,7 @@ class CsvSource:
         self._lock = threading.RLock()
         self._wake = threading.Event()
         self._fh: io.BufferedReader | None = None
+        self._reader: BlockReader | None = None        # made by open()
         self._state = LinkState.CONNECTING
         self._message = ""
         self._reset_stream()
@@ -133,7 +134,7 @@ class CsvSource:
     @property
     def _index(self) -> list[tuple[int, int, float]]:
         """(byte offset, line number, first t) of each block read, sorted (the reader's block index)."""
-        return self._reader.index
+        return self._reader.index if self._reader is not None else []   # none before open()
 
     def _damaged(self, number: int, reason: str, why: str, raw: bytes, seq: int | None) -> None:
         """One damaged line: a Rejection (with the seq it shows), the first damage, the skip count, the status."""
@@ -388,9 +389,12 @@ class CsvSource:
             self._start, self._stop = start, stop
             self._skip_before_start()
 
-    def position(self) -> tuple[float, float, float | None, float | None, bool]:
-        """(time, start, end, speed, paused) in data time; the shape of monitor.snapshot.ReplayPosition."""
+    def position(self) -> tuple[float, float, float | None, float | None, bool] | None:
+        """(time, start, end, speed, paused) in data time; the shape of monitor.snapshot.ReplayPosition.
+        None before ``open`` (the screen may ask while the session's thread is still opening the file)."""
         with self._lock:
+            if self._reader is None:
+                return None
             first = self._index[0][2] if self._index else float("nan")
             start = self._start if self._start is not None else first
             # a forward seek in progress stands at its target already (as a seek back does at once)

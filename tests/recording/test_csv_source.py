@@ -171,3 +171,18 @@ def test_empty_fields_are_missing_values_and_time_scale(tmp_path: Path) -> None:
     np.testing.assert_allclose(t, [0.0, 0.01, 0.02])
     col = np.concatenate([b.columns["dens"] for b in batches])
     assert col[0] == 1.0 and np.isnan(col[1]) and col[2] == 3.0
+
+
+def test_position_before_open_is_none_not_an_error(tmp_path) -> None:
+    # the screen asks for the position while the session's thread may still be opening the file
+    from adapters.csv_file import CsvSource
+
+    path = tmp_path / "s.csv"
+    path.write_text("t,ne,Te\n0.0,5e16,3.0\n0.1,5e16,3.0\n")
+    src = CsvSource(path, speed=1.0)
+    assert src.position() is None and src.first_time is None and src.end_time is None
+    src.open()
+    try:
+        assert src.position()[1] == 0.0 and src.first_time == 0.0
+    finally:
+        src.close()
