@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import math
 import os
 import re
 from dataclasses import dataclass, field
@@ -199,6 +200,7 @@ class BlockReader:
         ncol = len(self.header.columns)
         good: list[list[float]] = []
         lines: list[int] = []
+        since_good = 0                     # damaged lines since the last good one (their seq positions)
         raw_lines = body.split(b"\n")
         if raw_lines and raw_lines[-1] == b"":
             raw_lines.pop()
@@ -220,10 +222,12 @@ class BlockReader:
                     try:
                         good.append([float(f) if f.strip() else float("nan") for f in fields])
                         lines.append(number)
+                        since_good = 0
                         continue
                     except ValueError:
                         reason, why = "damaged_line", self._unreadable(fields)
-            self._on_damaged(number, reason, why, raw, self._seq_of(fields))
+            since_good += 1
+            self._on_damaged(number, reason, why, raw, self._damaged_seq(fields, ncol, good, since_good))
             if self._stop_on_damage:
                 self.eof = True
                 self._carry = b""
@@ -245,6 +249,24 @@ class BlockReader:
                 text = text if len(text) <= 40 else text[:40] + "..."
                 return f"unreadable number {text!r} in column {self.header.columns[j]}"
         return "unreadable number"
+
+    def _damaged_seq(self, fields: list[bytes], ncol: int, good: list[list[float]], nth: int) -> int | None:
+        """The seq of a damaged line (the ``nth`` since the last good line of this block), so that the
+        gap it leaves is not counted again as lost. Its own seq column where that can be trusted: all
+        fields there, or a line cut short whose seq follows the good line before it. A line with a field
+        missing or extra has its columns shifted (another column's number would pass for its seq): it
+        stands in the place after the good line before it. None where neither is known."""
+        if self._seqcol is None:
+            return None
+        seq = self._seq_of(fields)
+        if seq is not None and len(fields) == ncol:
+            return seq
+        prev = good[-1][self._seqcol] if good else None
+        if prev is None or not math.isfinite(prev):
+            return seq if seq is not None and len(fields) < ncol and self._seqcol < len(fields) - 1 else None
+        if seq is not None and len(fields) < ncol and seq == int(prev) + nth:
+            return seq
+        return int(prev) + nth
 
     def _seq_of(self, fields: list[bytes]) -> int | None:
         """The seq a damaged line still shows in the seq column, if it reads as a whole number."""

@@ -196,3 +196,24 @@ def test_replay_stop_mode_still_says_where_it_stopped(tmp_path: Path) -> None:
     assert last == f"regime replay: {csv}: replayed up to line {bad}, damaged there: {why}"
     assert summary["damage"]["line"] == bad and summary["damage"]["reason"] == why
     assert summary["accepted"] == 200 and summary["rejected"] == {"damaged_line": 1} and summary["lost"] == 0
+
+
+def test_a_line_missing_a_field_in_the_middle_does_not_lend_another_column_as_its_seq(tmp_path: Path) -> None:
+    # its t field lost: the seq column then holds the ne value; trusting it would count the line
+    # twice (rejected, and lost by the gap at its real seq)
+    from monitor.session import Session
+
+    csv = _recording(tmp_path)
+    mid = _line_of(csv, "3.5")
+    lines = csv.read_text().splitlines()
+    fields = lines[mid - 1].split(",")
+    lines[mid - 1] = ",".join(fields[1:])                           # drop t: every column shifts left
+    csv.write_text("\n".join(lines) + "\n")
+    src = CsvSource(csv, chunk=4096, on_damage="skip")
+    session = Session(src, load_config(None), [], live=False)
+    session.open()
+    session.run()
+    summary = session.summary()
+    session.close()
+    assert summary["rejected"] == {"damaged_line": 1}
+    assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == 500
