@@ -79,6 +79,8 @@ def test_missing_sigma_counts_as_exact_and_sign_is_ignored() -> None:
     only_ne = derive(inputs, DEVICE, {"ne": 5e15})
     assert "electron_thermal_speed" not in only_ne.sigma          # depends on Te alone
     assert "electron_cyclotron_frequency" not in only_ne.sigma    # depends on B alone
+    # lambda_D ~ ne^(-1/2): relative sigma = 1/2 x relative sigma of ne (GUM, JCGM 100:2008, 5.1.2, for a
+    # power law; the exponent from the NRL Plasma Formulary's lambda_D = 7.43e2 T^1/2 n^-1/2 cm)
     assert only_ne.sigma["debye_length"][0] == pytest.approx(0.5 * 0.1 * only_ne.values["debye_length"][0])
     negative = derive(inputs, DEVICE, {"ne": -5e15})
     assert negative.sigma["debye_length"][0] == only_ne.sigma["debye_length"][0]
@@ -93,6 +95,8 @@ def test_gas_off_keeps_a_finite_sigma() -> None:
     for name in ("neutral_density", "ionization_fraction", "electron_neutral_collision_frequency",
                  "electron_mean_free_path", "collectivity", "hall_parameter"):
         assert np.isfinite(d.sigma[name][0]), name
+    # sigma = |df/dp0| x sigma_p0 (GUM, JCGM 100:2008, 5.1.2), the slope taken as a one-sided difference at
+    # p0 = 0 from our own derive (n0 = p0 / k Tgas is linear, so the difference is exact to rounding)
     slope_n0 = up["neutral_density"][0] / 1e-9
     assert d.sigma["neutral_density"][0] == pytest.approx(0.1 * slope_n0, rel=1e-9)
     slope_x = (1.0 - up["ionization_fraction"][0]) / 1e-9

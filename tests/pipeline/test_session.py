@@ -308,6 +308,7 @@ def test_a_refused_binary_batch_over_zeromq_is_counted_once() -> None:
         ctx.term()
         import shutil
         shutil.rmtree(d, ignore_errors=True)
+    # no outside reference: four batches of 1000 readings sent by this test, two of them refused
     assert summary["rejected"] == {"bad_dtype": 1000, "size_mismatch": 1000}
     assert summary["lost"] == 0
     assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == 4000
@@ -323,6 +324,7 @@ def test_after_a_clock_restart_a_silent_source_still_goes_stale(collect: Collect
     s.step(0.01)
     s.step(0.01)
     assert s.summary()["restarts"] == 1 and s.summary()["accepted"] == 200
+    # no outside reference: the figures are this test's own inputs (100 samples 1 ms apart, stale_after 2 s)
     assert s.now() == pytest.approx(0.099)           # the new clock
     wall[0] += 2.5                                   # 2.5 s of silence
     s.step(0.01)
