@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import math
 import signal
@@ -18,7 +17,8 @@ from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
 __all__ = ["ATTENTION", "EXIT_RECORDING", "HeadlessPrinter", "jsonable", "status_record", "human_status",
-           "human_summary", "recorder_record", "human_recorder", "run_headless", "install_signals", "restore_signals"]
+           "human_summary", "recorder_record", "human_recorder", "run_headless", "install_signals", "restore_signals",
+           "final_summary", "failed_run"]
 
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
 # states that want the operator's attention (the others: normal, shelved, suppressed, out_of_service)
@@ -268,7 +268,7 @@ def run_headless(source: Any, config: Any, *, json: bool = False, duration: floa
     raised before (the recorder's) reach it. Exit code 0, 3 if the source failed, else
     EXIT_RECORDING (4) if the recording is incomplete (readings of a shot dropped, or writes
     still failing at the end)."""
-    from monitor.errors import EXIT_OK, EXIT_SOURCE
+    from monitor.errors import EXIT_OK
     from monitor.session import Session, make_engine
 
     if engine is _AUTO:
@@ -279,30 +279,40 @@ def run_headless(source: Any, config: Any, *, json: bool = False, duration: floa
     if on_session is not None:
         on_session(session)
 
-    def snapshot() -> Snapshot:
-        snap = session.snapshot()
-        return snap if recorder is None else dataclasses.replace(snap, recorder=recorder.status())
-
     stop = stop if stop is not None else threading.Event()
     previous = install_signals(stop)
-    final = None
     try:
         session.open()
-        session.run(duration, stop, on_interval=lambda s: printer.status(snapshot()), interval=1.0)
+        session.run(duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
     finally:
         restore_signals(previous)
         session.close()
-        printer.status(snapshot())
-        summary = session.summary()
-        if recorder is not None:
-            final = recorder.status()
-            summary["recorder"] = recorder_record(final)
+        printer.status(session.snapshot())
+        summary, final = final_summary(session, recorder)
         printer.summary(summary)
+    code = failed_run(session, final, "regime")
+    return EXIT_OK if code is None else code
+
+
+def final_summary(session: Any, recorder: Any = None) -> tuple[dict[str, Any], Any]:
+    """The session's summary with the recorder's block, and the recorder's final status (or None)."""
+    summary = session.summary()
+    final = recorder.status() if recorder is not None else None
+    if final is not None:
+        summary["recorder"] = recorder_record(final)
+    return summary, final
+
+
+def failed_run(session: Any, final: Any, command: str) -> int | None:
+    """The exit code of a run that did not end well, said on stderr: 3 when the source failed (it wins),
+    4 when the recording is incomplete (readings of shots that did not reach the disk); None otherwise."""
+    from monitor.errors import EXIT_SOURCE
+
     if session.failure is not None:
-        print(f"regime: source failed: {session.failure}", file=sys.stderr)
+        print(f"{command}: source failed: {session.failure}", file=sys.stderr)
         return EXIT_SOURCE
     if final is not None and not final.complete:
-        print(f"regime: the recording is incomplete: {final.dropped} readings of shots did not reach the disk"
+        print(f"{command}: the recording is incomplete: {final.dropped} readings of shots did not reach the disk"
               + ("" if final.ok else f" ({final.message})"), file=sys.stderr)
         return EXIT_RECORDING
-    return EXIT_OK
+    return None

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import importlib.util
 import sys
 import threading
@@ -56,12 +55,6 @@ class Outputs:
     def recorder_status(self) -> Any:
         """The recorder's RecorderStatus, or None when the run does not record."""
         return self.recorder.status() if self.recorder is not None else None
-
-    def annotate(self, snapshot: Any) -> Any:
-        """``snapshot`` with the recorder's status in its ``recorder`` field (unchanged without a recorder)."""
-        if snapshot is None or self.recorder is None:
-            return snapshot
-        return dataclasses.replace(snapshot, recorder=self.recorder.status())
 
 
 def _available(name: str) -> bool:

@@ -10,7 +10,7 @@ import threading
 import time
 from typing import Any
 
-from monitor.errors import EXIT_OK, EXIT_RECORDING, EXIT_SOURCE, EXIT_USAGE, UsageError
+from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
 
 __all__ = ["register", "run"]
 
@@ -67,7 +67,7 @@ class _Progress:
 
 def run(args: argparse.Namespace) -> int:
     from adapters.base import FatalSourceError
-    from monitor.headless import HeadlessPrinter, recorder_record
+    from monitor.headless import HeadlessPrinter, failed_run, final_summary
     from monitor.recording.replaying import open_file, parse_speed, parse_window_time, window_text
     from monitor.session import Session, make_engine
 
@@ -111,26 +111,17 @@ def run(args: argparse.Namespace) -> int:
     finally:
         _restore_signals(previous)
         session.close()
-        summary = dict(session.summary())
+        summary, final = final_summary(session, outputs.recorder)
         summary["file"] = str(args.file)
         summary["config"] = opened.config_origin
         # {"line", "reason", "mode"}; skip mode adds "skipped" and "lines" (the first "lines_cap")
         summary["damage"] = source.damage_summary()
-        final = outputs.recorder_status()
-        if final is not None:
-            summary["recorder"] = recorder_record(final)
         printer.status(session.snapshot())
         printer.summary(summary)
     if source.damage is not None:
         print(f"regime replay: {args.file}: {source.end_message()}", file=sys.stderr)
-    if session.failure is not None:
-        print(f"regime replay: source failed: {session.failure}", file=sys.stderr)
-        return EXIT_SOURCE
-    if final is not None and not final.complete:
-        print(f"regime replay: the recording is incomplete: {final.dropped} readings of shots did not reach "
-              f"the disk" + ("" if final.ok else f" ({final.message})"), file=sys.stderr)
-        return EXIT_RECORDING
-    return _empty_window(source, args, window)
+    code = failed_run(session, final, "regime replay")
+    return _empty_window(source, args, window) if code is None else code
 
 
 def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
@@ -158,32 +149,13 @@ def _screen(session: Any, args: argparse.Namespace, window: str, outputs: Any) -
         print("regime replay: the screen is not available in this build; use --headless", file=sys.stderr)
         return EXIT_USAGE
     try:
-        from monitor.tui.app import RegimeApp
-        from monitor.tui.feed import EventTap, SessionFeed
+        from monitor.commands.watch import run_screen
         from monitor.tui.launch import settings_for
     except ImportError as exc:
         print(f"regime replay: the screen cannot start ({exc}); use --headless", file=sys.stderr)
         return EXIT_USAGE
-    tap = EventTap()
-    session.add_sink(tap)
-    outputs.bind(session)          # after the tap: the recorder's early events reach the journal screen
-    # device guides and envelope box from the config, as `regime watch` does
-    app = RegimeApp(SessionFeed(session, tap), settings_for(session.config, title=f"regime replay {session.name}"))
     session.open()
-    try:
-        app.run()
-    finally:
-        app.stop.set()
-        session.close()
-    from monitor.headless import human_summary, recorder_record
-
-    summary = session.summary()
-    final = outputs.recorder_status()
-    if final is not None:
-        summary["recorder"] = recorder_record(final)
-    print(human_summary(summary))
-    if session.failure is not None:
-        return EXIT_SOURCE
-    if final is not None and not final.complete:
-        return EXIT_RECORDING
-    return _empty_window(session.source, args, window)
+    # device guides and envelope box from the config, as `regime watch` does
+    code = run_screen(session, outputs, settings_for(session.config, title=f"regime replay {session.name}"),
+                      "regime replay")
+    return _empty_window(session.source, args, window) if code is None else code

@@ -10,7 +10,7 @@ import sys
 import threading
 from typing import Any
 
-from monitor.errors import EXIT_SOURCE, EXIT_USAGE, UsageError
+from monitor.errors import EXIT_USAGE, UsageError
 
 __all__ = ["register", "run"]
 
@@ -89,32 +89,29 @@ def _screen(session: Any, config: Any, outputs: Any, duration: float | None = No
                 close()
         print("regime watch: the screen is not available in this build; use --headless", file=sys.stderr)
         return EXIT_USAGE
-    from monitor.headless import EXIT_RECORDING, human_summary, recorder_record
-    from monitor.tui.app import RegimeApp
-    from monitor.tui.feed import EventTap, SessionFeed
     from monitor.tui.launch import settings_for
 
-    class RecordedFeed(SessionFeed):
-        """The session's snapshots with the recorder's status, for the sources panel."""
+    code = run_screen(session, outputs, settings_for(config, title=f"regime watch {session.name}",
+                                                     quit_after=duration), "regime watch")
+    return 0 if code is None else code
 
-        def snapshot(self) -> Any:
-            return outputs.annotate(super().snapshot())
+
+def run_screen(session: Any, outputs: Any, settings: Any, command: str) -> int | None:
+    """The operator's screen on ``session`` until it quits, then the summary on stdout; the exit code
+    of a run that did not end well (``headless.failed_run``), else None. Shared by watch and replay."""
+    from monitor.headless import failed_run, final_summary, human_summary
+    from monitor.tui.app import RegimeApp
+    from monitor.tui.feed import EventTap, SessionFeed
 
     tap = EventTap()
     session.add_sink(tap)
     outputs.bind(session)          # after the tap: the recorder's early events reach the journal screen
-    app = RegimeApp(RecordedFeed(session, tap), settings_for(config, title=f"regime watch {session.name}",
-                                                                  quit_after=duration))
+    app = RegimeApp(SessionFeed(session, tap), settings)
     try:
         app.run()
     finally:
         app.stop.set()
         session.close()
-    summary = session.summary()
-    final = outputs.recorder_status()
-    if final is not None:
-        summary["recorder"] = recorder_record(final)
+    summary, final = final_summary(session, outputs.recorder)
     print(human_summary(summary))
-    if session.failure is not None:
-        return EXIT_SOURCE
-    return EXIT_RECORDING if final is not None and not final.complete else 0
+    return failed_run(session, final, command)

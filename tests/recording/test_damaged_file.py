@@ -153,25 +153,32 @@ def test_skip_many_damaged_lines_are_counted_and_capped(tmp_path: Path) -> None:
             f"as damaged_line and kept with the rejections") in src.status().message
 
 
-def test_skip_counts_each_reading_once_through_the_session(tmp_path: Path) -> None:
+def _skip_through_a_session(csv: Path) -> tuple[CsvSource, dict]:
+    """Replay ``csv`` with --on-damage skip through a real Session; the source and its summary."""
     from monitor.session import Session
 
+    src = CsvSource(csv, chunk=4096, on_damage="skip")
+    session = Session(src, load_config(None), [], live=False)
+    session.open()
+    try:
+        session.run()
+        return src, session.summary()
+    finally:
+        session.close()
+
+
+def test_skip_counts_each_reading_once_through_the_session(tmp_path: Path) -> None:
     csv, bad, short = _skip_file(tmp_path)
     lines = csv.read_text().splitlines()
     mid = _line_of(csv, "3.5")
     lines[mid - 1] = "3.5,350,5e16"                                # a third one, in another block
     csv.write_text("\n".join(lines) + "\n")
-    src = CsvSource(csv, chunk=4096, on_damage="skip")
-    session = Session(src, load_config(None), [], live=False)
-    session.open()
-    session.run()
-    summary = session.summary()
+    src, summary = _skip_through_a_session(csv)
     rows = sum(1 for ln in lines[1:] if ln and not ln.startswith("#"))
     assert rows == 500
     assert summary["accepted"] == 497 and summary["rejected"] == {"damaged_line": 3} and summary["lost"] == 0
     assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == rows
     assert src.skipped == 3 and src.skipped_lines == [bad, short, mid]
-    session.close()
 
 
 def test_skip_lines_read_again_after_a_seek_back_count_once(tmp_path: Path) -> None:
@@ -201,19 +208,12 @@ def test_replay_stop_mode_still_says_where_it_stopped(tmp_path: Path) -> None:
 def test_a_line_missing_a_field_in_the_middle_does_not_lend_another_column_as_its_seq(tmp_path: Path) -> None:
     # its t field lost: the seq column then holds the ne value; trusting it would count the line
     # twice (rejected, and lost by the gap at its real seq)
-    from monitor.session import Session
-
     csv = _recording(tmp_path)
     mid = _line_of(csv, "3.5")
     lines = csv.read_text().splitlines()
     fields = lines[mid - 1].split(",")
     lines[mid - 1] = ",".join(fields[1:])                           # drop t: every column shifts left
     csv.write_text("\n".join(lines) + "\n")
-    src = CsvSource(csv, chunk=4096, on_damage="skip")
-    session = Session(src, load_config(None), [], live=False)
-    session.open()
-    session.run()
-    summary = session.summary()
-    session.close()
+    _src, summary = _skip_through_a_session(csv)
     assert summary["rejected"] == {"damaged_line": 1}
     assert summary["accepted"] + summary["rejected_total"] + summary["lost"] == 500
