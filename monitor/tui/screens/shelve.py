@@ -11,15 +11,15 @@ from textual.widgets.option_list import Option
 
 __all__ = ["ShelveDialog", "DURATIONS"]
 
-# (label, seconds or None for "until unshelved")
+# (label, seconds or None for a one-shot shelve: it ends when the alarm returns, or at max_shelve)
 DURATIONS: tuple[tuple[str, float | None], ...] = (
     ("10 minutes", 600.0), ("30 minutes", 1800.0), ("1 hour", 3600.0), ("4 hours", 14400.0),
-    ("until unshelved", None),
+    ("until it returns (one-shot)", None),
 )
 
 
 class ShelveDialog(ModalScreen[float | None | bool]):
-    """Dismisses with seconds, None (until unshelved) or False (cancelled)."""
+    """Dismisses with seconds, None (one-shot: until the alarm returns) or False (cancelled)."""
 
     BINDINGS = [
         Binding("escape", "cancel", "cancel"),
