@@ -68,6 +68,14 @@ class Rejection:
     ``oversized``, ``bad_binary_header``, ``not_finite``, ...) used as the key
     of the rejected-by-reason counters. ``raw`` is the input exactly as it
     arrived (bytes). ``received`` is the wall-clock receive time.
+
+    ``count`` is how many readings the refused input stands for (a text line
+    or a JSON frame: 1; a binary batch: the readings its payload held), and
+    ``seq_first``/``seq_last`` the sequence numbers it covered (inclusive),
+    when the adapter could read them: the ledger counts the rejection as
+    ``count`` readings and does not count the seq numbers it covered again as
+    lost. The adapter that refused the input fills them; nothing parses
+    ``raw`` or ``detail`` back.
     """
 
     source: str
@@ -75,3 +83,6 @@ class Rejection:
     raw: bytes
     received: float
     detail: str = ""
+    count: int = 1
+    seq_first: int | None = None
+    seq_last: int | None = None
