@@ -17,7 +17,7 @@ from monitor.model import Frame
 from monitor.snapshot import Snapshot
 
 __all__ = ["ATTENTION", "EXIT_RECORDING", "HeadlessPrinter", "jsonable", "status_record", "human_status",
-           "human_summary", "recorder_record", "human_recorder", "run_headless", "install_signals", "restore_signals",
+           "human_summary", "recorder_record", "human_recorder", "install_signals", "restore_signals",
            "final_summary", "failed_run"]
 
 _SHOWN = (("ne", "ne", "m^-3"), ("Te", "Te", "eV"), ("debye_length", "debye", "m"))
@@ -252,46 +252,6 @@ def install_signals(stop: threading.Event) -> dict[int, Any]:
 def restore_signals(previous: dict[int, Any]) -> None:
     for sig, handler in previous.items():
         signal.signal(sig, handler)
-
-
-_AUTO = object()
-
-
-def run_headless(source: Any, config: Any, *, json: bool = False, duration: float | None = None,
-                 live: bool = True, sinks: Iterable[Any] = (), engine: Any = _AUTO,
-                 stream: TextIO | None = None, stop: threading.Event | None = None,
-                 on_session: Callable[[Any], None] | None = None, recorder: Any = None) -> int:
-    """Run ``source`` through a Session with status lines once a second and a summary at the end
-    (after ``duration`` wall seconds, the source's end, SIGINT or SIGTERM). ``engine`` defaults to
-    the alarm engine built from ``config``; ``recorder`` (one of ``sinks``) adds its status to the
-    lines and the summary. ``on_session`` is called once the printer is a sink, so that events
-    raised before (the recorder's) reach it. Exit code 0, 3 if the source failed, else
-    EXIT_RECORDING (4) if the recording is incomplete (readings of a shot dropped, or writes
-    still failing at the end)."""
-    from monitor.errors import EXIT_OK
-    from monitor.session import Session, make_engine
-
-    if engine is _AUTO:
-        engine = make_engine(config)
-    session = Session(source, config, list(sinks), engine=engine, live=live)
-    printer = HeadlessPrinter(stream if stream is not None else sys.stdout, as_json=json)
-    session.add_sink(printer)
-    if on_session is not None:
-        on_session(session)
-
-    stop = stop if stop is not None else threading.Event()
-    previous = install_signals(stop)
-    try:
-        session.open()
-        session.run(duration, stop, on_interval=lambda s: printer.status(s.snapshot()), interval=1.0)
-    finally:
-        restore_signals(previous)
-        session.close()
-        printer.status(session.snapshot())
-        summary, final = final_summary(session, recorder)
-        printer.summary(summary)
-    code = failed_run(session, final, "regime")
-    return EXIT_OK if code is None else code
 
 
 def final_summary(session: Any, recorder: Any = None) -> tuple[dict[str, Any], Any]:

@@ -44,8 +44,11 @@ class Frame:
     pipeline) maps each base key to the values as read, in canonical units,
     before the alignment hold (NaN where the reading did not carry the key):
     what a recorder writes so that a replay aligns exactly as the live run
-    did. Frames from the pipeline hold accepted readings only; refused ones
-    go to the sinks as Rejections.
+    did. ``discharge`` (added by the pipeline) is True where the discharge
+    is on by the one rule of ``monitor.alarms.discharge`` (the alarm engine's
+    suppression, the shot splitter and the screen all read it); None in a
+    frame built by hand. Frames from the pipeline hold accepted readings
+    only; refused ones go to the sinks as Rejections.
     """
 
     source: str
@@ -56,6 +59,7 @@ class Frame:
     warnings: Mapping[str, np.ndarray] = field(default_factory=dict)
     seq: np.ndarray | None = None
     raw: Mapping[str, np.ndarray] = field(default_factory=dict)
+    discharge: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.t)

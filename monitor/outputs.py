@@ -4,46 +4,25 @@ from __future__ import annotations
 
 import importlib.util
 import sys
-import threading
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from monitor.alarms.events import AlarmEvent
 from monitor.errors import UsageError
+
+if TYPE_CHECKING:
+    from monitor.recording.recorder import Recorder, RecorderStatus
 
 __all__ = ["Outputs", "build_outputs", "publisher_endpoint"]
 
 
 @dataclass
 class Outputs:
-    """The sinks of a run and the late link from the recorder's own alarm to the session.
-
-    Events the recorder raises before ``bind`` (a journal it could not open while the session
-    was still being built) are queued and handed over, in order, when the session attaches."""
+    """The sinks of a run; ``recorder`` is one of them (or None), handed to the Session, which raises
+    its health as the engine's ``recorder:write`` alarm."""
 
     sinks: list[Any] = field(default_factory=list)
-    recorder: Any = None
-    _session: Any = None
-    _early: list[AlarmEvent] = field(default_factory=list)
-    _lock: threading.Lock = field(default_factory=threading.Lock)
-
-    def relay(self, event: AlarmEvent) -> None:
-        """The recorder's write alarm reaches the screen, the printers and the publisher."""
-        with self._lock:
-            session = self._session
-            if session is None:
-                self._early.append(event)
-                return
-        session.emit(event, origin=self.recorder)
-
-    def bind(self, session: Any) -> None:
-        """Attach to the session that now carries these sinks, and deliver what came before."""
-        with self._lock:
-            self._session = session
-            early, self._early = self._early, []
-        for event in early:
-            session.emit(event, origin=self.recorder)
+    recorder: Recorder | None = None
 
     def close(self) -> None:
         """Close what was made so far (an output refused later in build_outputs)."""
@@ -52,7 +31,7 @@ class Outputs:
             if callable(close):
                 close()
 
-    def recorder_status(self) -> Any:
+    def recorder_status(self) -> RecorderStatus | None:
         """The recorder's RecorderStatus, or None when the run does not record."""
         return self.recorder.status() if self.recorder is not None else None
 
@@ -141,7 +120,7 @@ def build_outputs(config: Any, *, source_name: str, record: str | None = None,
             out.close()
             raise
         try:
-            out.recorder = Recorder(directory, config, source_name=source_name, emit=out.relay)
+            out.recorder = Recorder(directory, config, source_name=source_name)
         except OSError as exc:
             out.close()
             raise UsageError(f"{flag} {directory}: {exc.strerror or exc}") from None

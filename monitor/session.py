@@ -1,39 +1,53 @@
-"""A running session: one source through the pipeline and the alarm engine to the sinks, with a thread-safe snapshot."""
+"""A running session: one source polled with backoff, each batch through the pipeline and the alarm engine, out on the event bus."""
 
 from __future__ import annotations
 
-import collections
-import math
 import sys
 import threading
 import time
-from typing import Any, Callable, Iterable, Iterator, Mapping
-
-import numpy as np
+from typing import Any, Callable, Iterable, Iterator, Literal, Mapping, Protocol, runtime_checkable
 
 from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceStatus, TransientSourceError
 from adapters.batch import Rejection
-from monitor.alarms.events import AlarmEvent, AlarmState
+from monitor.alarms.engine import AlarmEngine
+from monitor.alarms.events import AlarmEvent
+from monitor.bus import EventBus
 from monitor.config import Config
 from monitor.model import Frame
+from monitor.operator import (Acknowledge, Command, OutOfService, Pause, Reset, Resume, Seek, SetSpeed, Shelve,
+                              StepReplay, Unshelve)
 from monitor.pipeline import Pipeline
-from monitor.pipeline.controls import SessionControls
-from monitor.pipeline.rolling import Trail
-from monitor.snapshot import AlarmView, Snapshot, Stats
+from monitor.recording.recorder import Recorder
+from monitor.snapshot import ReplayPosition, Snapshot, Stats
+from monitor.views import TRAIL_BASE, RunFacts, RunView
 
-__all__ = ["Session", "make_engine", "TRAIL_BASE"]
+__all__ = ["Session", "make_engine", "TRAIL_BASE", "ReplaySource", "RECORDER_ALARM"]
 
-TRAIL_BASE: tuple[str, ...] = ("ne", "Te", "debye_length")
-# alarm states that want the operator's attention ("alarms_active" in the summary)
-_ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
 _OPEN_BACKOFF = (0.2, 0.5, 1.0, 2.0, 5.0)
+RECORDER_ALARM = "recorder:write"       # the engine's alarm for the recorder's health
+Cause = Literal["seek", "clock", "publisher"]
 
 
-def make_engine(config: Config) -> Any:
-    """The alarm engine for ``config`` (imported here, so that a session without alarms stays light)."""
-    from monitor.alarms.engine import AlarmEngine
-
+def make_engine(config: Config) -> AlarmEngine:
+    """The alarm engine for ``config``."""
     return AlarmEngine.from_config(config)
+
+
+@runtime_checkable
+class ReplaySource(Protocol):
+    """A source that can be steered (the CSV replay): pause, step, speed, seek and its position."""
+
+    def pause(self) -> None: ...
+
+    def resume(self) -> None: ...
+
+    def step(self) -> None: ...
+
+    def set_speed(self, speed: float | None) -> None: ...
+
+    def seek(self, t: float) -> str | None: ...
+
+    def position(self) -> Any: ...
 
 
 class _LazyStats(Mapping[str, Stats]):
@@ -58,38 +72,39 @@ class _LazyStats(Mapping[str, Stats]):
         return len(self._get())
 
 
-class Session(SessionControls):
-    """Wires a Source, a Pipeline, an optional alarm engine and sinks.
+class Session:
+    """Runs one Source through a Pipeline and an optional alarm engine, out on an EventBus.
 
     ``live`` True: the alarm engine's clock between batches is the last data
     time plus the wall time elapsed since it arrived (the wall clock itself
     before any data, so a silent source goes stale); False (replay): data time
-    only. One thread calls ``step``/``run``; any thread may call ``snapshot``,
-    ``summary`` and the operator actions (a lock keeps them consistent).
+    only. ``recorder`` (also attached to the bus) is the run's recorder, whose
+    health the session raises as the engine's ``recorder:write`` alarm. One
+    thread calls ``step``/``run``; any thread may call ``snapshot``,
+    ``summary`` and ``apply`` (a lock keeps them consistent).
     """
 
-    def __init__(self, source: Source, config: Config | None = None, sinks: Iterable[Any] = (), *,
-                 engine: Any | None = None, live: bool = True, pipeline: Pipeline | None = None,
-                 wall: Callable[[], float] = time.time) -> None:
+    def __init__(self, source: Source, config: Config | None = None, sinks: Iterable[object] = (), *,
+                 engine: AlarmEngine | None = None, live: bool = True, pipeline: Pipeline | None = None,
+                 wall: Callable[[], float] = time.time, recorder: Recorder | None = None) -> None:
         self.source = source
         self.config = config if config is not None else Config()
-        self.sinks: list[Any] = list(sinks)
         self.engine = engine
         self.live = live
         self.pipeline = pipeline if pipeline is not None else Pipeline(self.config)
+        self.recorder = recorder
         self._wall = wall
         self._lock = threading.RLock()
         self._poll_lock = threading.Lock()
-        names = list(TRAIL_BASE)
-        for lim in self.config.limits:
-            q = getattr(lim, "quantity", None)
-            if isinstance(q, str) and q not in names:
-                names.append(q)
-        self.trail_names = tuple(names)
-        self._new_trail()
-        self._latest: dict[str, tuple[float, float | None]] = {}
-        self._warnings: tuple[str, ...] = ()
-        self._status: SourceStatus = SourceStatus(getattr(source, "name", "source"), LinkState.CONNECTING)
+        self.view = RunView(self.config)
+        self.bus = EventBus()
+        self.bus.frames.subscribe(self.view.on_frame)
+        self.bus.alarms.subscribe(self.view.events.on_alarm)
+        for sink in sinks:
+            self.bus.attach(sink)
+        if recorder is not None and recorder not in self.bus.sinks:
+            self.bus.attach(recorder)
+        self._status = SourceStatus(getattr(source, "name", "source"), LinkState.CONNECTING)
         self._opened = False
         self._open_failures = 0
         self._next_open = 0.0
@@ -98,15 +113,8 @@ class Session(SessionControls):
         self._last_t: float | None = None
         self._first_t: float | None = None
         self._last_arrival: float | None = None
-        # alarms raised outside the engine (the recorder's recorder:write): latest event per id
-        self._external: dict[str, AlarmEvent] = {}
         self._started = self._wall()
-        self._alarm_events = 0
-        self._events_by_state: collections.Counter = collections.Counter()
-        self.recent_events: collections.deque[AlarmEvent] = collections.deque(maxlen=200)
-        self.sink_errors = 0
         self.internal_errors = 0
-        self._sink_error_text: str | None = None
 
     # -- life cycle ---------------------------------------------------------
     @property
@@ -116,6 +124,22 @@ class Session(SessionControls):
     @property
     def ended(self) -> bool:
         return self._ended
+
+    @property
+    def sinks(self) -> list[object]:
+        return self.bus.sinks
+
+    @property
+    def sink_errors(self) -> int:
+        return self.bus.errors
+
+    @property
+    def trail_names(self) -> tuple[str, ...]:
+        return self.view.trail_names
+
+    @property
+    def recent_events(self) -> list[AlarmEvent]:
+        return list(self.view.events.recent)
 
     def open(self) -> bool:
         """Open the source; a transient failure is a status and is retried by ``step``."""
@@ -141,28 +165,17 @@ class Session(SessionControls):
             try:
                 self.source.close()
             except Exception as exc:  # noqa: BLE001 - closing must reach every sink
-                self._sink_error(f"closing the source: {exc!r}")
-            for sink in self.sinks:
-                self._call(sink, "close")
+                self.bus.failed(f"closing the source: {exc!r}")
+            with self._lock:
+                self.check_conditions()
+            self.bus.close()
         finally:
             if got:
                 self._poll_lock.release()
 
-    def add_sink(self, sink: Any) -> None:
+    def add_sink(self, sink: object) -> None:
         with self._lock:
-            self.sinks.append(sink)
-
-    def emit(self, event: AlarmEvent, *, origin: Any = None) -> None:
-        """Hand an alarm event raised outside the engine (e.g. the recorder's own write alarm) to
-        every sink but ``origin``, which has already kept it."""
-        with self._lock:
-            self._alarm_events += 1
-            self._events_by_state[getattr(event.state, "value", str(event.state))] += 1
-            self.recent_events.append(event)
-            self._external[event.alarm] = event
-            for sink in self.sinks:
-                if sink is not origin:
-                    self._call(sink, "on_alarm", event)
+            self.bus.attach(sink)
 
     # -- the loop -----------------------------------------------------------
     def step(self, timeout: float = 0.1) -> bool:
@@ -197,6 +210,7 @@ class Session(SessionControls):
                 # before any data the wall clock stands in, so a source that never speaks goes stale
                 now = self.now()
                 self._dispatch(self.engine.tick(now if now is not None else self._wall(), self.name))
+            self.check_conditions()
             if status.state is LinkState.ENDED:
                 self._ended = True
             elif status.state is LinkState.FAILED:
@@ -235,48 +249,43 @@ class Session(SessionControls):
     def _handle(self, polled: Polled) -> None:
         if polled.rejections:
             self.pipeline.reject(polled.rejections)
-            self._fan("on_rejections", list(polled.rejections))
+            self.bus.rejections.publish(list(polled.rejections))
         for batch in polled.batches:
             if len(batch) == 0:
                 continue
             try:
-                parts = self.pipeline.process_parts(batch)
+                processed = self.pipeline.process_batch(batch)
             except Exception as exc:  # noqa: BLE001 - our own fault must not stop the run or lose readings
                 self._internal_error(f"processing a batch from {batch.source}: {exc!r}")
-                self._fan("on_rejections", self.pipeline.refuse_batch(batch, "internal_error", repr(exc)))
+                self.bus.rejections.publish(self.pipeline.refuse_batch(batch, "internal_error", repr(exc)))
                 continue
-            rejected = self.pipeline.drain_rejections()
-            if rejected:
-                self._fan("on_rejections", rejected)
-            for frame, new_clock in parts:
-                if new_clock:
-                    self._clock_restarted(frame)
-                if len(frame):
-                    self._on_frame(frame)
+            if processed.rejections:
+                self.bus.rejections.publish(list(processed.rejections))
+            for part in processed.parts:
+                if part.restart is not None and len(part.frame):
+                    self.restart(float(part.frame.t[0]), part.restart)
+                if len(part.frame):
+                    self._on_frame(part.frame)
 
-    def _clock_restarted(self, frame: Frame) -> None:
-        """The source's clock went back (a counted restart): the trail and the alarm engine's timing
-        start over from the new clock, as after a seek back; alarm states are kept."""
-        self._new_trail()
+    def restart(self, t: float, cause: Cause) -> None:
+        """Time starts over at data time ``t``: a seek back (``"seek"``), a source clock that went back
+        (``"clock"``) or a publisher that restarted its numbering (``"publisher"``). The trail, the
+        session's clock and the alarm engine's timing (delays, stale, quality window, load figures)
+        start over; alarm states are kept. For a seek the pipeline's state of the source starts over
+        here too; for the other two the pipeline did so itself where it cut the batch."""
+        if cause == "seek":
+            self.pipeline.restart(self.name)
+        self.view.restart()
         self._last_t = None
-        hook = getattr(self.engine, "on_seek", None)
-        if callable(hook):
-            hook(float(frame.t[0]) if len(frame) else math.nan)
+        if self.engine is not None:
+            self.engine.on_seek(t)
 
     def _on_frame(self, frame: Frame) -> None:
         if self._first_t is None:
             self._first_t = float(frame.t[0])
         self._last_t = float(frame.t[-1])
         self._last_arrival = self._wall()
-        latest: dict[str, tuple[float, float | None]] = {}
-        for name, arr in frame.values.items():
-            s = frame.sigma.get(name)
-            sv = float(s[-1]) if s is not None and np.isfinite(s[-1]) else None
-            latest[name] = (float(arr[-1]), sv)
-        self._latest = latest
-        self._warnings = tuple(k for k, m in frame.warnings.items() if len(m) and bool(m[-1]))
-        self._trail.add(frame.t, frame.values)
-        self._fan("on_frame", frame)
+        self.bus.frames.publish(frame)
         if self.engine is not None:
             # gaps inside and before the frame are the engine's to judge (stale in data time)
             try:
@@ -286,12 +295,20 @@ class Session(SessionControls):
                 return
             self._dispatch(events)
 
+    def check_conditions(self) -> None:
+        """Conditions raised by parts of the tool, as the engine's alarms: the recorder's health as
+        ``recorder:write`` (checked after every step and at the end of the run)."""
+        if self.recorder is None or self.engine is None:
+            return
+        health = self.recorder.status()
+        at = self.now()
+        with self._lock:
+            self._dispatch(self.engine.set_condition(RECORDER_ALARM, not health.ok, at if at is not None else 0.0,
+                                                     health.message if not health.ok else "the disk accepts writes again"))
+
     def _dispatch(self, events: Iterable[AlarmEvent]) -> None:
         for ev in events:
-            self._alarm_events += 1
-            self._events_by_state[getattr(ev.state, "value", str(ev.state))] += 1
-            self.recent_events.append(ev)
-            self._fan("on_alarm", ev)
+            self.bus.alarms.publish(ev)
 
     def _source_status(self) -> SourceStatus:
         try:
@@ -306,7 +323,7 @@ class Session(SessionControls):
             changed = status.state is not prev.state or (
                 status.state is not LinkState.CONNECTED and status.message != prev.message)
             if changed or status.retries != prev.retries:
-                self._fan("on_status", status)
+                self.bus.statuses.publish(status)
 
     def _fail(self, message: str) -> None:
         with self._lock:
@@ -314,135 +331,139 @@ class Session(SessionControls):
             self._ended = True
             self._set_status(SourceStatus(self.name, LinkState.FAILED, message))
 
-    def _fan(self, method: str, arg: Any) -> None:
-        for sink in self.sinks:
-            self._call(sink, method, arg)
-
-    def _call(self, sink: Any, method: str, *args: Any) -> None:
-        fn = getattr(sink, method, None)
-        if fn is None:
-            return
-        try:
-            fn(*args)
-        except Exception as exc:  # noqa: BLE001 - a failing sink must not stop the session
-            self._sink_error(f"{type(sink).__name__}.{method}: {exc!r}")
-
     def _internal_error(self, text: str) -> None:
         self.internal_errors += 1
         if self.internal_errors == 1:
             print(f"regime: internal error (further ones only counted): {text}", file=sys.stderr)
 
-    def _sink_error(self, text: str) -> None:
-        self.sink_errors += 1
-        if self._sink_error_text is None:
-            print(f"regime: sink error (further ones only counted): {text}", file=sys.stderr)
-        self._sink_error_text = text
+    # -- operator commands --------------------------------------------------
+    def apply(self, command: Command) -> list[AlarmEvent] | bool:
+        """Apply one operator command: alarm commands go to the engine (their events are dated at
+        ``now()`` and published; an unknown alarm id raises monitor.operator.UnknownAlarm), replay
+        commands to a source that can be steered (False where it cannot)."""
+        if isinstance(command, (Seek, Pause, Resume, StepReplay, SetSpeed)):
+            return self._replay(command)
+        with self._lock:
+            at = self.now()
+            at = at if at is not None else 0.0
+            engine = self.engine
+            if engine is None:
+                events: list[AlarmEvent] = []
+            elif isinstance(command, Acknowledge):
+                events = engine.acknowledge(command.alarm, at=at)
+            elif isinstance(command, Shelve):
+                events = engine.shelve(command.alarm, command.seconds, at=at)
+            elif isinstance(command, Unshelve):
+                events = engine.unshelve(command.alarm, at=at)
+            elif isinstance(command, Reset):
+                events = engine.reset(command.alarm, at=at)
+            else:
+                assert isinstance(command, OutOfService)
+                events = engine.set_out_of_service(command.alarm, command.flag, at=at)
+            self._dispatch(events)
+            return events
 
-    def _new_trail(self) -> None:
-        opts = self.config.pipeline
-        self._trail = Trail(self.trail_names, opts.trail_seconds, opts.trail_points)
+    def _replay(self, command: Seek | Pause | Resume | StepReplay | SetSpeed) -> bool:
+        source = self.source
+        if not isinstance(source, ReplaySource):
+            return False
+        if isinstance(command, Seek):
+            # waits for a poll in progress, so that no batch read before the seek is processed after it
+            with self._poll_lock, self._lock:
+                if source.seek(command.t) != "forward":
+                    # a forward seek plays the skipped stretch through the pipeline and the engine
+                    # like any other data; a seek back starts time over
+                    self.restart(command.t, "seek")
+            return True
+        with self._lock:
+            if isinstance(command, Pause):
+                source.pause()
+            elif isinstance(command, Resume):
+                source.resume()
+            elif isinstance(command, StepReplay):
+                source.step()
+            else:
+                source.set_speed(command.speed)
+        return True
+
+    # the same commands as methods, for the screen's key bindings and for scripts
+    def acknowledge(self, alarm: str | None = None) -> list[AlarmEvent]:
+        """Acknowledge one alarm, or every unacknowledged one with None."""
+        return self._events(self.apply(Acknowledge(alarm)))
+
+    def shelve(self, alarm: str, seconds: float | None = None) -> list[AlarmEvent]:
+        """Shelve for ``seconds`` (None: one-shot, until it returns to normal)."""
+        return self._events(self.apply(Shelve(alarm, seconds)))
+
+    def unshelve(self, alarm: str) -> list[AlarmEvent]:
+        return self._events(self.apply(Unshelve(alarm)))
+
+    def reset(self, alarm: str) -> list[AlarmEvent]:
+        return self._events(self.apply(Reset(alarm)))
+
+    def set_out_of_service(self, alarm: str, flag: bool) -> list[AlarmEvent]:
+        return self._events(self.apply(OutOfService(alarm, flag)))
+
+    @staticmethod
+    def _events(result: list[AlarmEvent] | bool) -> list[AlarmEvent]:
+        return result if isinstance(result, list) else []
+
+    @property
+    def can_replay(self) -> bool:
+        return isinstance(self.source, ReplaySource)
+
+    def pause(self) -> bool:
+        return bool(self.apply(Pause()))
+
+    def resume(self) -> bool:
+        return bool(self.apply(Resume()))
+
+    def step_replay(self) -> bool:
+        return bool(self.apply(StepReplay()))
+
+    def set_speed(self, speed: float | None) -> bool:
+        return bool(self.apply(SetSpeed(speed)))
+
+    def seek(self, t: float) -> bool:
+        """Seek the replay to data time ``t`` (forward: played through; back: time starts over)."""
+        return bool(self.apply(Seek(t)))
+
+    def replay_position(self) -> ReplayPosition | None:
+        source = self.source
+        if not isinstance(source, ReplaySource):
+            return None
+        pos = source.position()
+        if pos is None or isinstance(pos, ReplayPosition):
+            return pos
+        time_, start, end, speed, paused = pos
+        return ReplayPosition(float(time_), float(start), None if end is None else float(end),
+                              None if speed is None else float(speed), bool(paused))
 
     # -- views --------------------------------------------------------------
+    def _facts(self) -> RunFacts:
+        return RunFacts(name=self.name, status=self._status, live=self.live, data_time=self._last_t,
+                        first_time=self._first_t, wall_time=self._wall(), started=self._started,
+                        failure=self.failure, sink_errors=self.bus.errors, internal_errors=self.internal_errors,
+                        replay=self.replay_position(),
+                        recorder=self.recorder.status() if self.recorder is not None else None)
+
     def snapshot(self) -> Snapshot:
         """A consistent read-only picture, safe to call from another thread."""
         with self._lock:
-            trail_t, trail = self._trail.arrays()
-            counts = self.pipeline.counts()
-            latest = dict(self._latest)
-            flood, rate10, chatter = False, 0, ()
-            alarms: tuple = ()
-            if self.engine is not None:
-                alarms = tuple(self.engine.views())
-                rate10, flood, chatter = self.engine.load()
-            alarms += self._external_views()
-            if self.engine is not None:
-                discharge_on = bool(self.engine.discharge_on)
-            else:
-                ne = latest.get("ne", (math.nan, None))[0]
-                discharge_on = bool(ne >= self.config.on_above)
-            return Snapshot(
-                data_time=self._last_t, wall_time=self._wall(), latest=latest,
-                stats=self.pipeline.stats(self.name) or self.pipeline.stats(),
-                trail_t=trail_t, trail=trail, warnings=self._warnings,
-                sources={self.name: self._status}, counts=counts, alarms=alarms,
-                discharge_on=discharge_on, live=self.live, replay=self.replay_position(),
-                recording=self._recording(), recorder=self._recorder_status(),
-                flood=bool(flood), alarm_rate_10min=int(rate10),
-                chattering=tuple(chatter),
-            )
+            return self.view.snapshot(self._facts(), self.pipeline, self.engine)
 
-    def _external_views(self) -> tuple[AlarmView, ...]:
-        """The alarms raised outside the engine that are not normal, as the alarm list shows them."""
-        return tuple(AlarmView(alarm=e.alarm, state=e.state, priority=e.priority, kind=e.kind,
-                               quantity=e.quantity, value=e.value, limit=e.limit, since=e.time,
-                               description=e.message)
-                     for e in self._external.values() if e.state is not AlarmState.NORMAL)
-
-    def _recorder_status(self) -> Any:
-        """The RecorderStatus of the sink that records (the one with a ``recording`` attribute), or None."""
-        for sink in self.sinks:
-            if hasattr(sink, "recording") and callable(getattr(sink, "status", None)):
-                try:
-                    return sink.status()
-                except Exception:  # noqa: BLE001 - a broken status is not shown, never raised
-                    return None
-        return None
-
-    def _recording(self) -> str | None:
-        for sink in self.sinks:
-            rec = getattr(sink, "recording", None)
-            if callable(rec):
-                try:
-                    rec = rec()
-                except Exception:  # noqa: BLE001
-                    rec = None
-            if isinstance(rec, str) and rec:
-                return rec
-        return None
+    def summary(self) -> dict[str, Any]:
+        """The summary contract: accepted, rejected {reason: n}, lost, and more."""
+        with self._lock:
+            return self.view.summary(self._facts(), self.pipeline, self.engine)
 
     def status(self) -> SourceStatus:
         with self._lock:
             return self._status
 
-    def summary(self) -> dict[str, Any]:
-        """The summary contract: accepted, rejected {reason: n}, lost, and more."""
-        with self._lock:
-            counts = self.pipeline.counts()
-            rejected: collections.Counter = collections.Counter()
-            unknown: collections.Counter = collections.Counter()
-            for c in counts.values():
-                rejected.update(c.rejected)
-                unknown.update(c.unknown_keys)
-            active = []
-            if self.engine is not None:
-                active = [v.alarm for v in self.engine.views()
-                          if getattr(v.state, "value", v.state) in _ATTENTION]
-            active += [v.alarm for v in self._external_views() if v.state.value in _ATTENTION]
-            return {
-                "type": "summary",
-                "source": self.name,
-                "accepted": sum(c.accepted for c in counts.values()),
-                "rejected": dict(sorted(rejected.items())),
-                "rejected_total": int(sum(rejected.values())),
-                "lost": sum(c.lost for c in counts.values()),
-                "unknown_keys": dict(sorted(unknown.items())),
-                "restarts": sum(self.pipeline.restarts().values()),
-                "data_time_first": self._first_t,
-                "data_time_last": self._last_t,
-                "wall_seconds": round(self._wall() - self._started, 3),
-                "state": self._status.state.value,
-                "message": self._status.message,
-                "failure": self.failure,
-                "alarm_events": self._alarm_events,
-                "alarm_events_by_state": dict(sorted(self._events_by_state.items())),
-                "alarms_active": active,
-                "sink_errors": self.sink_errors,
-                "internal_errors": self.internal_errors,
-            }
-
     def latest(self) -> Mapping[str, tuple[float, float | None]]:
         with self._lock:
-            return dict(self._latest)
+            return dict(self.view.latest)
 
     def rejections(self) -> list[Rejection]:
         """The most recent rejections kept in memory (all of them went to the sinks)."""

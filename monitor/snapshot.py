@@ -85,3 +85,4 @@ class Snapshot:
     alarm_rate_10min: int = 0
     chattering: tuple[str, ...] = ()
     recorder: Any = None                               # the recorder's RecorderStatus, when the run records
+    discharge_known: bool = True                       # False: no density judged yet (discharge_on is a guess)

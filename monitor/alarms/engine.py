@@ -4,20 +4,22 @@ from __future__ import annotations
 
 import threading
 import time as _time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Iterable, Mapping
 
 import numpy as np
 
 from monitor.alarms.detect import RunState, toggles
+from monitor.alarms.discharge import DischargeDetector
 from monitor.alarms.envelope import AlarmOptions, LimitSpec
-from monitor.alarms.events import AlarmEvent, AlarmState
+from monitor.alarms.events import AlarmEvent, AlarmState, Priority
 from monitor.alarms.load import LoadTracker
 from monitor.alarms.predictive import SlopePredictor
 from monitor.alarms.quality import QualityWindow
 from monitor.alarms.states import AlarmCore
 from monitor.errors import UsageError
 from monitor.model import Frame
+from monitor.operator import UnknownAlarm
 from monitor.snapshot import AlarmView, Stats
 
 __all__ = ["AlarmEngine"]
@@ -48,7 +50,8 @@ _BLOCK = 32768     # samples evaluated at a time
 def _slice(frame: Frame, a: int, b: int) -> Frame:
     return Frame(source=frame.source, t=frame.t[a:b], values={k: v[a:b] for k, v in frame.values.items()},
                  sigma={k: v[a:b] for k, v in frame.sigma.items()},
-                 valid=None if frame.valid is None else frame.valid[a:b])
+                 valid=None if frame.valid is None else frame.valid[a:b],
+                 discharge=None if frame.discharge is None else frame.discharge[a:b])
 
 
 def _first(x: float) -> float | None:
@@ -68,7 +71,8 @@ class AlarmEngine:
         self.clock = clock
         self._lock = threading.RLock()
         self._on: bool | None = None
-        self._discharge_run = RunState()
+        # judges frames built without a pipeline (by hand); the pipeline's frames carry its answer
+        self._detector = DischargeDetector(on_above, self.options.discharge_deadband, self.options.discharge_delay)
         self._order: dict[str, int] = {}
         self._cores: dict[str, AlarmCore] = {}
         self._limits: list[_Limit] = []
@@ -129,27 +133,12 @@ class AlarmEngine:
     def discharge_on(self) -> bool:
         return bool(self._on)
 
-    def _discharge(self, frame: Frame, t: np.ndarray) -> np.ndarray | None:
-        """Per-sample discharge-on flags; None: no density in this frame, the state holds.
-
-        On at ne >= on_above; off below on_above * (1 - discharge_deadband); either change only
-        after it has held for discharge_delay. A NaN density neither continues nor breaks a run."""
-        if self.on_above is None:
-            return np.ones(len(t), dtype=bool)
-        ne = frame.values.get("ne")
-        if ne is None:
-            return None
-        fin = np.isfinite(ne)
-        idx = None if fin.all() else np.flatnonzero(fin)
-        tt, nn = (t, ne) if idx is None else (t[idx], ne[idx])
-        on = np.full(len(t), bool(self._on))
-        if len(tt) == 0:
-            return on
-        off_below = self.on_above * (1.0 - self.options.discharge_deadband)
-        delay = self.options.discharge_delay
-        for i, flag in toggles(tt, nn >= self.on_above, lambda: nn < off_below, delay, delay, self._discharge_run):
-            on[(i if idx is None else int(idx[i])):] = flag
-        return on
+    def _discharge(self, frame: Frame, t: np.ndarray) -> np.ndarray:
+        """Per-sample discharge-on flags: the pipeline's answer carried by the frame (the one rule,
+        monitor.alarms.discharge); a frame built by hand is judged by the same rule here."""
+        if frame.discharge is not None:
+            return np.asarray(frame.discharge, dtype=bool)
+        return self._detector.step(t, frame.values.get("ne"))
 
     def process(self, frame: Frame, stats: Mapping[str, Stats] | None = None) -> list[AlarmEvent]:
         """Evaluate one frame; returns its events in data-time order.
@@ -326,6 +315,26 @@ class AlarmEngine:
             events += core.set_active(up, ti, float(vs[i]), side)
         return events
 
+    def set_condition(self, alarm: str, active: bool, at: float, message: str, *,
+                      priority: Priority = Priority.HIGH, kind: str = "quality") -> list[AlarmEvent]:
+        """A condition raised by a part of the tool (e.g. ``recorder:write``, the recorder's health):
+        an alarm of this engine like any other, with acknowledgement, shelving and re-alarm timing
+        from the same state machine. The first call makes it (normal until active); ``message``
+        says why, and is the event's message."""
+        with self._lock:
+            core = self._cores.get(alarm)
+            if core is None:
+                if not active:
+                    return []
+                o = self.options
+                core = self._add(AlarmCore(alarm, kind, None, priority, self.clock, message, max_shelve=o.max_shelve))
+            if core.active == active:
+                return []
+            core.description = message
+            events = [replace(e, message=e.message or message) for e in core.set_active(active, at, None, None)]
+            self._load.record(events)
+            return events
+
     def tick(self, now: float, source: str) -> list[AlarmEvent]:
         """Stale check for ``source`` at data time ``now``; the alarm is dated when the data stopped + stale_after."""
         with self._lock:
@@ -341,7 +350,7 @@ class AlarmEngine:
         """A replay jumped to ``t`` (time may go back): timing carries, windows and the load figures
         start over; alarm states are kept (the next samples move them as usual)."""
         with self._lock:
-            self._discharge_run.run_start = None
+            self._detector.restart()
             for lim in self._limits:
                 lim.det.run_start = None
                 if lim.predictor is not None:
@@ -360,7 +369,7 @@ class AlarmEngine:
         try:
             return self._cores[alarm]
         except KeyError:
-            raise UsageError(f"unknown alarm {alarm!r}; known: {', '.join(self._cores)}") from None
+            raise UnknownAlarm(f"unknown alarm {alarm!r}; known: {', '.join(self._cores)}") from None
 
     def acknowledge(self, alarm: str | None, at: float) -> list[AlarmEvent]:
         """Acknowledge one alarm, or every alarm waiting for it (None)."""

@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import argparse
-import importlib.util
 import math
 import sys
-import threading
 import time
 from typing import Any
 
-from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
+from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags
+from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE
 
 __all__ = ["register", "run"]
 
@@ -28,15 +27,10 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--to", dest="stop", metavar="T", help="stop after T s from the first reading; @T as --from")
     parser.add_argument("--map", metavar="F", help="TOML file with a [channels] table for foreign columns, "
                                                    "e.g. time_ms = {quantity = \"t\", unit = \"ms\"}")
-    parser.add_argument("--headless", action="store_true", help="no screen: status lines on stdout")
-    parser.add_argument("--json", action="store_true", help="with --headless: one JSON object per line")
+    add_view_flags(parser)
     parser.add_argument("--record", metavar="DIR", help="record the replay again into DIR")
-    parser.add_argument("--journal", metavar="F", help="append every alarm transition and operator action to F, one JSON line each "
-                             "(the alarm objects of --json); an existing journal keeps its lines" +
-                             " (a recording's own [alarms] journal is not used)")
-    parser.add_argument("--alarm-pub", metavar="ENDPOINT", help="publish alarm events on ZeroMQ (PUB) at ENDPOINT "
-                        "(loopback or ipc:// unless --allow-remote)")
-    parser.add_argument("--allow-remote", action="store_true", help="let --alarm-pub bind a non-loopback address")
+    add_output_flags(parser, journal_note=" (a recording's own [alarms] journal is not used)",
+                     remote="let --alarm-pub bind a non-loopback address")
     parser.add_argument("--on-damage", choices=("stop", "skip"), default="stop",
                         help="at an unreadable line: stop there (default) or reject it and go on")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
@@ -67,12 +61,11 @@ class _Progress:
 
 def run(args: argparse.Namespace) -> int:
     from adapters.base import FatalSourceError
-    from monitor.headless import HeadlessPrinter, failed_run, final_summary
+    from monitor.outputs import build_outputs
+    from monitor.recipe import RunPlan, execute
     from monitor.recording.replaying import open_file, parse_speed, parse_window_time, window_text
-    from monitor.session import Session, make_engine
 
-    if args.json and not args.headless:
-        raise UsageError("--json needs --headless")
+    check_view_flags(args)
     speed = parse_speed(args.speed) if args.speed is not None else (None if args.headless else 1.0)
     start = None if args.start is None else parse_window_time(args.start, "--from")
     stop = None if args.stop is None else parse_window_time(args.stop, "--to")
@@ -83,45 +76,28 @@ def run(args: argparse.Namespace) -> int:
         print(f"regime replay: {exc}", file=sys.stderr)
         return EXIT_SOURCE
     config, source = opened.config, opened.source
-    engine = make_engine(config)
-    from monitor.outputs import build_outputs
-
     outputs = build_outputs(config, source_name=source.name, record=args.record, config_directory=False,
                             journal=args.journal, alarm_pub=args.alarm_pub, allow_remote=args.allow_remote)
-    session = Session(source, config, outputs.sinks, engine=engine, live=False)
     window = window_text(start, stop)
-    if not args.headless:
-        return _screen(session, args, window, outputs)
-    printer = HeadlessPrinter(sys.stdout, as_json=args.json)
-    session.add_sink(printer)
-    outputs.bind(session)              # after the printer: the recorder's early events reach it
-    progress = _Progress(not args.quiet)
-    stop = threading.Event()
-    from monitor.commands.watch import _install_signals, _restore_signals
 
-    previous = _install_signals(stop)
-
-    def every_second(s: Any) -> None:
-        printer.status(s.snapshot())
-        progress(s)
-
-    try:
-        session.open()
-        session.run(None, stop, on_interval=every_second, interval=1.0)
-    finally:
-        _restore_signals(previous)
-        session.close()
-        summary, final = final_summary(session, outputs.recorder)
+    def annotate(summary: dict[str, Any]) -> None:
         summary["file"] = str(args.file)
         summary["config"] = opened.config_origin
         # {"line", "reason", "mode"}; skip mode adds "skipped" and "lines" (the first "lines_cap")
         summary["damage"] = source.damage_summary()
-        printer.status(session.snapshot())
-        printer.summary(summary)
-    if source.damage is not None:
-        print(f"regime replay: {args.file}: {source.end_message()}", file=sys.stderr)
-    code = failed_run(session, final, "regime replay")
-    return _empty_window(source, args, window) if code is None else code
+        if source.damage is not None:
+            print(f"regime replay: {args.file}: {source.end_message()}", file=sys.stderr)
+
+    screen = None
+    if not args.headless:
+        from monitor.tui.launch import settings_for
+        # device guides and envelope box from the config, as `regime watch` does
+        screen = settings_for(config, title=f"regime replay {source.name}")
+    return execute(RunPlan("regime replay", source, config, outputs, live=False, headless=args.headless,
+                           json=args.json, screen=screen, open_first=True,
+                           on_interval=_Progress(args.headless and not args.quiet),
+                           annotate=annotate if args.headless else None,
+                           finish=lambda: _empty_window(source, args, window)))
 
 
 def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
@@ -138,24 +114,3 @@ def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:
     print(f"regime replay: {args.file}: {window} selects no readings: {why}; --from/--to are seconds from "
           f"the file's first reading, @T an absolute data time", file=sys.stderr)
     return EXIT_USAGE
-
-
-def _screen(session: Any, args: argparse.Namespace, window: str, outputs: Any) -> int:
-    try:
-        found = importlib.util.find_spec("monitor.tui.app") is not None
-    except ModuleNotFoundError:
-        found = False
-    if not found:
-        print("regime replay: the screen is not available in this build; use --headless", file=sys.stderr)
-        return EXIT_USAGE
-    try:
-        from monitor.commands.watch import run_screen
-        from monitor.tui.launch import settings_for
-    except ImportError as exc:
-        print(f"regime replay: the screen cannot start ({exc}); use --headless", file=sys.stderr)
-        return EXIT_USAGE
-    session.open()
-    # device guides and envelope box from the config, as `regime watch` does
-    code = run_screen(session, outputs, settings_for(session.config, title=f"regime replay {session.name}"),
-                      "regime replay")
-    return _empty_window(session.source, args, window) if code is None else code

@@ -3,77 +3,55 @@
 from __future__ import annotations
 
 import collections
-import json
 import math
-import re
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Iterable, Mapping
+from typing import Callable, Iterable, Literal, Mapping
 
 import numpy as np
 
 from adapters.batch import Batch, Rejection
-from adapters.framing import DTYPES, MAX_FRAME, SEQ_MAX
+from monitor.alarms.discharge import DischargeDetector
+from monitor.alarms.envelope import AlarmOptions
 from monitor.config import Config
 from monitor.model import Frame
 from monitor.pipeline.align import Aligner
+from monitor.pipeline.ledger import Ledger, Tally
 from monitor.pipeline.rolling import Rolling
 from monitor.pipeline.validate import (SeqTimeState, Verdict, find_clock_restart, find_restart,
                                        validate)
 from monitor.snapshot import SourceCounts, Stats
 
-__all__ = ["Pipeline"]
+__all__ = ["Pipeline", "Part", "Processed", "Restart"]
 
-_RATE_SPAN = 2.0      # s of data time over which the reading rate is measured
-_RATE_BUCKET = 0.1
+# why time started over at the beginning of a part: the source's clock went back, or its
+# publisher restarted its numbering (a seek back is the session's, see Session.restart)
+Restart = Literal["clock", "publisher"]
+
+
+@dataclass(frozen=True)
+class Part:
+    """One frame of a processed batch; ``restart`` says why time starts over at its first sample."""
+
+    frame: Frame
+    restart: Restart | None = None
+
+
+@dataclass(frozen=True)
+class Processed:
+    """What one batch became: its frames in order and the readings the pipeline refused."""
+
+    parts: tuple[Part, ...]
+    rejections: tuple[Rejection, ...] = ()
+
+    def frame(self) -> Frame:
+        """The parts joined into one frame (for callers that do not keep time restarts apart)."""
+        frame = self.parts[0].frame
+        for more in self.parts[1:]:
+            frame = _concat(frame, more.frame)
+        return frame
+
 _AUXILIARY = frozenset({"Ti", "B", "p0"})
-_KEEP_REFUSED = 100_000     # seq spans of refused lines and frames remembered until their gap is seen
-# the most readings a binary batch within the default frame limit can hold (one field of 4-byte values)
-_MOST_IN_FRAME = MAX_FRAME // min(np.dtype(d).itemsize for d in DTYPES)
-_SEQ_IN_RAW = re.compile(rb'(?:\bseq\s*=\s*|"seq"\s*:\s*)(\d{1,18})\b')
-
-
-@dataclass
-class _Counts:
-    accepted: int = 0
-    rejected: collections.Counter = field(default_factory=collections.Counter)
-    lost: int = 0
-    unknown: collections.Counter = field(default_factory=collections.Counter)
-    restarts: int = 0
-    last_data_time: float | None = None
-    last_wall_time: float | None = None
-    rate_buckets: dict[int, int] = field(default_factory=dict)
-    first_time: float | None = None
-    # [first, past-the-last) seq numbers of readings an adapter refused
-    refused_seqs: collections.deque = field(default_factory=lambda: collections.deque(maxlen=_KEEP_REFUSED))
-
-    def add_rate(self, t: np.ndarray) -> None:
-        if len(t) == 0:
-            return
-        first, newest = int(t[0] // _RATE_BUCKET), int(t[-1] // _RATE_BUCKET)
-        if first == newest:                      # the usual small batch: one bucket
-            self.rate_buckets[newest] = self.rate_buckets.get(newest, 0) + len(t)
-        else:
-            b = np.floor(t / _RATE_BUCKET).astype(np.int64)
-            starts = np.concatenate(([0], np.flatnonzero(np.diff(b)) + 1))
-            counts = np.diff(np.concatenate((starts, [len(b)])))
-            for key, c in zip(b[starts][-64:].tolist(), counts[-64:].tolist()):
-                self.rate_buckets[key] = self.rate_buckets.get(key, 0) + c
-        for key in [k for k in self.rate_buckets if k <= newest - _RATE_SPAN / _RATE_BUCKET]:
-            del self.rate_buckets[key]
-
-    def rate(self) -> float:
-        if not self.rate_buckets or self.last_data_time is None or self.first_time is None:
-            return 0.0
-        span = min(_RATE_SPAN, self.last_data_time - self.first_time)
-        if span <= 0:
-            return 0.0
-        return sum(self.rate_buckets.values()) / max(span, _RATE_BUCKET)
-
-    def freeze(self) -> SourceCounts:
-        return SourceCounts(accepted=self.accepted, rejected=dict(self.rejected), lost=self.lost,
-                            unknown_keys=dict(self.unknown), rate=self.rate(),
-                            last_data_time=self.last_data_time, last_wall_time=self.last_wall_time)
 
 
 def _default_derive() -> Callable:
@@ -88,10 +66,10 @@ class Pipeline:
     channels that arrived with it; channels that arrive as separate samples
     are separate readings (NaN in the channels they do not carry). Accepted
     counts the readings that passed validation; every other reading is
-    counted by reason and kept as a Rejection for the sinks.
+    counted by reason in the ledger and returned as a Rejection for the sinks.
     """
 
-    def __init__(self, config: Config | None = None, *, derive: Callable | None = None,
+    def __init__(self, config: Config | None = None, *, derive: Callable[..., object] | None = None,
                  wall: Callable[[], float] = time.time, clock_restart: float | None = None) -> None:
         self.config = config if config is not None else Config()
         opts = self.config.pipeline
@@ -100,66 +78,38 @@ class Pipeline:
         self._clock_restart = opts.clock_restart if clock_restart is None else clock_restart   # [pipeline]
         self._aligner = Aligner(self.config.max_age, dict(self.config.max_age_by_key))
         self._seq: dict[str, SeqTimeState] = {}
-        self._counts: dict[str, _Counts] = {}
+        self.ledger = Ledger()
         self._rolling: dict[str, Rolling] = {}
         self._window, self._bins = opts.window, opts.bins
         self._last_source: str | None = None
-        self._pending: list[Rejection] = []
+        alarms = self.config.alarms if isinstance(self.config.alarms, AlarmOptions) else AlarmOptions()
+        self.discharge = DischargeDetector(self.config.on_above, alarms.discharge_deadband, alarms.discharge_delay)
         self.rejected_samples: collections.deque[Rejection] = collections.deque(maxlen=opts.keep_rejected)
 
     # -- counting -----------------------------------------------------------
-    def _c(self, source: str) -> _Counts:
-        c = self._counts.get(source)
-        if c is None:
-            c = self._counts[source] = _Counts()
-        return c
-
     def reject(self, rejections: Iterable[Rejection]) -> None:
-        """Count and keep rejections an adapter made (malformed lines, bad frames, ...).
-
-        Each counts as the readings it stands for (``_refused_span``): a line or
-        frame as one, a binary batch whose header still reads as its ``n``.
-        The seq numbers it still shows (in its raw text, else ``seq=N`` in its
-        detail) are remembered, so that the gap it leaves is not counted once
-        more as lost."""
-        for r in rejections:
-            c = self._c(r.source)
-            n, span = _refused_span(r.raw)
-            if r.reason == "size_mismatch" and n > 1:
-                n, span = _held_by_payload(n, span, r.detail)
-            if span is None and n == 1 and r.detail:
-                span = _seq_shown(r.detail.encode("utf-8", "replace"))   # e.g. a CSV line: "... (seq=N)"
-            c.rejected[r.reason] += n
-            self.rejected_samples.append(r)
-            if span is not None:
-                c.refused_seqs.append(span)
+        """Count and keep rejections an adapter made (malformed lines, bad frames, ...): each as the
+        ``count`` readings it stands for, its seq numbers remembered so that the gap it leaves is not
+        counted once more as lost (``monitor.pipeline.ledger``)."""
+        rejections = list(rejections)
+        self.ledger.refused(rejections)
+        self.rejected_samples.extend(rejections)
 
     def refuse_batch(self, batch: Batch, reason: str, detail: str = "") -> list[Rejection]:
-        """Count and keep every reading of ``batch`` as refused (used when processing it failed);
-        rejections already made for it and not yet drained are taken back, so none counts twice."""
-        counts = self._c(batch.source)
-        for r in self.drain_rejections():
-            counts.rejected[r.reason] -= 1
-            if counts.rejected[r.reason] <= 0:
-                del counts.rejected[r.reason]
+        """Count and keep every reading of ``batch`` as refused (processing it failed; nothing of it
+        had been counted, see ``process_batch``)."""
         wall = self._wall()
         cols = list(batch.columns.items())
-        out = [Rejection(source=batch.source, reason=reason, raw=_row_line(batch, cols, i), received=wall,
-                         detail=detail) for i in range(len(batch))]
-        self._c(batch.source).rejected[reason] += len(out)
+        out = [_row_rejection(batch, cols, i, reason, wall, detail) for i in range(len(batch))]
+        self.ledger.of(batch.source).rejected[reason] += len(out)
         self.rejected_samples.extend(out)
         return out
 
-    def drain_rejections(self) -> list[Rejection]:
-        """Rejections the pipeline itself made since the last call (for the sinks)."""
-        out, self._pending = self._pending, []
-        return out
-
     def counts(self) -> dict[str, SourceCounts]:
-        return {name: c.freeze() for name, c in self._counts.items()}
+        return self.ledger.counts()
 
     def restarts(self) -> dict[str, int]:
-        return {name: c.restarts for name, c in self._counts.items()}
+        return self.ledger.restarts()
 
     def stats(self, source: str | None = None) -> dict[str, Stats]:
         """Rolling statistics of the given source (default: the last one processed)."""
@@ -170,31 +120,43 @@ class Pipeline:
     def rolling(self, source: str) -> Rolling | None:
         return self._rolling.get(source)
 
-    def reset(self, source: str) -> None:
-        """Forget the source's time, seq, held values and rolling window (after a seek);
-        its counts stay."""
-        self._seq.pop(source, None)
+    def restart(self, source: str, *, keep_seq: bool = False) -> None:
+        """Time starts over for ``source`` (a seek back, a restarted clock or publisher): its time and
+        seq reference (the seq kept with ``keep_seq``: a seq that runs on through a restarted clock
+        still shows gaps), held values, rolling window and the discharge rule's pending delay are
+        forgotten; its counts stay."""
+        state = self._seq.pop(source, None)
+        if keep_seq and state is not None:
+            self._seq[source] = SeqTimeState(last_seq=state.last_seq)
         self._aligner.reset(source)
         self._rolling.pop(source, None)
+        self.discharge.restart()
 
     # -- processing ---------------------------------------------------------
     def process(self, batch: Batch) -> Frame:
         """Map, validate, align, derive and add to the rolling statistics: one frame (a batch cut by a
-        restart gives its parts joined; the Session uses ``process_parts`` to keep them apart)."""
-        parts = self.process_parts(batch)
-        frame = parts[0][0]
-        for more, _new_clock in parts[1:]:
-            frame = _concat(frame, more)
-        return frame
+        restart gives its parts joined; the Session keeps them apart with ``process_batch``)."""
+        return self.process_batch(batch).frame()
 
-    def process_parts(self, batch: Batch) -> list[tuple[Frame, bool]]:
+    def process_batch(self, batch: Batch) -> Processed:
         """As ``process``, but a batch cut by a restarted publisher or clock gives one frame per part,
-        in order, each with True where its part begins a restarted clock (time went back: whoever keeps
-        time from the frames, the alarm engine's timers and stale check, must start over there)."""
+        in order, each marked where its part begins a restart (whoever keeps time from the frames, the
+        alarm engine's timers and stale check, must start over there), with the readings refused.
+        The ledger hears of the batch only once it is done."""
+        tally = Tally()
+        parts: list[Part] = []
+        refused: list[Rejection] = []
+        self._process(batch, tally, parts, refused, None)
+        led = self.ledger.of(batch.source)
+        led.last_wall_time = self._wall()
+        led.commit(tally)
+        self.rejected_samples.extend(refused)
+        return Processed(tuple(parts), tuple(refused))
+
+    def _process(self, batch: Batch, tally: Tally, parts: list[Part], refused: list[Rejection],
+                 restart: Restart | None) -> None:
         source = batch.source
         self._last_source = source
-        counts = self._c(source)
-        counts.last_wall_time = self._wall()
         state = self._seq.setdefault(source, SeqTimeState())
         seq = None if batch.seq is None else np.asarray(batch.seq, dtype=np.int64)
         mapped = self.config.channels.apply(batch)
@@ -206,38 +168,31 @@ class Pipeline:
         if k is not None:
             # a restarted publisher or clock: finish the old stream, then start over (a seq
             # that goes on through a restarted clock keeps its reference, so gaps still count)
-            head = self.process_parts(_slice(batch, 0, k)) if k > 0 else []
-            counts.restarts += 1
-            self._seq[source] = SeqTimeState(last_seq=state.last_seq if keep_seq else None)
-            self._aligner.reset(source)
-            self._rolling.pop(source, None)
-            tail = self.process_parts(_slice(batch, k, len(batch)))
-            if keep_seq:                   # the clock restarted here (not only the seq)
-                tail[0] = (tail[0][0], True)
-            return head + tail
-        for key, n in mapped.unknown.items():
-            counts.unknown[key] += n
+            if k > 0:
+                self._process(_slice(batch, 0, k), tally, parts, refused, restart)
+            tally.restarts += 1
+            self.restart(source, keep_seq=keep_seq)
+            self._process(_slice(batch, k, len(batch)), tally, parts, refused,
+                          "clock" if keep_seq else "publisher")
+            return
+        tally.unknown.update(mapped.unknown)
         verdict = validate(mapped.t, mapped.values, seq, state)
-        counts.lost += verdict.lost - _refused_in_gaps(counts, verdict, state.last_seq)
+        led = self.ledger.of(source)
+        tally.lost += verdict.lost - led.refused_in_gaps(verdict.gap_lo, verdict.gap_hi, state.last_seq)
         ok = verdict.accepted
         n_ok = int(ok.sum())
         if n_ok < len(ok):
-            for reason, n in verdict.counts().items():
-                counts.rejected[reason] += n
-            self._keep_rejections(batch, mapped.t, verdict)
+            tally.rejected.update(verdict.counts())
+            refused.extend(self._rejections(batch, mapped.t, verdict))
         t = mapped.t[ok] if n_ok < len(ok) else mapped.t
         raw = {key: (v[ok] if n_ok < len(ok) else v) for key, v in mapped.values.items()}
         raw_sigma = {key: (s[ok] if n_ok < len(ok) else s) for key, s in mapped.sigma.items()}
         frame_seq = None if seq is None else (seq[ok] if n_ok < len(ok) else seq)
         values, sigma = self._aligner.align(source, t, raw, raw_sigma)
-        frame = self._derive_frame(source, t, values, sigma, raw, frame_seq)
-        counts.accepted += n_ok          # counted once the frame exists (see Session: a fault refuses the batch)
+        parts.append(Part(self._derive_frame(source, t, values, sigma, raw, frame_seq), restart))
+        tally.accepted += n_ok
         if n_ok:
-            counts.last_data_time = float(t[-1])
-            if counts.first_time is None:
-                counts.first_time = float(t[0])
-            counts.add_rate(t)
-        return [(frame, False)]
+            tally.accepted_t.append(t)
 
     def _derive_frame(self, source: str, t: np.ndarray, values: dict[str, np.ndarray],
                       sigma: dict[str, np.ndarray], raw: Mapping[str, np.ndarray],
@@ -272,106 +227,20 @@ class Pipeline:
             stat_values = {k: v for k, v in raw.items()}
             stat_values.update({k: v for k, v in all_values.items() if k not in values})
             rolling.add(t, stat_values)
+        discharge = self.discharge.step(t, values.get("ne"))
         return Frame(source=source, t=t, values=all_values, sigma=all_sigma, valid=valid,
-                     warnings=warnings, seq=seq, raw=dict(raw))
+                     warnings=warnings, seq=seq, raw=dict(raw), discharge=discharge)
 
-    def _keep_rejections(self, batch: Batch, t: np.ndarray, verdict: Verdict) -> None:
+    def _rejections(self, batch: Batch, t: np.ndarray, verdict: Verdict) -> list[Rejection]:
         bad = np.flatnonzero(~verdict.accepted)
         wall = self._wall()
         cols = list(batch.columns.items())
+        out = []
         for i in bad.tolist():
             reason = verdict.reasons[int(verdict.code[i]) - 1]
-            rej = Rejection(source=batch.source, reason=reason, raw=_row_line(batch, cols, i), received=wall,
-                            detail=f"reading at t={float(t[i])!r}: {reason.replace('_', ' ')}")
-            self._pending.append(rej)
-            self.rejected_samples.append(rej)
-
-
-def _refused_span(raw: bytes) -> tuple[int, tuple[int, int] | None]:
-    """How many readings a refused input stands for, and the seq numbers [first, past-the-last) it shows.
-
-    A text line or a JSON frame is one reading, numbered by the ``seq`` its
-    text still shows. A binary batch whose JSON header still reads is its
-    ``n`` readings numbered on from its ``seq`` (none without one); when its
-    ``n`` cannot be trusted (not a count, or more than a frame holds) it counts
-    as one, standing for its first seq, and the gap its other readings leave
-    counts them as lost. Either way each seq number is counted once.
-    """
-    head = raw[:4096]
-    if b'"fields"' not in head:
-        return 1, _seq_shown(head)
-    try:
-        h, _ = json.JSONDecoder().raw_decode(raw.decode("utf-8", "replace").lstrip())
-    except (ValueError, RecursionError):
-        return 1, None
-    if not isinstance(h, dict) or not isinstance(h.get("fields"), list):
-        return 1, _seq_shown(head)                  # a JSON reading that names a key "fields"
-    n, seq = h.get("n"), h.get("seq")
-    seq = seq if type(seq) is int and 0 <= seq < SEQ_MAX else None
-    if type(n) is int and 0 < n <= _MOST_IN_FRAME and (seq is None or seq <= SEQ_MAX - n):
-        return n, (None if seq is None else (seq, seq + n))
-    if n == 0:
-        return 1, None                           # a refused frame that carried no reading
-    return 1, (None if seq is None else (seq, seq + 1))
-
-
-_PAYLOAD = re.compile(r"payload (\d+) B, header says \d+ x (\d+) x (\d+) B")
-
-
-def _held_by_payload(n: int, span: tuple[int, int] | None, detail: str) -> tuple[int, tuple[int, int] | None]:
-    """A binary batch refused for its size stands for at most the readings its payload could hold
-    (its header's ``n`` may be the very thing that is wrong); the rest, if any were sent, leave a
-    seq gap and count as lost there, so each reading counts once."""
-    m = _PAYLOAD.search(detail or "")
-    if m is None:
-        return n, span
-    per_reading = int(m.group(2)) * int(m.group(3))
-    # a payload cut inside a reading still held that reading: round up
-    held = max(1, min(n, -(-int(m.group(1)) // per_reading))) if per_reading else 1
-    return held, (None if span is None else (span[0], span[0] + held))
-
-
-def _seq_shown(text: bytes) -> tuple[int, int] | None:
-    m = _SEQ_IN_RAW.search(text)
-    return None if m is None else (int(m.group(1)), int(m.group(1)) + 1)
-
-
-def _refused_in_gaps(counts: _Counts, verdict: Verdict, last_seq: int | None) -> int:
-    """How many seq numbers in this batch's gaps belong to readings an adapter refused
-    (they were received, so they are rejected, not lost); forgets those and older ones."""
-    if not counts.refused_seqs:
-        return 0
-    found = 0
-    spans = np.array(counts.refused_seqs, dtype=np.int64).reshape(-1, 2)
-    if verdict.gap_lo is not None and len(verdict.gap_lo):
-        # a seq refused twice (a duplicate) still fills one gap position only: the union of the spans
-        a, b = _union(spans[:, 0], spans[:, 1])
-        # each gap holds the seq numbers gap_lo + 1 .. gap_hi - 1
-        found = int((_covered(a, b, verdict.gap_hi) - _covered(a, b, verdict.gap_lo + 1)).sum())
-    if last_seq is not None:
-        keep = spans[spans[:, 1] > last_seq + 1]
-        if len(keep) != len(spans):
-            counts.refused_seqs.clear()
-            counts.refused_seqs.extend(tuple(x) for x in keep.tolist())
-    return found
-
-
-def _union(lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The union of the spans [lo, hi) as sorted, disjoint spans."""
-    order = np.argsort(lo, kind="stable")
-    lo, hi = lo[order], hi[order]
-    new = np.ones(len(lo), dtype=bool)
-    new[1:] = lo[1:] > np.maximum.accumulate(hi)[:-1]
-    starts = np.flatnonzero(new)
-    return lo[starts], np.maximum.reduceat(hi, starts)
-
-
-def _covered(a: np.ndarray, b: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """For each x, how many integers below it lie in the sorted, disjoint spans [a, b)."""
-    before = np.concatenate(([0], np.cumsum(b - a)))
-    i = np.searchsorted(a, x, side="left")          # spans that start below x
-    j = np.maximum(i - 1, 0)
-    return np.where(i > 0, before[j] + np.minimum(x, b[j]) - a[j], 0)
+            out.append(_row_rejection(batch, cols, i, reason, wall,
+                                      f"reading at t={float(t[i])!r}: {reason.replace('_', ' ')}"))
+        return out
 
 
 def _fmt(x: float) -> str:
@@ -390,6 +259,13 @@ def _row_line(batch: Batch, cols: list[tuple[str, np.ndarray]], i: int) -> bytes
     return " ".join(parts).encode("utf-8")
 
 
+def _row_rejection(batch: Batch, cols: list[tuple[str, np.ndarray]], i: int, reason: str, wall: float,
+                   detail: str) -> Rejection:
+    seq = None if batch.seq is None else int(batch.seq[i])
+    return Rejection(source=batch.source, reason=reason, raw=_row_line(batch, cols, i), received=wall,
+                     detail=detail, count=1, seq_first=seq, seq_last=seq)
+
+
 def _slice(batch: Batch, a: int, b: int) -> Batch:
     return Batch(source=batch.source, t=batch.t[a:b], columns={k: v[a:b] for k, v in batch.columns.items()},
                  sigma={k: v[a:b] for k, v in batch.sigma.items()},
@@ -406,6 +282,7 @@ def _concat(a: Frame, b: Frame) -> Frame:
     seq = None if a.seq is None or b.seq is None else np.concatenate((a.seq, b.seq))
     valid = np.concatenate((a.valid if a.valid is not None else np.zeros(len(a), bool),
                             b.valid if b.valid is not None else np.zeros(len(b), bool)))
+    discharge = None if a.discharge is None or b.discharge is None else np.concatenate((a.discharge, b.discharge))
     return Frame(source=a.source, t=np.concatenate((a.t, b.t)), values=join(a.values, b.values),
                  sigma=join(a.sigma, b.sigma), valid=valid, warnings=join(a.warnings, b.warnings, bool),
-                 seq=seq, raw=join(a.raw, b.raw))
+                 seq=seq, raw=join(a.raw, b.raw), discharge=discharge)

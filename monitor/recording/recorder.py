@@ -18,7 +18,8 @@ import numpy as np
 
 from adapters.base import SourceStatus
 from adapters.batch import Rejection
-from monitor.alarms.events import AlarmEvent, AlarmState, Priority
+from monitor.alarms.envelope import AlarmOptions
+from monitor.alarms.events import AlarmEvent
 from monitor.model import Frame
 from monitor.recording.csvformat import BASE_ORDER, dump_toml, header_block
 from monitor.recording.files import LineFile, json_line, rejection_json
@@ -31,7 +32,6 @@ __all__ = ["Recorder", "RecorderStatus"]
 
 _MAX_BACKLOG = 64 << 20        # bytes kept in memory while the disk refuses writes
 _RETRY_EVERY = 1.0             # s between retries after a write error
-_WRITE_ALARM = "recorder:write"  # the recorder's own alarm id
 
 
 @dataclass(frozen=True)
@@ -66,19 +66,18 @@ class Recorder:
 
     def __init__(self, directory: str | os.PathLike[str], config: Any, *, source_name: str,
                  options: RecordingOptions | None = None, clock: Callable[[], float] = time.time,
-                 on_problem: Callable[[str], None] | None = None,
-                 emit: Callable[[AlarmEvent], None] | None = None) -> None:
+                 on_problem: Callable[[str], None] | None = None) -> None:
         self.directory = Path(directory)
         self.config = config
         self.source_name = source_name
         self.options = options or self._options_from(config)
         self._clock = clock
         self._on_problem = on_problem
-        self._emit = emit
-        self._data_time = 0.0
-        self.alarm_events: collections.deque[AlarmEvent] = collections.deque(maxlen=100)
         self.on_above = float(getattr(config, "on_above", 1e15) or 1e15)
-        self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split)
+        alarms = getattr(config, "alarms", None)
+        alarms = alarms if isinstance(alarms, AlarmOptions) else AlarmOptions()
+        self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split,
+                                      deadband=alarms.discharge_deadband, delay=alarms.discharge_delay)
         self._journal_factory = journal_factory()
         self._lock = threading.RLock()
         self._stream: Stream | None = None
@@ -96,17 +95,11 @@ class Recorder:
         self._dropped = 0
         self._errors = 0
         self._error: str | None = None
-        self._alarm_state = AlarmState.NORMAL    # of recorder:write (ISA-18.2), acknowledged via on_alarm
         self._next_retry = 0.0
         self._closed = False
         self._session: tuple[Any, Any] | None = None
         self._session_stamp = utc_stamp(clock())
-        # own alarm events wait here and are handed to ``emit`` only once the lock is released:
-        # the session calls this sink under its own lock, so emitting under ours could deadlock
-        self._outbox: collections.deque[AlarmEvent] = collections.deque()
-        self._emit_lock = threading.Lock()
         self._open_session_files()
-        self._deliver()
         self._stop = threading.Event()
         self._flusher = threading.Thread(target=self._flush_loop, name="recorder-flush", daemon=True)
         self._flusher.start()
@@ -158,7 +151,6 @@ class Recorder:
         n = len(frame.t)
         if n == 0 or self._closed:
             return
-        self._data_time = float(frame.t[-1])
         # the values as read (before the alignment hold), so that a replay aligns as this run did;
         # frames built without ``raw`` (by hand, in tests) record their values as they are
         source = frame.raw if frame.raw else frame.values
@@ -169,9 +161,8 @@ class Recorder:
                 s = frame.sigma.get(k)
                 if s is not None:
                     sigma[k] = np.where(np.isfinite(v), np.asarray(s, dtype=np.float64), np.nan)
-        aligned_ne = frame.values.get("ne")
         with self._lock:
-            for action in self._splitter.feed(np.asarray(frame.t), aligned_ne):
+            for action in self._splitter.feed(np.asarray(frame.t), frame.discharge, frame.values.get("ne")):
                 if action.kind == "idle":
                     self._keep_idle(frame, base, sigma, action.start, action.stop)
                 elif action.kind == "open":
@@ -181,7 +172,6 @@ class Recorder:
                 elif action.kind == "close":
                     self._close_shot()
             self._maybe_flush(force=False)
-        self._deliver()
 
     def on_rejections(self, rejections: list[Rejection]) -> None:
         if not rejections:
@@ -191,21 +181,15 @@ class Recorder:
             self._safe(lambda: self._session and self._session[1].write(data), "rejects side file")
             if self._stream is not None:
                 self._safe(lambda: self._stream.rejects.write(data), "rejects side file")
-        self._deliver()
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
-            if event.alarm == _WRITE_ALARM and event.action == "acknowledge" and event.previous is self._alarm_state:
-                # the operator acknowledged our own alarm in the state we last gave it (one that crossed
-                # our own later event, still queued for the session, does not apply)
-                self._alarm_state = event.state
             if self._session is not None:
                 self._safe(lambda: self._session[0].on_alarm(event), "session journal", self._session[0])
             if self._stream is not None:
                 self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal", self._stream.journal)
             else:
                 self._idle_events.append(event)
-        self._deliver()
 
     def on_status(self, status: SourceStatus) -> None:
         return None
@@ -224,7 +208,6 @@ class Recorder:
                     except OSError as exc:
                         self._problem(f"closing the session files: {exc}")
                 self._session = None
-        self._deliver()
         self._stop.set()
         self._flusher.join(timeout=2.0)
 
@@ -403,17 +386,12 @@ class Recorder:
         if self._error is not None:
             self._error = None
             self._report("recording resumed: the disk accepts writes again")
-            # ISA-18.2: an acknowledged alarm that returns is normal; an unacknowledged one waits
-            back = AlarmState.NORMAL if self._alarm_state is AlarmState.ACKNOWLEDGED \
-                else AlarmState.RETURNED_UNACKNOWLEDGED
-            self._alarm(back, self._alarm_state, "recording resumed: the disk accepts writes again")
 
     def _flush_loop(self) -> None:
         period = self.options.flush_interval / 4
         while not self._stop.wait(period):
             with self._lock:
                 self._maybe_flush(force=False)
-            self._deliver()
 
     def _safe(self, write: Callable[[], Any], what: str, journal: Any = None) -> None:
         """Run one write; an OSError, or a journal that counts a new error of its own (the alarm
@@ -428,47 +406,13 @@ class Recorder:
             self._problem(f"cannot write the {what}: {getattr(journal, 'last_error', 'write failed')}")
 
     def _problem(self, message: str) -> None:
+        """A write problem: counted, said once on stderr, and shown by ``status()`` (not ok) until
+        writes succeed again; the session raises the engine's ``recorder:write`` alarm from it."""
         self._errors += 1
         first = self._error != message
-        raised = self._error is None
         self._error = message
         if first:
             self._report(message)
-        if raised:
-            self._alarm(AlarmState.UNACKNOWLEDGED, self._alarm_state, message)
-
-    def _alarm(self, state: AlarmState, previous: AlarmState, message: str) -> None:
-        """The recorder's own data-quality alarm (``recorder:write``), kept in ``alarm_events``, written
-        to the session journal when it can be, and handed to ``emit`` (the session's dispatch)."""
-        self._alarm_state = state
-        event = AlarmEvent(time=self._data_time, wall=self._clock(), alarm=_WRITE_ALARM, state=state,
-                           previous=previous, quantity=None, value=None, limit=None, priority=Priority.HIGH,
-                           kind="quality", message=message)
-        self.alarm_events.append(event)
-        if self._session is not None:
-            try:
-                self._session[0].on_alarm(event)
-            except OSError:
-                pass
-        if self._emit is not None:
-            self._outbox.append(event)
-
-    def _deliver(self) -> None:
-        """Hand the queued own alarm events to ``emit``, in order, with the recorder's lock not held.
-        One thread delivers at a time; one that finds another delivering leaves the queue to it
-        (never waits: the deliverer may itself be waiting for the session's lock)."""
-        while self._outbox:
-            if not self._emit_lock.acquire(blocking=False):
-                return
-            try:
-                while self._outbox:
-                    event = self._outbox.popleft()
-                    try:
-                        self._emit(event)   # type: ignore[misc]
-                    except Exception:   # a listener's failure must not stop the recording
-                        pass
-            finally:
-                self._emit_lock.release()
 
     def _report(self, message: str) -> None:
         print(f"regime recorder: {message}", file=sys.stderr, flush=True)

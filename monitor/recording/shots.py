@@ -1,4 +1,4 @@
-"""Shot splitting by the discharge on/off rule (ne >= on_above) with pre- and post-trigger margins."""
+"""Shot splitting by the discharge state the pipeline decided (monitor.alarms.discharge), with a post-trigger margin."""
 
 from __future__ import annotations
 
@@ -7,7 +7,9 @@ from typing import Literal
 
 import numpy as np
 
-__all__ = ["Action", "ShotSplitter", "discharge_state"]
+from monitor.alarms.discharge import DischargeDetector
+
+__all__ = ["Action", "ShotSplitter"]
 
 Kind = Literal["idle", "open", "rows", "close"]
 
@@ -23,37 +25,32 @@ class Action:
     stop: int = 0
 
 
-def discharge_state(ne: np.ndarray | None, on_above: float, previous: bool) -> np.ndarray:
-    """Per-sample discharge state: ne >= on_above where ne is known, else the last known state."""
-    if ne is None:
-        return np.zeros(0, dtype=bool)
-    ne = np.asarray(ne, dtype=np.float64)
-    known = np.isfinite(ne)
-    raw = ne >= on_above
-    if known.all():
-        return raw
-    idx = np.where(known, np.arange(len(ne)), -1)
-    np.maximum.accumulate(idx, out=idx)
-    return np.where(idx >= 0, raw[np.maximum(idx, 0)], previous)
-
-
 class ShotSplitter:
-    """Turns each frame's (t, ne) into Actions. Whole arrays; a Python step only per on/off change.
+    """Turns each frame's (t, discharge state) into Actions. Whole arrays; a Python step only per on/off change.
+
+    The discharge state is the frame's own (``Frame.discharge``, the pipeline's one rule, which the
+    alarm engine's suppression reads too). A frame built without a pipeline (by hand) is judged here
+    by the same rule (``DischargeDetector``), so a shot never opens while the alarms treat the
+    discharge as off.
 
     ``split`` "discharge": a shot opens at the first sample with the discharge on and closes at the
     first sample later than ``post`` seconds after the discharge went off (a discharge that comes
     back within the margin continues the same shot). "none": one shot from the first sample on.
     """
 
-    def __init__(self, on_above: float, post: float, split: str = "discharge") -> None:
+    def __init__(self, on_above: float, post: float, split: str = "discharge", *, deadband: float = 0.1,
+                 delay: float = 0.0) -> None:
         self.on_above = float(on_above)
+        self._detector = DischargeDetector(self.on_above, deadband, delay)
         self.post = float(post)
         self.split = split
         self.on = False                 # discharge state after the last sample seen
         self.in_shot = False
         self.off_since: float | None = None
 
-    def feed(self, t: np.ndarray, ne: np.ndarray | None) -> list[Action]:
+    def feed(self, t: np.ndarray, discharge: np.ndarray | None, ne: np.ndarray | None = None) -> list[Action]:
+        """Actions for the samples at ``t``: ``discharge`` the frame's per-sample state, or None for a
+        frame built by hand, whose density ``ne`` is then judged by the same rule."""
         n = len(t)
         if n == 0:
             return []
@@ -62,7 +59,7 @@ class ShotSplitter:
                 return [Action("rows", 0, n)]
             self.in_shot = True
             return [Action("open", 0), Action("rows", 0, n)]
-        state = discharge_state(ne, self.on_above, self.on) if ne is not None else np.full(n, self.on)
+        state = np.asarray(discharge, dtype=bool) if discharge is not None else self._detector.step(t, ne)
         change = np.flatnonzero(state[1:] != state[:-1]) + 1
         bounds = [0, *change.tolist(), n]
         actions: list[Action] = []

@@ -8,7 +8,7 @@ from typing import Any, Callable
 from monitor.tui.feed import EventTap, SessionFeed
 from monitor.tui.settings import ScreenSettings, envelope_box
 
-__all__ = ["settings_for", "make_app", "run_screen"]
+__all__ = ["settings_for", "make_app"]
 
 
 def settings_for(config: Any, *, title: str = "regime", bell: bool | None = None, units: str = "practical",
@@ -26,14 +26,3 @@ def make_app(session: Any, tap: EventTap, settings: ScreenSettings) -> Any:
     """The RegimeApp on ``session`` (whose sinks must include ``tap``)."""
     from monitor.tui.app import RegimeApp
     return RegimeApp(SessionFeed(session, tap), settings)
-
-
-def run_screen(session: Any, tap: EventTap, settings: ScreenSettings) -> int:
-    """Run the screen until the operator quits; the session is closed afterwards. Exit code 0, or 3 if the source failed."""
-    app = make_app(session, tap, settings)
-    try:
-        app.run()
-    finally:
-        app.stop.set()
-        session.close()
-    return 3 if getattr(session, "failure", None) else 0

@@ -49,12 +49,13 @@ def test_a_clock_that_restarts_without_seq_is_a_restart_and_its_readings_are_acc
 def test_small_steps_back_are_still_refused_as_time_backwards_and_kept() -> None:
     t = np.array([100.0, 100.5, 100.1, 101.0, 101.0 - 0.9 * CLOCK_RESTART, 102.0])
     p = Pipeline(Config())
-    frame = p.process(make_batch(t, ne=1e17, Te=3.0))
+    processed = p.process_batch(make_batch(t, ne=1e17, Te=3.0))
+    frame = processed.frame()
     c = p.counts()["probe"]
     assert dict(c.rejected) == {"time_backwards": 2} and c.accepted == 4
     assert p.restarts()["probe"] == 0
     np.testing.assert_array_equal(frame.t, [100.0, 100.5, 101.0, 102.0])
-    assert [r.reason for r in p.drain_rejections()] == ["time_backwards"] * 2
+    assert [r.reason for r in processed.rejections] == ["time_backwards"] * 2
     received_everything(p, 6)
 
 
@@ -230,10 +231,12 @@ def test_a_refused_binary_header_whose_count_cannot_be_trusted_stands_for_its_fi
 def test_refused_lines_and_frames_that_overlap_fill_each_gap_position_once() -> None:
     p = Pipeline(Config())
     p.process(make_batch([0.0], seq=[0], ne=1e17))
-    p.reject([Rejection("probe", "size_mismatch", b'{"fields": ["ne"], "n": 4, "seq": 1}\n\x00', 0.0),
-              Rejection("probe", "malformed", b"seq=3 ne=??", 0.0),         # inside the frame's span: sent twice
-              Rejection("probe", "malformed", b"seq=6 ne=??", 0.0)])
+    # the fields the adapters fill: how many readings each stands for and the seq numbers it covered
+    p.reject([Rejection("probe", "size_mismatch", b'{"fields": ["ne"], "n": 4, "seq": 1}\n\x00', 0.0,
+                        count=4, seq_first=1, seq_last=4),
+              Rejection("probe", "malformed", b"seq=3 ne=??", 0.0, seq_first=3, seq_last=3),   # inside the frame's span: sent twice
+              Rejection("probe", "malformed", b"seq=6 ne=??", 0.0, seq_first=6, seq_last=6)])
     p.process(make_batch([1.0], seq=[8], ne=1e17))                          # 5 and 7 really lost
     c = p.counts()["probe"]
     assert dict(c.rejected) == {"size_mismatch": 4, "malformed": 2} and c.lost == 2
-    assert len(p._counts["probe"].refused_seqs) == 0                       # settled spans are forgotten
+    assert len(p.ledger.of("probe").refused_seqs) == 0                       # settled spans are forgotten

@@ -132,9 +132,8 @@ def test_pipeline_memory_stays_bounded_over_a_long_run() -> None:
         ne[::10] = -1.0                                   # refused readings, kept in a ring
         p.process(make_batch(t, seq=k * 100 + np.arange(100), ne=ne, Te=3.0))
         p.reject([Rejection("probe", "malformed", b"t=%d seq=x" % k, 0.0)])
-        p.drain_rejections()
         r = p.rolling("probe")
-        c = p._counts["probe"]
+        c = p.ledger.of("probe")
         sizes.append((r.memory_cells(), len(p.rejected_samples), len(c.rate_buckets), len(c.refused_seqs)))
     assert len(set(s[0] for s in sizes[1:])) == 1
     assert max(s[1] for s in sizes) == 50

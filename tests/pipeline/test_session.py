@@ -174,6 +174,15 @@ def test_replay_controls_are_forwarded_when_the_source_has_them() -> None:
         def pause(self) -> None:
             self.calls.append("pause")
 
+        def resume(self) -> None:
+            self.calls.append("resume")
+
+        def step(self) -> None:
+            self.calls.append("step")
+
+        def set_speed(self, speed: float | None) -> None:
+            self.calls.append(("speed", speed))
+
         def seek(self, t: float) -> None:
             self.calls.append(("seek", t))
 

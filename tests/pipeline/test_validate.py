@@ -20,19 +20,20 @@ def test_bad_values_rejected_by_reason_and_kept_as_lines() -> None:
     ne = [1e17, np.nan, np.inf, 0.0, -1e16, 2e33, 1e17, 1e17, 1e17]
     te = [3.0, 3.0, 3.0, 3.0, 3.0, 3.0, -2.0, 2e7, np.nan]
     b = make_batch(np.arange(9) * 0.01, ne=ne, Te=te, B=[0.0, -0.1, 0, 0, 0, 0, 0, 0, 0])
-    p, (frame,) = run(b)
+    p = Pipeline(Config())
+    processed = p.process_batch(b)
+    frame = processed.frame()
     c = p.counts()["probe"]
     assert c.accepted == 3          # rows 0, 1 (Te only + B), 8 (ne only)
     assert dict(c.rejected) == {"ne_not_finite": 1, "ne_not_positive": 2, "ne_absurd": 1,
                                 "Te_not_positive": 1, "Te_absurd": 1}
     np.testing.assert_array_equal(frame.t, [0.0, 0.01, 0.08])
-    rej = p.drain_rejections()
+    rej = processed.rejections               # returned with the frames that were accepted
     assert [r.reason for r in rej] == ["ne_not_finite", "ne_not_positive", "ne_not_positive", "ne_absurd",
                                        "Te_not_positive", "Te_absurd"]
     assert rej[1].raw == b"t=0.03 ne=0.0 Te=3.0 B=0.0"
     assert rej[0].raw == b"t=0.02 ne=inf Te=3.0 B=0.0"
     assert all(r.source == "probe" for r in rej)
-    assert p.drain_rejections() == []               # handed over once
     assert len(p.rejected_samples) == 6              # and kept in the ring
 
 
@@ -92,8 +93,8 @@ def test_a_refused_line_with_a_seq_is_rejected_not_lost() -> None:
     from adapters.batch import Rejection
     p = Pipeline(Config())
     p.process(make_batch([0.0, 0.1], seq=[1, 2], ne=[1e17, 1e17]))
-    p.reject([Rejection("probe", "malformed", b"t=0.2 seq=3 ne=??", 0.0),
-              Rejection("probe", "bad_json", b'{"t": 0.3, "seq": 4, "ne": }', 0.0),
+    p.reject([Rejection("probe", "malformed", b"t=0.2 seq=3 ne=??", 0.0, seq_first=3, seq_last=3),
+              Rejection("probe", "bad_json", b'{"t": 0.3, "seq": 4, "ne": }', 0.0, seq_first=4, seq_last=4),
               Rejection("probe", "malformed", b"no seq here", 0.0)])
     p.process(make_batch([0.5, 0.6], seq=[6, 7], ne=[1e17, 1e17]))     # 3, 4 refused; 5 really lost
     c = p.counts()["probe"]
@@ -121,11 +122,12 @@ def test_every_reading_is_accepted_or_rejected_once(rows, cut) -> None:
     te = np.array([r[3] for r in rows])
     p = Pipeline(Config())
     batch = make_batch(t, seq=seq, ne=ne, Te=te)
-    frames = [p.process(b) for b in (split(batch, [cut]) if cut < len(rows) else [batch])]
+    done = [p.process_batch(b) for b in (split(batch, [cut]) if cut < len(rows) else [batch])]
+    frames = [d.frame() for d in done]
     c = p.counts()["probe"]
     assert c.accepted + sum(c.rejected.values()) == len(rows)
     assert c.accepted == sum(len(f) for f in frames)
-    assert len(p.drain_rejections()) == sum(c.rejected.values())
+    assert sum(len(d.rejections) for d in done) == sum(c.rejected.values())
     ok_t = np.concatenate([f.t for f in frames])
     assert np.all(np.diff(ok_t) >= 0) and np.isfinite(ok_t).all()
     ok_seq = np.concatenate([f.seq for f in frames])

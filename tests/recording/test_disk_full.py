@@ -19,11 +19,9 @@ from monitor.recording import Recorder, RecordingOptions
 
 signal.signal(signal.SIGXFSZ, signal.SIG_IGN)            # the write then fails with EFBIG
 out = sys.argv[1]
-raised = []
 ticks = iter(range(10**9))
 clock = lambda: 1000.0 + 0.3 * next(ticks)                # every frame is due for writing at once
-rec = Recorder(out, load_config(None), source_name="s", options=RecordingOptions(split="none"),
-               emit=raised.append, clock=clock)
+rec = Recorder(out, load_config(None), source_name="s", options=RecordingOptions(split="none"), clock=clock)
 resource.setrlimit(resource.RLIMIT_FSIZE, (60_000, 60_000))
 fed = 0
 for a in range(0, 5000, 250):
@@ -35,7 +33,7 @@ st = rec.status()
 rec.close()
 end = rec.status()
 print(json.dumps({"fed": fed, "ok": st.ok, "message": st.message, "written": end.rows_written,
-                  "dropped": end.dropped, "alarms": [(e.alarm, e.state.value, e.kind) for e in raised]}))
+                  "dropped": end.dropped}))
 """
 
 
@@ -48,7 +46,7 @@ def test_write_refused_is_loud_whole_lines_and_counted(tmp_path: Path) -> None:
     res = json.loads(out.stdout.splitlines()[-1])
     assert res["ok"] is False and "cannot write" in res["message"]
     assert "regime recorder: cannot write" in out.stderr                 # loud on stderr
-    assert res["alarms"][0] == ["recorder:write", "unacknowledged", "quality"]
+    # (the session raises the engine's recorder:write alarm from this status: test_recorder_alarm_ack)
     assert res["written"] + res["dropped"] == res["fed"] and res["dropped"] > 0   # nothing lost silently
     (csv,) = (tmp_path / "rec").glob("shot-*.csv")
     raw = csv.read_bytes()

@@ -159,12 +159,11 @@ def test_start_check_refuses_what_cannot_be_written_and_leaves_nothing(tmp_path:
 def test_file_deleted_mid_run_raises_the_alarm_and_counts_the_loss(tmp_path: Path) -> None:
     import shutil
 
-    raised: list[AlarmEvent] = []
     clock = iter(range(10**9))
-    rec = Recorder(tmp_path / "rec", load_config(None), source_name="s", emit=raised.append,
+    rec = Recorder(tmp_path / "rec", load_config(None), source_name="s",
                    options=RecordingOptions(split="none"), clock=lambda: 1000.0 + next(clock))
     rec.on_frame(frame([1.0, 2.0], ne=[1e17, 1e17]))
-    assert rec.status().rows_written == 2 and not raised
+    assert rec.status().rows_written == 2 and rec.status().ok
     shutil.rmtree(tmp_path / "rec")                   # the operator's clean-up, during the run
     rec.on_frame(frame([3.0, 4.0, 5.0], ne=[1e17, 1e17, 1e17]))
     during = rec.status()
@@ -172,29 +171,6 @@ def test_file_deleted_mid_run_raises_the_alarm_and_counts_the_loss(tmp_path: Pat
     end = rec.status()
     # without the check the rows went into the deleted file: written, no alarm, nothing on disk
     assert not during.ok and "deleted" in during.message
-    assert [(e.alarm, e.state.value) for e in raised][:1] == [("recorder:write", "unacknowledged")]
     assert end.rows_written == 2 and end.dropped == 3 and not end.complete
 
 
-def test_own_alarm_is_handed_on_with_the_recorder_unlocked(tmp_path: Path) -> None:
-    """The session calls the recorder under its own lock; a write alarm emitted while the recorder's
-    lock is held would deadlock against a session thread waiting for the recorder."""
-    import shutil
-    import threading
-
-    answered: list[bool] = []
-    seen: list[AlarmEvent] = []
-
-    def emit(event: AlarmEvent) -> None:
-        seen.append(event)
-        other = threading.Thread(target=lambda: answered.append(rec.status() is not None))
-        other.start()
-        other.join(timeout=5.0)                        # another thread can take the recorder's lock
-
-    out = tmp_path / "rec"
-    rec = Recorder(out, load_config(None), source_name="s", emit=emit, options=RecordingOptions(split="none"))
-    shutil.rmtree(out)
-    out.write_text("a file where the directory was")   # the shot file cannot be opened now
-    rec.on_frame(frame([1.0, 2.0], ne=[1e17, 1e17]))
-    rec.close()
-    assert seen and answered and all(answered) and len(answered) == len(seen)

@@ -1,4 +1,4 @@
-"""Shot splitting by the discharge on/off rule, with pre- and post-trigger margins, one file per shot."""
+"""Shot splitting by the discharge state (the one rule of monitor.alarms.discharge), with margins, one file per shot."""
 
 from __future__ import annotations
 
@@ -8,7 +8,8 @@ import numpy as np
 
 from monitor.config import load_config
 from monitor.recording import Recorder, RecordingOptions
-from monitor.recording.shots import Action, ShotSplitter, discharge_state
+from monitor.alarms.discharge import DischargeDetector
+from monitor.recording.shots import Action, ShotSplitter
 
 from recording_helpers import data_rows, frame
 
@@ -16,16 +17,27 @@ ON, OFF = 1e17, 1e13
 
 
 def test_discharge_state_carries_over_unknown_density() -> None:
+    det = DischargeDetector(1e15, deadband=0.1)
+    assert det.on is None                                   # nothing judged yet
     ne = np.array([np.nan, 2e15, np.nan, 1e14, np.nan])
-    assert discharge_state(ne, 1e15, previous=False).tolist() == [False, True, True, False, False]
-    assert discharge_state(np.array([np.nan]), 1e15, previous=True).tolist() == [True]
+    assert det.step(np.arange(5.0), ne).tolist() == [False, True, True, False, False]
+    assert det.step(np.array([5.0]), np.array([np.nan])).tolist() == [False]
+    det.step(np.array([6.0]), np.array([2e15]))
+    assert det.step(np.array([7.0]), np.array([np.nan])).tolist() == [True]
+
+
+def test_the_splitter_follows_the_frames_discharge_state() -> None:
+    # the pipeline's answer wins over the density (one rule for the alarms and the shots)
+    sp = ShotSplitter(on_above=1e15, post=0.0)
+    acts = sp.feed(np.arange(3) * 0.1, np.array([False, True, True]), np.array([ON, ON, ON]))
+    assert acts == [Action("idle", 0, 1), Action("open", 1), Action("rows", 1, 3)]
 
 
 def test_splitter_actions_for_an_on_off_sequence() -> None:
     sp = ShotSplitter(on_above=1e15, post=0.25)
     t = np.arange(10) * 0.1
     ne = np.array([OFF, OFF, ON, ON, OFF, OFF, OFF, OFF, ON, OFF])
-    acts = sp.feed(t, ne)
+    acts = sp.feed(t, None, ne)
     # off at t=0.4: rows up to t <= 0.65 stay in the shot, t=0.7 closes it, then idle until t=0.8 triggers
     assert acts == [Action("idle", 0, 2), Action("open", 2), Action("rows", 2, 4), Action("rows", 4, 7),
                     Action("close", 7), Action("idle", 7, 8), Action("open", 8), Action("rows", 8, 9),
@@ -36,17 +48,17 @@ def test_splitter_actions_for_an_on_off_sequence() -> None:
 def test_discharge_back_within_the_post_margin_is_the_same_shot() -> None:
     sp = ShotSplitter(on_above=1e15, post=1.0)
     t = np.arange(6) * 0.1
-    acts = sp.feed(t, np.array([ON, OFF, OFF, ON, ON, OFF]))
+    acts = sp.feed(t, None, np.array([ON, OFF, OFF, ON, ON, OFF]))
     assert [a.kind for a in acts].count("open") == 1 and "close" not in [a.kind for a in acts]
 
 
 def test_close_across_frames_and_split_none() -> None:
     sp = ShotSplitter(on_above=1e15, post=0.5)
-    sp.feed(np.array([0.0, 0.1]), np.array([ON, OFF]))
-    assert sp.feed(np.array([0.3, 0.7]), np.array([OFF, OFF])) == [Action("rows", 0, 1), Action("close", 1),
+    sp.feed(np.array([0.0, 0.1]), None, np.array([ON, OFF]))
+    assert sp.feed(np.array([0.3, 0.7]), None, np.array([OFF, OFF])) == [Action("rows", 0, 1), Action("close", 1),
                                                                     Action("idle", 1, 2)]
     none = ShotSplitter(on_above=1e15, post=0.5, split="none")
-    assert none.feed(np.array([0.0]), np.array([OFF])) == [Action("open", 0), Action("rows", 0, 1)]
+    assert none.feed(np.array([0.0]), None, np.array([OFF])) == [Action("open", 0), Action("rows", 0, 1)]
 
 
 def test_recorder_writes_one_file_per_shot_with_margins(tmp_path: Path) -> None:

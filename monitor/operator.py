@@ -1,0 +1,86 @@
+"""Operator commands as typed values (acknowledge, shelve, reset, seek, ...), applied to a run in one place."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Union
+
+from monitor.errors import UsageError
+
+__all__ = ["Acknowledge", "Shelve", "Unshelve", "Reset", "OutOfService", "AlarmCommand",
+           "Seek", "Pause", "Resume", "StepReplay", "SetSpeed", "ReplayCommand", "Command", "UnknownAlarm"]
+
+
+class UnknownAlarm(UsageError, KeyError):
+    """An alarm id the engine does not know: the operator's mistake, said with the known ids
+    (a UsageError for the command line, a KeyError for a lookup)."""
+
+    def __str__(self) -> str:
+        return str(self.args[0]) if self.args else "unknown alarm"
+
+
+@dataclass(frozen=True)
+class Acknowledge:
+    """Acknowledge one alarm, or every alarm waiting for it (``alarm`` None)."""
+
+    alarm: str | None = None
+
+
+@dataclass(frozen=True)
+class Shelve:
+    """Shelve for ``seconds`` (None: one-shot, until the alarm returns to normal)."""
+
+    alarm: str
+    seconds: float | None = None
+
+
+@dataclass(frozen=True)
+class Unshelve:
+    alarm: str
+
+
+@dataclass(frozen=True)
+class Reset:
+    """Reset a latched alarm whose condition has returned."""
+
+    alarm: str
+
+
+@dataclass(frozen=True)
+class OutOfService:
+    alarm: str
+    flag: bool = True
+
+
+@dataclass(frozen=True)
+class Seek:
+    """Replay: go to data time ``t`` (s)."""
+
+    t: float
+
+
+@dataclass(frozen=True)
+class Pause:
+    pass
+
+
+@dataclass(frozen=True)
+class Resume:
+    pass
+
+
+@dataclass(frozen=True)
+class StepReplay:
+    pass
+
+
+@dataclass(frozen=True)
+class SetSpeed:
+    """Replay speed: times data time, None as fast as possible."""
+
+    speed: float | None
+
+
+AlarmCommand = Union[Acknowledge, Shelve, Unshelve, Reset, OutOfService]
+ReplayCommand = Union[Seek, Pause, Resume, StepReplay, SetSpeed]
+Command = Union[AlarmCommand, ReplayCommand]

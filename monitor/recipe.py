@@ -1,0 +1,115 @@
+"""One run recipe for watch, replay and demo, headless or on the screen: build the session, run it, print the summary, choose the exit code."""
+
+from __future__ import annotations
+
+import sys
+import threading
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from adapters.base import Source
+from monitor.config import Config
+from monitor.errors import EXIT_OK, EXIT_USAGE
+from monitor.headless import (HeadlessPrinter, failed_run, final_summary, human_summary, install_signals,
+                              restore_signals)
+from monitor.outputs import Outputs
+from monitor.session import Session, make_engine
+
+__all__ = ["RunPlan", "execute"]
+
+
+@dataclass(frozen=True)
+class RunPlan:
+    """What one run is: its source and config, its outputs, and how it is shown.
+
+    ``command`` names the run in messages (``regime watch``). ``duration`` ends it after that many
+    wall seconds, on the screen too. ``screen`` holds the screen's settings
+    (monitor.tui.settings.ScreenSettings), None when headless. ``on_interval`` is called about once a
+    second while headless (a replay's progress line); ``annotate`` adds to the summary before it is
+    printed; ``finish`` may turn a clean end into another exit code (a replay's empty window)."""
+
+    command: str
+    source: Source
+    config: Config
+    outputs: Outputs
+    live: bool
+    headless: bool = False
+    json: bool = False
+    duration: float | None = None
+    screen: Any = None
+    open_first: bool = False
+    on_interval: Callable[[Session], None] | None = None
+    annotate: Callable[[dict[str, Any]], None] | None = None
+    finish: Callable[[], int] | None = None
+    stop: threading.Event = field(default_factory=threading.Event)
+
+
+def execute(plan: RunPlan) -> int:
+    """Run ``plan`` to its end and return the exit code: 3 when the source failed, 4 when the
+    recording is incomplete (said on stderr), else what ``finish`` says, else 0."""
+    session = Session(plan.source, plan.config, plan.outputs.sinks, engine=make_engine(plan.config),
+                      live=plan.live, recorder=plan.outputs.recorder)
+    if plan.headless:
+        _headless(session, plan)
+    else:
+        refused = _screen(session, plan)
+        if refused is not None:
+            return refused
+    summary, final = final_summary(session, plan.outputs.recorder)
+    if plan.annotate is not None:
+        plan.annotate(summary)
+    if plan.headless:
+        printer = _printer(session)
+        if printer is not None:
+            printer.summary(summary)
+    else:
+        print(human_summary(summary))
+    code = failed_run(session, final, plan.command)
+    if code is not None:
+        return code
+    return plan.finish() if plan.finish is not None else EXIT_OK
+
+
+def _printer(session: Session) -> HeadlessPrinter | None:
+    return next((s for s in session.sinks if isinstance(s, HeadlessPrinter)), None)
+
+
+def _headless(session: Session, plan: RunPlan) -> None:
+    printer = HeadlessPrinter(sys.stdout, as_json=plan.json)
+    session.add_sink(printer)
+
+    def every_second(s: Session) -> None:
+        printer.status(s.snapshot())
+        if plan.on_interval is not None:
+            plan.on_interval(s)
+
+    previous = install_signals(plan.stop)
+    try:
+        session.open()
+        session.run(plan.duration, plan.stop, on_interval=every_second, interval=1.0)
+    finally:
+        restore_signals(previous)
+        session.close()
+        printer.status(session.snapshot())
+
+
+def _screen(session: Session, plan: RunPlan) -> int | None:
+    """The operator's screen until it quits; an exit code only when the screen cannot start."""
+    try:
+        from monitor.tui.app import RegimeApp
+        from monitor.tui.feed import EventTap, SessionFeed
+    except ImportError as exc:
+        session.close()
+        print(f"{plan.command}: the screen cannot start ({exc}); use --headless", file=sys.stderr)
+        return EXIT_USAGE
+    tap = EventTap()
+    session.add_sink(tap)
+    if plan.open_first:
+        session.open()
+    app = RegimeApp(SessionFeed(session, tap), plan.screen)
+    try:
+        app.run()
+    finally:
+        app.stop.set()
+        session.close()
+    return None
