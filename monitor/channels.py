@@ -85,10 +85,10 @@ class ChannelMap:
                 if carried:
                     unknown[key] = carried
         for key, ch in self.channels.items():      # map order = priority order
-            col = batch.columns.get(key)
-            if col is None:
+            given = batch.columns.get(key)
+            if given is None:
                 continue
-            col = np.asarray(col, dtype=np.float64)
+            col = np.asarray(given, dtype=np.float64)
             v = col * ch.scale if ch.scale != 1.0 else col
             if ch.quantity == "t":
                 t = np.where(np.isnan(v), t, v)

@@ -138,7 +138,7 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
         raise ConfigError(path, "limit", "expected [[limit]] tables")
     limits: tuple[Any, ...] = ()
     from monitor.alarms.envelope import parse_alarm_options, parse_limits
-    from monitor.recording.options import parse_recording
+    from monitor.recording_options import parse_recording
 
     limits = tuple(parse_limits(list(limits_raw), path))
     alarms = parse_alarm_options(dict(raw.get("alarms", {})), path)

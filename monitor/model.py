@@ -7,7 +7,7 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["Device", "Frame"]
+__all__ = ["Device", "Frame", "Stats"]
 
 
 @dataclass(frozen=True)
@@ -63,3 +63,15 @@ class Frame:
 
     def __len__(self) -> int:
         return len(self.t)
+
+
+@dataclass(frozen=True)
+class Stats:
+    """Rolling statistics of one quantity over the configured window (data time)."""
+
+    n: int
+    mean: float
+    std: float
+    min: float
+    max: float
+    slope: float          # per second, least-squares fit over the window; NaN if n < 2

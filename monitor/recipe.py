@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 import threading
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from adapters.base import Source
 from monitor.config import Config
@@ -14,6 +14,9 @@ from monitor.headless import (HeadlessPrinter, failed_run, final_summary, human_
                               restore_signals)
 from monitor.outputs import Outputs
 from monitor.session import Session, make_engine
+
+if TYPE_CHECKING:
+    from monitor.tui.settings import ScreenSettings
 
 __all__ = ["RunPlan", "execute"]
 
@@ -36,7 +39,7 @@ class RunPlan:
     headless: bool = False
     json: bool = False
     duration: float | None = None
-    screen: Any = None
+    screen: ScreenSettings | None = None
     open_first: bool = False
     on_interval: Callable[[Session], None] | None = None
     annotate: Callable[[dict[str, Any]], None] | None = None

@@ -47,7 +47,7 @@ class ReplaySource(Protocol):
 
     def seek(self, t: float) -> str | None: ...
 
-    def position(self) -> Any: ...
+    def position(self) -> ReplayPosition | tuple[float, float, float | None, float | None, bool] | None: ...
 
 
 class _LazyStats(Mapping[str, Stats]):
@@ -104,7 +104,7 @@ class Session:
             self.bus.attach(sink)
         if recorder is not None and recorder not in self.bus.sinks:
             self.bus.attach(recorder)
-        self._status = SourceStatus(getattr(source, "name", "source"), LinkState.CONNECTING)
+        self._status = SourceStatus(source.name, LinkState.CONNECTING)
         self._opened = False
         self._open_failures = 0
         self._next_open = 0.0

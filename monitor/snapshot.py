@@ -8,21 +8,10 @@ from typing import Any, Mapping
 import numpy as np
 
 from adapters.base import SourceStatus
-from monitor.alarms.events import AlarmState, Priority
+from monitor.alarms.events import AlarmView
+from monitor.model import Stats
 
 __all__ = ["Stats", "SourceCounts", "AlarmView", "ReplayPosition", "Snapshot"]
-
-
-@dataclass(frozen=True)
-class Stats:
-    """Rolling statistics of one quantity over the configured window (data time)."""
-
-    n: int
-    mean: float
-    std: float
-    min: float
-    max: float
-    slope: float          # per second, least-squares fit over the window; NaN if n < 2
 
 
 @dataclass(frozen=True)
@@ -34,24 +23,6 @@ class SourceCounts:
     rate: float = 0.0                                           # accepted readings/s, recent
     last_data_time: float | None = None
     last_wall_time: float | None = None
-
-
-@dataclass(frozen=True)
-class AlarmView:
-    """One alarm as the operator's list shows it (also those in normal state)."""
-
-    alarm: str
-    state: AlarmState
-    priority: Priority
-    kind: str                      # limit, predictive, stale, quality
-    quantity: str | None
-    value: float | None
-    limit: float | None
-    since: float | None            # data time of the last transition
-    description: str = ""
-    predicted_time: float | None = None   # data time the limit is expected to be reached
-    latched: bool = False
-    shelved_until: float | None = None
 
 
 @dataclass(frozen=True)

@@ -15,7 +15,8 @@ from monitor.config import Config
 from monitor.model import Frame
 from monitor.pipeline import Pipeline
 from monitor.pipeline.rolling import Trail
-from monitor.snapshot import ReplayPosition, Snapshot
+from monitor.recording.recorder import RecorderStatus
+from monitor.snapshot import AlarmView, ReplayPosition, Snapshot
 
 __all__ = ["RunView", "RunFacts", "TRAIL_BASE", "ATTENTION", "EventCounts"]
 
@@ -53,7 +54,7 @@ class RunFacts:
     sink_errors: int
     internal_errors: int
     replay: ReplayPosition | None
-    recorder: Any
+    recorder: RecorderStatus | None
 
 
 class RunView:
@@ -64,9 +65,8 @@ class RunView:
         self.config = config
         names = list(TRAIL_BASE)
         for lim in config.limits:
-            q = getattr(lim, "quantity", None)
-            if isinstance(q, str) and q not in names:
-                names.append(q)
+            if lim.quantity not in names:
+                names.append(lim.quantity)
         self.trail_names = tuple(names)
         self.latest: dict[str, tuple[float, float | None]] = {}
         self.warnings: tuple[str, ...] = ()
@@ -90,8 +90,8 @@ class RunView:
 
     def snapshot(self, facts: RunFacts, pipeline: Pipeline, engine: AlarmEngine | None) -> Snapshot:
         trail_t, trail = self.trail.arrays()
-        flood, rate10, chatter = False, 0, ()
-        alarms: tuple[Any, ...] = ()
+        flood, rate10, chatter = False, 0, tuple[str, ...]()
+        alarms: tuple[AlarmView, ...] = ()
         if engine is not None:
             alarms = tuple(engine.views())
             rate10, flood, chatter = engine.load()

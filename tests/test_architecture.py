@@ -1,4 +1,5 @@
-"""Dependency direction of the layers (STYLE.md): checked on the source text and in fresh interpreters."""
+"""The layer rules of DEVELOPERS.md section 2 ("Package layout and layer rules"): dependency direction and no
+package cycles, checked on the source text and in fresh interpreters."""
 
 from __future__ import annotations
 
@@ -19,6 +20,87 @@ def _imports(path: Path) -> set[str]:
         elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
             names.add(node.module.split(".")[0])
     return names
+
+
+def _monitor_imports(path: Path) -> set[str]:
+    """The monitor modules ``path`` imports, anywhere in the file (a lazy import inside a function is a
+    dependency too), except under ``if TYPE_CHECKING:`` (annotations only)."""
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    typing_only = {id(sub) for node in ast.walk(tree)
+                   if isinstance(node, ast.If) and "TYPE_CHECKING" in ast.unparse(node.test)
+                   for sub in ast.walk(node)}
+    names: set[str] = set()
+    for node in ast.walk(tree):
+        if id(node) in typing_only:
+            continue
+        if isinstance(node, ast.Import):
+            names.update(alias.name for alias in node.names)
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            names.add(node.module)
+    return {n for n in names if n.startswith("monitor.")}
+
+
+def _unit(path_or_module: str) -> str:
+    """A subpackage of monitor/ (alarms, pipeline, tui, ...) or a top-level module (session, config, ...)."""
+    return path_or_module.split(".")[1]
+
+
+def _package_graph() -> dict[str, set[str]]:
+    graph: dict[str, set[str]] = {}
+    base = ROOT / "monitor"
+    for path in base.rglob("*.py"):
+        rel = path.relative_to(base).with_suffix("")
+        unit = rel.parts[0]
+        if unit in ("__init__", "__main__"):
+            continue
+        for module in _monitor_imports(path):
+            other = _unit(module)
+            if other != unit and ((base / other).is_dir() or (base / f"{other}.py").exists()):
+                graph.setdefault(unit, set()).add(other)
+    return graph
+
+
+def _cycles(graph: dict[str, set[str]]) -> list[list[str]]:
+    """The strongly connected components of more than one unit (Tarjan's algorithm)."""
+    index: dict[str, int] = {}
+    low: dict[str, int] = {}
+    stack: list[str] = []
+    found: list[list[str]] = []
+
+    def visit(v: str) -> None:
+        index[v] = low[v] = len(index)
+        stack.append(v)
+        for w in graph.get(v, ()):
+            if w not in index:
+                visit(w)
+                low[v] = min(low[v], low[w])
+            elif w in stack:
+                low[v] = min(low[v], index[w])
+        if low[v] == index[v]:
+            comp = []
+            while True:
+                w = stack.pop()
+                comp.append(w)
+                if w == v:
+                    break
+            if len(comp) > 1:
+                found.append(sorted(comp))
+
+    for v in list(graph):
+        if v not in index:
+            visit(v)
+    return found
+
+
+def test_no_cycle_between_the_parts_of_monitor() -> None:
+    graph = _package_graph()
+    assert {"alarms", "pipeline", "session"} <= set(graph), "the import graph is missing its main parts"
+    assert _cycles(graph) == []
+
+
+def test_the_cycle_check_finds_a_cycle() -> None:
+    # the check itself can fail: a made-up graph with a cycle through three parts is found
+    assert _cycles({"a": {"b"}, "b": {"c"}, "c": {"a"}, "d": {"a"}}) == [["a", "b", "c"]]
 
 
 def test_adapters_never_import_monitor() -> None:

@@ -12,15 +12,14 @@ import numpy as np
 from monitor.alarms.detect import RunState, toggles
 from monitor.alarms.discharge import DischargeDetector
 from monitor.alarms.envelope import AlarmOptions, LimitSpec
-from monitor.alarms.events import AlarmEvent, AlarmState, Priority
+from monitor.alarms.events import AlarmEvent, AlarmState, AlarmView, Priority
 from monitor.alarms.load import LoadTracker
 from monitor.alarms.predictive import SlopePredictor
 from monitor.alarms.quality import QualityWindow
 from monitor.alarms.states import AlarmCore
 from monitor.errors import UsageError
-from monitor.model import Frame
+from monitor.model import Frame, Stats
 from monitor.operator import UnknownAlarm
-from monitor.snapshot import AlarmView, Stats
 
 __all__ = ["AlarmEngine"]
 
@@ -297,13 +296,16 @@ class AlarmEngine:
             bh, bl = spec.band(spec.high), spec.band(spec.low)
             clear_fn = lambda: (v_hi < spec.high - bh) & (v_lo > spec.low + bl)  # noqa: E731
         elif spec.high is not None:
-            raise_c = v_hi > spec.high
-            bh = spec.band(spec.high)
-            clear_fn = lambda: v_hi < spec.high - bh  # noqa: E731
+            high = spec.high
+            raise_c = v_hi > high
+            bh = spec.band(high)
+            clear_fn = lambda: v_hi < high - bh  # noqa: E731
         else:
-            raise_c = v_lo < spec.low
-            bl = spec.band(spec.low)  # type: ignore[arg-type]
-            clear_fn = lambda: v_lo > spec.low + bl  # noqa: E731
+            assert spec.low is not None             # a limit has a high or a low (envelope.py)
+            low = spec.low
+            raise_c = v_lo < low
+            bl = spec.band(low)
+            clear_fn = lambda: v_lo > low + bl  # noqa: E731
         events: list[AlarmEvent] = []
         core = lim.core
         for i, up in toggles(ts, raise_c, clear_fn, spec.on_delay, spec.off_delay, lim.det):

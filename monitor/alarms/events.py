@@ -6,7 +6,7 @@ import enum
 from dataclasses import dataclass, asdict
 from typing import Any
 
-__all__ = ["AlarmState", "Priority", "AlarmEvent"]
+__all__ = ["AlarmState", "Priority", "AlarmEvent", "AlarmView"]
 
 
 class AlarmState(str, enum.Enum):
@@ -60,3 +60,21 @@ class AlarmEvent:
         d["previous"] = self.previous.value
         d["priority"] = self.priority.value
         return {"type": "alarm", **d}
+
+
+@dataclass(frozen=True)
+class AlarmView:
+    """One alarm as the operator's list shows it (also those in normal state)."""
+
+    alarm: str
+    state: AlarmState
+    priority: Priority
+    kind: str                      # limit, predictive, stale, quality
+    quantity: str | None
+    value: float | None
+    limit: float | None
+    since: float | None            # data time of the last transition
+    description: str = ""
+    predicted_time: float | None = None   # data time the limit is expected to be reached
+    latched: bool = False
+    shelved_until: float | None = None

@@ -12,7 +12,7 @@ from typing import Mapping
 from monitor.alarms.envelope import HookSpec
 from monitor.alarms.events import AlarmEvent, Priority
 from monitor.alarms.journal import event_line
-from monitor.sinks import AlarmOnlySink
+from monitor.alarms.listener import AlarmOnlySink
 
 __all__ = ["HookResult", "HookRunner", "expand", "hook_sink"]
 

@@ -8,7 +8,7 @@ from pathlib import Path
 from typing import Any, Callable, IO
 
 from monitor.alarms.events import AlarmEvent
-from monitor.sinks import AlarmOnlySink
+from monitor.alarms.listener import AlarmOnlySink
 
 __all__ = ["JournalSink", "event_line", "read_journal"]
 

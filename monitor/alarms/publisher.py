@@ -9,7 +9,7 @@ from adapters.base import FatalSourceError
 from monitor.alarms.events import AlarmEvent
 from monitor.alarms.journal import event_line
 from monitor.errors import UsageError
-from monitor.sinks import AlarmOnlySink
+from monitor.alarms.listener import AlarmOnlySink
 
 __all__ = ["AlarmPublisher", "PublisherBindError", "DEFAULT_ENDPOINT", "normalise_endpoint"]
 

@@ -6,7 +6,7 @@ import collections
 import math
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Iterable, Literal, Mapping
+from typing import TYPE_CHECKING, Callable, Iterable, Literal, Mapping
 
 import numpy as np
 
@@ -14,13 +14,16 @@ from adapters.batch import Batch, Rejection
 from monitor.alarms.discharge import DischargeDetector
 from monitor.alarms.envelope import AlarmOptions
 from monitor.config import Config
-from monitor.model import Frame
+from monitor.model import Device, Frame
 from monitor.pipeline.align import Aligner
 from monitor.pipeline.ledger import Ledger, Tally
 from monitor.pipeline.rolling import Rolling
 from monitor.pipeline.validate import (SeqTimeState, Verdict, find_clock_restart, find_restart,
                                        validate)
 from monitor.snapshot import SourceCounts, Stats
+
+if TYPE_CHECKING:
+    from monitor.physics.derive import Derived
 
 __all__ = ["Pipeline", "Part", "Processed", "Restart"]
 
@@ -54,7 +57,7 @@ class Processed:
 _AUXILIARY = frozenset({"Ti", "B", "p0"})
 
 
-def _default_derive() -> Callable:
+def _default_derive() -> Callable[[Mapping[str, np.ndarray], Device, Mapping[str, np.ndarray] | None], Derived]:
     from monitor.physics import derive
     return derive
 
@@ -69,7 +72,8 @@ class Pipeline:
     counted by reason in the ledger and returned as a Rejection for the sinks.
     """
 
-    def __init__(self, config: Config | None = None, *, derive: Callable[..., object] | None = None,
+    def __init__(self, config: Config | None = None, *,
+                 derive: Callable[[Mapping[str, np.ndarray], Device, Mapping[str, np.ndarray] | None], Derived] | None = None,
                  wall: Callable[[], float] = time.time, clock_restart: float | None = None) -> None:
         self.config = config if config is not None else Config()
         opts = self.config.pipeline

@@ -5,6 +5,7 @@ from __future__ import annotations
 import collections
 import datetime as _dt
 import errno
+import functools
 import os
 import re
 import sys
@@ -24,7 +25,7 @@ from monitor.model import Frame
 from monitor.recording.csvformat import BASE_ORDER, dump_toml, header_block
 from monitor.recording.files import LineFile, json_line, rejection_json
 from monitor.recording.history import PreTrigger
-from monitor.recording.options import RecordingOptions, parse_recording
+from monitor.recording_options import RecordingOptions, parse_recording
 from monitor.recording.shots import ShotSplitter
 from monitor.recording.streams import Stream, journal_factory, limit_text, utc_stamp
 
@@ -178,16 +179,19 @@ class Recorder:
             return
         data = b"".join(json_line(rejection_json(r)) for r in rejections)
         with self._lock:
-            self._safe(lambda: self._session and self._session[1].write(data), "rejects side file")
-            if self._stream is not None:
-                self._safe(lambda: self._stream.rejects.write(data), "rejects side file")
+            session, stream = self._session, self._stream
+            if session is not None:
+                self._safe(lambda: session[1].write(data), "rejects side file")
+            if stream is not None:
+                self._safe(lambda: stream.rejects.write(data), "rejects side file")
 
     def on_alarm(self, event: AlarmEvent) -> None:
         with self._lock:
-            if self._session is not None:
-                self._safe(lambda: self._session[0].on_alarm(event), "session journal", self._session[0])
-            if self._stream is not None:
-                self._safe(lambda: self._stream.journal.on_alarm(event), "alarm journal", self._stream.journal)
+            session, stream = self._session, self._stream
+            if session is not None:
+                self._safe(lambda: session[0].on_alarm(event), "session journal", session[0])
+            if stream is not None:
+                self._safe(lambda: stream.journal.on_alarm(event), "alarm journal", stream.journal)
             else:
                 self._idle_events.append(event)
 
@@ -275,15 +279,16 @@ class Recorder:
             return
         if part == 1:
             self._shots += 1
-            for t_p, row in primes:
-                self._format(np.array([t_p]), {c: np.array([x]) for c, x in row.items()}, None, slice(None))
+            for t_p, prime in primes:
+                self._format(np.array([t_p]), {c: np.array([x]) for c, x in prime.items()}, None, slice(None))
                 self._rows_idle -= 1
             for t, vals, seq in pre:
                 self._format(t, vals, seq, slice(None))
                 self._rows_idle -= len(t)
+            journal = self._stream.journal
             for event in self._idle_events:
                 if event.time >= first_t:
-                    self._safe(lambda e=event: self._stream.journal.on_alarm(e), "alarm journal", self._stream.journal)
+                    self._safe(functools.partial(journal.on_alarm, event), "alarm journal", journal)
             self._idle_events.clear()
 
     def _close_shot(self) -> None:

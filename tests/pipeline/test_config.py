@@ -122,7 +122,7 @@ def test_limit_and_alarm_tables_reach_their_parsers(tmp_path: Path) -> None:
 
 
 def test_recording_table_reaches_its_parser(tmp_path: Path) -> None:
-    import monitor.recording.options  # noqa: F401 - fails loudly if the module is broken
+    import monitor.recording_options  # noqa: F401 - fails loudly if the module is broken
     c = load_config(write(tmp_path, "[recording]\npre_trigger = \"500ms\"\n"))
     assert c.recording.pre_trigger == pytest.approx(0.5)
     with pytest.raises(ConfigError):

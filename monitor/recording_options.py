@@ -1,4 +1,4 @@
-"""Recording options: the `[recording]` table of the config (margins, flushing, file naming) and its parser."""
+"""The [recording] table of the config: the recorder's options (a module of its own, so that the config never imports the recorder)."""
 
 from __future__ import annotations
 
