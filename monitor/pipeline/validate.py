@@ -28,8 +28,17 @@ RESTART_GAP = 1000
 # ``time_backwards``; a clock that restarts less than this far back costs at
 # most this many seconds of readings, refused and kept, until it catches up.
 CLOCK_RESTART = 10.0
+# A seq that steps forward by more than this, or back by more than RESTART_GAP (not to 0), is
+# implausible on its own (a bit flip, a garbled number): it is refused (``seq_jump`` forward,
+# ``seq_backwards`` back) and moves no reference, until CONFIRM consecutive readings continue
+# from it; then the stream has really been renumbered and starts over there, with no loss
+# counted across the jump. A restart to seq 0 needs no confirmation (common practice for
+# publishers that number from 0).
+SEQ_JUMP = 1_000_000
+CONFIRM = 3
+_NEAR = 8          # a garbled seq is recognised as one of the next this many expected ones
 
-_FIXED = ("time_not_finite", "time_backwards", "seq_duplicate", "seq_backwards", "no_channels")
+_FIXED = ("time_not_finite", "time_backwards", "seq_duplicate", "seq_backwards", "seq_jump", "no_channels")
 
 
 @dataclass
@@ -38,6 +47,11 @@ class SeqTimeState:
 
     last_t: float = -np.inf
     last_seq: int | None = None
+    # an implausible seq run still waiting for confirmation: (its last seq, its length so far)
+    pending: tuple[int, int] | None = None
+    # refused readings since the last plausible one whose seq is one bit away from the expected one:
+    # each is the garbled copy of a reading missing from the next gap (received, so not lost)
+    floating: int = 0
 
 
 @dataclass(frozen=True, eq=False)
@@ -73,13 +87,47 @@ def _before(x: np.ndarray, start: float) -> np.ndarray:
     return out
 
 
+def _plausible(s: np.ndarray, start: int) -> tuple[np.ndarray, np.ndarray]:
+    """For each reading, the highest plausible seq before it (``start`` or an earlier reading's),
+    and whether its own seq is an implausible jump from there (forward by more than SEQ_JUMP, or
+    back by more than RESTART_GAP to anything but 0). A few passes: a refused jump must not become
+    the reference of the readings after it."""
+    floor = np.iinfo(np.int64).min
+    jump = np.zeros(len(s), dtype=bool)
+    before = _before(s, start)
+    for _ in range(4):
+        before = _before(np.where(jump, floor, s), start)
+        new = ((s - SEQ_JUMP) > before) | ((s < before) & (s != 0) & (before - s > RESTART_GAP))
+        if np.array_equal(new, jump):
+            break
+        jump = new
+    return before, jump
+
+
+def _run_lengths(s: np.ndarray) -> np.ndarray:
+    """For each reading, how many readings from it on continue its seq one by one (itself included)."""
+    n = len(s)
+    ends = np.append(np.flatnonzero(np.diff(s) != 1), n - 1)      # the last index of each run
+    first_end = ends[np.searchsorted(ends, np.arange(n), side="left")]
+    result: np.ndarray = first_end - np.arange(n) + 1
+    return result
+
+
 def find_restart(seq: np.ndarray | None, state: SeqTimeState) -> int | None:
-    """Index of the first reading that starts a restarted sequence, or None."""
+    """Index of the first reading that starts a restarted sequence, or None: a fall back to 0, or an
+    implausible jump (forward or back) confirmed by CONFIRM consecutive readings, counting a run
+    that began in an earlier batch (``state.pending``)."""
     if seq is None or len(seq) == 0 or state.last_seq is None:
         return None
     s = seq.astype(np.int64, copy=False)
-    before = _before(s, state.last_seq)
-    hit = (s < before) & ((s == 0) | (before - s > RESTART_GAP))
+    before, jump = _plausible(s, state.last_seq)
+    runs = _run_lengths(s)
+    if state.pending is not None and int(s[0]) == state.pending[0] + 1:
+        runs = runs.copy()
+        runs[0] += state.pending[1]
+        jump = jump.copy()
+        jump[0] = True
+    hit = ((s < before) & (s == 0)) | (jump & (runs >= CONFIRM))
     idx = np.flatnonzero(hit)
     return int(idx[0]) if len(idx) else None
 
@@ -143,16 +191,44 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
         s = seq.astype(np.int64, copy=False)
         # the first seq ever seen sets the baseline: nothing before it counts as lost
         start = state.last_seq if state.last_seq is not None else int(s[0]) - 1
-        before = _before(s, start)
+        before, jump = _plausible(s, start)
+        _set(code, jump & (s > before), reasons, "seq_jump")
         _set(code, s < before, reasons, "seq_backwards")
         _set(code, s == before, reasons, "seq_duplicate")
-        fresh = s > before
+        fresh = (s > before) & ~jump
         gaps = s[fresh] - before[fresh] - 1
+        # a refused implausible reading whose seq is one bit away from one of the next expected ones is
+        # that reading, garbled: it stands for one missing position of the gap it sits in (received, so
+        # not lost); any other implausible reading is an extra one and fills nothing
+        garbled = np.zeros(n, dtype=bool)
+        if jump.any():
+            for m in range(1, _NEAR + 1):
+                flipped = s ^ (before + m)
+                garbled |= (flipped > 0) & ((flipped & (flipped - 1)) == 0)
+            garbled &= jump
+        taken = np.cumsum(garbled)[fresh]
+        between = np.diff(np.concatenate(([0], taken)))
+        if len(between):
+            between[0] += state.floating
+            state.floating = int(garbled.sum() - taken[-1])
+        else:
+            state.floating += int(garbled.sum())
+        gaps = gaps - np.minimum(gaps, between)
         lost = int(gaps.sum())
         if lost:
             where = gaps > 0
             gap_lo, gap_hi = before[fresh][where], s[fresh][where]
-        state.last_seq = int(max(int(s.max()), start))
+        plausible = s[~jump]
+        state.last_seq = int(max(int(plausible.max()), start)) if len(plausible) else start
+        # an implausible run reaching the end of the batch waits for the next one to confirm it
+        previous, state.pending = state.pending, None
+        if jump[-1]:
+            breaks = np.flatnonzero(np.diff(s) != 1)
+            run_start = int(breaks[-1]) + 1 if len(breaks) else 0
+            length = n - run_start
+            if run_start == 0 and previous is not None and int(s[0]) == previous[0] + 1:
+                length += previous[1]
+            state.pending = (int(s[-1]), length)
     tf = np.isfinite(t)
     # only readings that passed every other check set the time reference, so a
     # refused reading with a wild time cannot block the ones after it

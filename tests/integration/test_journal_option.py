@@ -143,7 +143,6 @@ def test_operator_acknowledge_reaches_the_journal(tmp_path: Path) -> None:
     outputs = build_outputs(config, source_name=source.name, journal=str(journal))
     kept = _Kept()
     session = Session(source, config, [kept, *outputs.sinks], engine=make_engine(config), live=True)
-    outputs.bind(session)
     try:
         _raise_an_alarm(session, kept)
         acked = session.acknowledge(None)
@@ -170,7 +169,6 @@ def test_write_failure_mid_run_is_counted_and_said_on_stderr_and_the_run_goes_on
     journal = outputs.sinks[0]
     kept = _Kept()
     session = Session(source, config, [kept, *outputs.sinks], engine=make_engine(config), live=True)
-    outputs.bind(session)
     try:
         _raise_an_alarm(session, kept)
     finally:

@@ -78,8 +78,7 @@ async def test_a_real_recorder_behind_a_real_session(tmp_path: Path, fixed_setti
     config = demo_config()
     outputs = build_outputs(config, source_name="sim:demo", record=str(tmp_path / "shots"))
     session = Session(open_source("sim:demo?seed=3&speed=max&loop=0", config), config, outputs.sinks,
-                      engine=make_engine(config), live=True)
-    outputs.bind(session)
+                      engine=make_engine(config), live=True, recorder=outputs.recorder)
     try:
         step_until(session, lambda: outputs.recorder_status().rows_written > 0)
         snap = session.snapshot()
