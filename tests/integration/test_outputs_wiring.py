@@ -84,22 +84,31 @@ class _Kept:
         self.events.append(event)
 
 
-def test_recorder_events_before_the_session_attaches_are_delivered_in_order() -> None:
+def test_a_recorder_problem_from_before_the_run_is_raised_at_its_first_step(tmp_path: Path) -> None:
+    """The recorder only reports its health; the session raises it as the engine's recorder:write
+    alarm, so a problem the recorder had before the session existed is not lost."""
+    import shutil
+
     from monitor.config import load_config
-    from monitor.outputs import Outputs
-    from monitor.session import Session
+    from monitor.recording import Recorder, RecordingOptions
+    from monitor.session import Session, make_engine
     from monitor.sources import open_source
 
     config = load_config(None)
-    out = Outputs()
-    out.relay(_event(1))                 # raised while the session was still being built
-    out.relay(_event(2))
+    rec = Recorder(tmp_path / "rec", config, source_name="s", options=RecordingOptions(split="none"))
+    shutil.rmtree(tmp_path / "rec")
+    (tmp_path / "rec").write_text("a file where the directory was")      # no shot file can be opened
     kept = _Kept()
-    session = Session(open_source("sim:steady?speed=max&duration=1", config), config, [kept])
-    out.bind(session)
-    out.relay(_event(3))                 # and one during the run
-    assert [e.message for e in kept.events] == ["write failure 1", "write failure 2", "write failure 3"]
-    assert session.summary()["alarm_events"] == 3
+    session = Session(open_source("sim:steady?speed=max&duration=1", config), config, [kept],
+                      engine=make_engine(config), recorder=rec, live=False)
+    try:
+        while session.step(0.05) and not [e for e in kept.events if e.alarm == "recorder:write"]:
+            pass
+    finally:
+        session.close()
+    raised = [e for e in kept.events if e.alarm == "recorder:write"]
+    assert raised and raised[0].state.value == "unacknowledged" and raised[0].kind == "quality"
+    assert "recorder:write" in session.summary()["alarms_active"]
 
 
 def test_unwritable_recording_directory_is_refused_with_its_name_and_reason(tmp_path: Path) -> None:
@@ -155,7 +164,7 @@ def test_write_failure_mid_run_is_an_alarm_in_the_output_and_exit_4(tmp_path: Pa
     rec = summary["recorder"]
     assert rec["complete"] is False and rec["dropped"] > 0
     assert rec["rows_written"] + rec["dropped"] + rec["outside_shots_not_recorded"] == summary["accepted"] == 5000
-    assert "regime: the recording is incomplete" in out.stderr
+    assert "regime watch: the recording is incomplete" in out.stderr
 
 
 def test_alarm_publisher_off_loopback_needs_the_opt_in(tmp_path: Path) -> None:

@@ -232,7 +232,8 @@ async def test_quit_while_recording_asks_first(tmp_path) -> None:
     from monitor.tui.screens.confirm_quit import ConfirmQuit
     config = demo_config()
     session, tap = demo_session("sim:steady?seed=1&speed=max&duration=5", config=config)
-    session.add_sink(Recorder(tmp_path, config, source_name=session.name))
+    session.recorder = Recorder(tmp_path, config, source_name=session.name)     # the run's recorder
+    session.add_sink(session.recorder)
     step_until(session, lambda: session.snapshot().recording is not None)
     app = _app(session, tap)
     try:
