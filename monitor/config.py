@@ -6,12 +6,16 @@ import math
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
 from monitor.channels import BASE_KEYS, ChannelMap, parse_channels
 from monitor.errors import ConfigError
 from monitor.model import Device
 from monitor.units import UnitError, parse_value
+
+if TYPE_CHECKING:
+    from monitor.alarms.envelope import AlarmOptions, LimitSpec
+    from monitor.recording_options import RecordingOptions
 
 __all__ = ["Config", "load_config", "parse_config", "PipelineOptions"]
 
@@ -71,9 +75,9 @@ class Config:
     max_age: float = 0.25
     max_age_by_key: Mapping[str, float] = field(default_factory=dict)
     channels: ChannelMap = field(default_factory=ChannelMap)
-    limits: tuple[Any, ...] = ()
-    alarms: Any = None
-    recording: Any = None
+    limits: tuple[LimitSpec, ...] = ()
+    alarms: AlarmOptions | None = None
+    recording: RecordingOptions | None = None
     pipeline: PipelineOptions = field(default_factory=PipelineOptions)
     curve_server_key: str | None = None
     curve_client_key: str | None = None
@@ -136,7 +140,6 @@ def parse_config(raw: Mapping[str, Any], path: str | Path | None) -> Config:
     limits_raw = raw.get("limit", [])
     if not isinstance(limits_raw, list) or not all(isinstance(x, Mapping) for x in limits_raw):
         raise ConfigError(path, "limit", "expected [[limit]] tables")
-    limits: tuple[Any, ...] = ()
     from monitor.alarms.envelope import parse_alarm_options, parse_limits
     from monitor.recording_options import parse_recording
 

@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING, Any
 from monitor.errors import UsageError
 
 if TYPE_CHECKING:
+    from monitor.config import Config
     from monitor.recording.recorder import Recorder, RecorderStatus
 
 __all__ = ["Outputs", "build_outputs", "publisher_endpoint"]
@@ -43,14 +44,14 @@ def _available(name: str) -> bool:
         return False
 
 
-def publisher_endpoint(alarm_pub: str, config: Any, allow_remote: bool = False) -> tuple[str, bool]:
+def publisher_endpoint(alarm_pub: str, config: Config, allow_remote: bool = False) -> tuple[str, bool]:
     """The endpoint the alarm publisher binds, and whether it may bind beyond loopback: asked for by
     ``allow_remote`` (``--allow-remote``) or by ``[sources] allow_remote = true`` in the config, the same
     opt-in that lets a ZeroMQ source connect off this machine. Raise UsageError for a non-loopback
     address without it."""
     from monitor.alarms.publisher import normalise_endpoint
 
-    remote = bool(allow_remote or getattr(config, "allow_remote", False))
+    remote = bool(allow_remote or config.allow_remote)
     return normalise_endpoint(alarm_pub, allow_remote=remote), remote
 
 
@@ -86,7 +87,7 @@ def _journal_sink(path: str, flag: str) -> Any:
         raise UsageError(f"{flag} {path}: cannot write the journal there: {reason}") from None
 
 
-def build_outputs(config: Any, *, source_name: str, record: str | None = None,
+def build_outputs(config: Config, *, source_name: str, record: str | None = None,
                   alarm_pub: str | None = None, config_directory: bool = True,
                   allow_remote: bool = False, journal: str | None = None) -> Outputs:
     """Alarm journal (``journal`` or ``[alarms] journal``), recorder (``record`` or ``[recording]
@@ -98,7 +99,7 @@ def build_outputs(config: Any, *, source_name: str, record: str | None = None,
     out = Outputs()
     journal_path, journal_flag = journal, "--journal"
     if journal_path is None and config_directory:
-        journal_path = getattr(getattr(config, "alarms", None), "journal", None)
+        journal_path = config.alarms.journal if config.alarms is not None else None
         journal_flag = "[alarms] journal"
     if journal_path:
         # first: nothing else is opened or bound when the journal is refused
@@ -106,7 +107,7 @@ def build_outputs(config: Any, *, source_name: str, record: str | None = None,
 
     directory, flag = record, "--record"
     if directory is None and config_directory:
-        directory = getattr(getattr(config, "recording", None), "directory", None)
+        directory = config.recording.directory if config.recording is not None else None
         flag = "[recording] directory"
     if directory:
         if not _available("monitor.recording"):
@@ -136,7 +137,7 @@ def build_outputs(config: Any, *, source_name: str, record: str | None = None,
             raise
     from monitor.alarms.hooks import hook_sink
 
-    hooks = hook_sink(getattr(config, "alarms", None))
+    hooks = hook_sink(config.alarms)
     if hooks is not None:
         out.sinks.append(hooks)
     return out

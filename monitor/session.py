@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 import threading
 import time
-from typing import Any, Callable, Iterable, Iterator, Literal, Mapping, Protocol, runtime_checkable
+from typing import Any, Callable, Iterable, Literal, Mapping, Protocol, runtime_checkable
 
 from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceStatus, TransientSourceError
 from adapters.batch import Rejection
@@ -18,7 +18,7 @@ from monitor.operator import (Acknowledge, Command, OutOfService, Pause, Reset, 
                               StepReplay, Unshelve)
 from monitor.pipeline import Pipeline
 from monitor.recording.recorder import Recorder
-from monitor.snapshot import ReplayPosition, Snapshot, Stats
+from monitor.snapshot import ReplayPosition, Snapshot
 from monitor.views import TRAIL_BASE, RunFacts, RunView
 
 __all__ = ["Session", "make_engine", "TRAIL_BASE", "ReplaySource", "RECORDER_ALARM"]
@@ -48,28 +48,6 @@ class ReplaySource(Protocol):
     def seek(self, t: float) -> str | None: ...
 
     def position(self) -> ReplayPosition | tuple[float, float, float | None, float | None, bool] | None: ...
-
-
-class _LazyStats(Mapping[str, Stats]):
-    """The rolling statistics of one source, computed only if the engine reads them."""
-
-    def __init__(self, pipeline: Pipeline, source: str) -> None:
-        self._pipeline, self._source = pipeline, source
-        self._stats: dict[str, Stats] | None = None
-
-    def _get(self) -> dict[str, Stats]:
-        if self._stats is None:
-            self._stats = self._pipeline.stats(self._source)
-        return self._stats
-
-    def __getitem__(self, key: str) -> Stats:
-        return self._get()[key]
-
-    def __iter__(self) -> Iterator[str]:
-        return iter(self._get())
-
-    def __len__(self) -> int:
-        return len(self._get())
 
 
 class Session:
@@ -289,7 +267,7 @@ class Session:
         if self.engine is not None:
             # gaps inside and before the frame are the engine's to judge (stale in data time)
             try:
-                events = self.engine.process(frame, _LazyStats(self.pipeline, frame.source))
+                events = self.engine.process(frame)
             except Exception as exc:  # noqa: BLE001 - a fault in the alarm engine is loud, not fatal
                 self._internal_error(f"alarm engine: {exc!r}")
                 return

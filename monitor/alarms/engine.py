@@ -5,7 +5,7 @@ from __future__ import annotations
 import threading
 import time as _time
 from dataclasses import dataclass, field, replace
-from typing import Any, Callable, Iterable, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Mapping
 
 import numpy as np
 
@@ -20,6 +20,9 @@ from monitor.alarms.states import AlarmCore
 from monitor.errors import UsageError
 from monitor.model import Frame, Stats
 from monitor.operator import UnknownAlarm
+
+if TYPE_CHECKING:
+    from monitor.config import Config
 
 __all__ = ["AlarmEngine"]
 
@@ -97,12 +100,10 @@ class AlarmEngine:
             self._limits.append(lim)
 
     @classmethod
-    def from_config(cls, config: Any, *, clock: Callable[[], float] = _time.time) -> "AlarmEngine":
+    def from_config(cls, config: Config, *, clock: Callable[[], float] = _time.time) -> "AlarmEngine":
         """From monitor.config.Config: its limits, alarm options, on_above and stale_after."""
-        options = next((x for x in (getattr(config, n, None) for n in ("alarms", "alarm_options", "options"))
-                        if isinstance(x, AlarmOptions)), None)
-        return cls(getattr(config, "limits", ()), options, on_above=getattr(config, "on_above", 1e15),
-                   stale_after=getattr(config, "stale_after", 2.0), clock=clock)
+        return cls(config.limits, config.alarms, on_above=config.on_above, stale_after=config.stale_after,
+                   clock=clock)
 
     def _add(self, core: AlarmCore) -> AlarmCore:
         if core.alarm in self._cores:
@@ -139,20 +140,16 @@ class AlarmEngine:
             return np.asarray(frame.discharge, dtype=bool)
         return self._detector.step(t, frame.values.get("ne"))
 
-    def process(self, frame: Frame, stats: Mapping[str, Stats] | None = None) -> list[AlarmEvent]:
-        """Evaluate one frame; returns its events in data-time order.
-
-        ``stats`` is accepted for the session's convenience; the predictive
-        warning fits its own slope on a fixed grid so that it does not depend
-        on where frames begin and end.
-        """
+    def process(self, frame: Frame) -> list[AlarmEvent]:
+        """Evaluate one frame; returns its events in data-time order. The predictive warning fits
+        its own slope on a fixed grid, so that nothing depends on where frames begin and end."""
         n = len(frame)
         if n == 0:
             return []
         if n > _BLOCK:     # the result does not depend on the chunking; blocks stay in the CPU cache
             events: list[AlarmEvent] = []
             for a in range(0, n, _BLOCK):
-                events += self.process(_slice(frame, a, a + _BLOCK), stats)
+                events += self.process(_slice(frame, a, a + _BLOCK))
             return events
         with self._lock, np.errstate(all="ignore"):
             t = np.asarray(frame.t, dtype=np.float64)

@@ -13,7 +13,7 @@ import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from typing import TYPE_CHECKING, Any, Callable, Mapping
 
 import numpy as np
 
@@ -28,6 +28,9 @@ from monitor.recording.history import PreTrigger
 from monitor.recording_options import RecordingOptions, parse_recording
 from monitor.recording.shots import ShotSplitter
 from monitor.recording.streams import Stream, journal_factory, limit_text, utc_stamp
+
+if TYPE_CHECKING:
+    from monitor.config import Config
 
 __all__ = ["Recorder", "RecorderStatus"]
 
@@ -65,7 +68,7 @@ class Recorder:
     A write that fails (disk full, directory gone) is kept and retried; ``status()`` turns loud,
     a line goes to stderr and ``dropped`` counts what the memory backlog could not hold."""
 
-    def __init__(self, directory: str | os.PathLike[str], config: Any, *, source_name: str,
+    def __init__(self, directory: str | os.PathLike[str], config: Config, *, source_name: str,
                  options: RecordingOptions | None = None, clock: Callable[[], float] = time.time,
                  on_problem: Callable[[str], None] | None = None) -> None:
         self.directory = Path(directory)
@@ -74,9 +77,8 @@ class Recorder:
         self.options = options or self._options_from(config)
         self._clock = clock
         self._on_problem = on_problem
-        self.on_above = float(getattr(config, "on_above", 1e15) or 1e15)
-        alarms = getattr(config, "alarms", None)
-        alarms = alarms if isinstance(alarms, AlarmOptions) else AlarmOptions()
+        self.on_above = float(config.on_above)
+        alarms = config.alarms if config.alarms is not None else AlarmOptions()
         self._splitter = ShotSplitter(self.on_above, self.options.post_trigger, self.options.split,
                                       deadband=alarms.discharge_deadband, delay=alarms.discharge_delay)
         self._journal_factory = journal_factory()
@@ -107,15 +109,12 @@ class Recorder:
 
     # -- set-up ----------------------------------------------------------------------------------------
     @staticmethod
-    def _options_from(config: Any) -> RecordingOptions:
-        rec = getattr(config, "recording", None)
-        if isinstance(rec, RecordingOptions):
-            return rec
-        if isinstance(rec, Mapping):
-            return parse_recording(rec, getattr(config, "path", None))
-        raw = getattr(config, "raw", None)
-        if isinstance(raw, Mapping) and isinstance(raw.get("recording"), Mapping):
-            return parse_recording(raw["recording"], getattr(config, "path", None))
+    def _options_from(config: Config) -> RecordingOptions:
+        if config.recording is not None:
+            return config.recording
+        table = config.raw.get("recording")
+        if isinstance(table, Mapping):
+            return parse_recording(table, config.path)
         return RecordingOptions()
 
     def _folder(self, wall: float) -> Path:
@@ -236,10 +235,9 @@ class Recorder:
 
     def _header(self, columns: tuple[str, ...], shot: int, wall: float, primed: int = 0) -> str:
         cfg = self.config
-        raw = getattr(cfg, "raw", None)
-        toml = dump_toml(raw) if isinstance(raw, Mapping) and raw else None
-        limits = [limit_text(spec) for spec in getattr(cfg, "limits", ()) or ()]
-        path = getattr(cfg, "path", None)
+        toml = dump_toml(cfg.raw) if cfg.raw else None
+        limits = [limit_text(spec) for spec in cfg.limits]
+        path = cfg.path
         return header_block(columns, shot=shot, start_wall=wall, source=self.source_name, on_above=self.on_above,
                             limits=limits, config_toml=toml, config_path=str(path) if path else None,
                             extra=[("split", self.options.split), ("pre_trigger", repr(self.options.pre_trigger)),
@@ -355,10 +353,7 @@ class Recorder:
         self._history.keep(np.asarray(frame.t[a:b]), cols, frame.seq[a:b] if frame.seq is not None else None)
 
     def _hold(self, key: str) -> float:
-        hold_for = getattr(self.config, "hold_for", None)
-        if callable(hold_for):
-            return float(hold_for(key))
-        return float(getattr(self.config, "max_age", 0.25))
+        return float(self.config.hold_for(key))
 
     # -- writing ---------------------------------------------------------------------------------------
     def _maybe_flush(self, force: bool) -> None:

@@ -58,7 +58,7 @@ def _journal(frames: list[Frame]) -> list[dict[str, Any]]:
     eng.shelve("te-band", None, 0.0)
     events: list[AlarmEvent] = []
     for f in frames:
-        events += eng.process(f, {})
+        events += eng.process(f)
     return [{k: v for k, v in e.to_json().items() if k != "wall"} for e in events]
 
 
@@ -96,7 +96,7 @@ def test_odd_frames_never_raise(data) -> None:
     valid = np.array(data.draw(st.lists(st.booleans(), min_size=n, max_size=n)), dtype=bool)
     eng = engine(LIMITS, OPTIONS, stale_after=0.5)
     f = frame(t, Te=te, ne=ne, debye_length=np.abs(te) * 1e-5, valid=valid, sigma={"Te": sig})
-    events = eng.process(f, {})
+    events = eng.process(f)
     events += eng.tick(float(np.nanmax(t)) + 5.0 if n else 5.0, "probe")
     for e in events:
         assert e.to_json()["type"] == "alarm"

@@ -21,7 +21,7 @@ def _step(levels: list[tuple[float, float]]) -> np.ndarray:
 
 def test_on_delay_raises_at_the_first_sample_after_the_delay() -> None:
     eng = engine([{"name": "hot", "quantity": "Te", "high": 5.0, "on_delay": 0.5}])
-    events = eng.process(frame(T, Te=_step([(0, 3.0), (2.0, 6.0), (4.0, 3.0)])), {})
+    events = eng.process(frame(T, Te=_step([(0, 3.0), (2.0, 6.0), (4.0, 3.0)])))
     assert summary(events, "hot") == [(0.0, "suppressed", "normal"), (2.5, "normal", "unacknowledged"),
                                       (4.0, "unacknowledged", "returned_unacknowledged")]
 

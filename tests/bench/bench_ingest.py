@@ -1,6 +1,6 @@
 """Ingest benchmark: publisher process -> adapter -> pipeline end, against a bare pyzmq loop; serial via a pty; RSS.
 
-Run: /work/venv/bin/python tests/bench/bench_ingest.py [--quick] [--rss-seconds S]
+Run: python tests/bench/bench_ingest.py [--quick] [--rss-seconds S]
 
 Sections, all measured side by side in this one run:
  1. transport floor vs our path: a publisher process sends pre-encoded messages

@@ -1,6 +1,6 @@
 """Throughput of the derived set: ours (numpy, with uncertainties) beside PlasmaPy, a pure-Python loop and a numpy floor.
 
-Run: /work/venv/bin/python tests/bench/bench_physics.py [--quick]
+Run: python tests/bench/bench_physics.py [--quick]
 Prints samples/s per batch size and the ratios; takes about a minute. A script, not a timed test.
 """
 

@@ -1,6 +1,6 @@
 """Pipeline benchmark (for tests/bench/): Pipeline.process and Session+alarm engine against derive() alone, side by side.
 
-Run: /work/venv/bin/python tests/bench/bench_pipeline.py [--readings N]
+Run: python tests/bench/bench_pipeline.py [--readings N]
 
 Prints readings/s for batches of 1, 100, 1,000, 10,000 and 100,000 readings
 (ne every reading, Te every 50th as its own sample, p0 and B constant): the

@@ -1,6 +1,6 @@
 """Benchmark: replay of a 1,000,000-row recording (derive, six limits) beside numpy.loadtxt; recording rate; RSS.
 
-Run: /work/venv/bin/python tests/bench/bench_replay.py [--rows N] [--big-rows N]
+Run: python tests/bench/bench_replay.py [--rows N] [--big-rows N]
 Prints ratios measured side by side in one run; no assertion is timed.
 """
 

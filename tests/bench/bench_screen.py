@@ -1,6 +1,6 @@
 """Benchmark of the screen: refreshes/s and CPU while a ZeroMQ publisher (own process) sends 100k readings/s; import-to-first-frame.
 
-Run: /work/venv/bin/python tests/bench/bench_screen.py [--seconds 8] [--rate 100000]
+Run: python tests/bench/bench_screen.py [--seconds 8] [--rate 100000]
 Prints, side by side in one run, the same ingestion without the screen and with the screen
 at 160x50: accepted and lost (by seq), the pipeline thread's CPU, the screen thread's CPU
 (its share of one core) and the refreshes per second achieved.
