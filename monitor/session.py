@@ -7,7 +7,7 @@ import threading
 import time
 from typing import Any, Callable, Iterable, Literal, Mapping, Protocol, runtime_checkable
 
-from adapters.base import FatalSourceError, LinkState, Polled, Source, SourceStatus, TransientSourceError
+from adapters.base import Polled, Source, SourceStatus
 from adapters.batch import Rejection
 from monitor.alarms.engine import AlarmEngine
 from monitor.alarms.events import AlarmEvent
@@ -18,12 +18,12 @@ from monitor.operator import (Acknowledge, Command, OutOfService, Pause, Reset, 
                               StepReplay, Unshelve)
 from monitor.pipeline import Pipeline
 from monitor.recording.recorder import Recorder
+from monitor.runner import SourceLink
 from monitor.snapshot import ReplayPosition, Snapshot
 from monitor.views import TRAIL_BASE, RunFacts, RunView
 
 __all__ = ["Session", "make_engine", "TRAIL_BASE", "ReplaySource", "RECORDER_ALARM"]
 
-_OPEN_BACKOFF = (0.2, 0.5, 1.0, 2.0, 5.0)
 RECORDER_ALARM = "recorder:write"       # the engine's alarm for the recorder's health
 Cause = Literal["seek", "clock", "publisher"]
 
@@ -82,12 +82,7 @@ class Session:
             self.bus.attach(sink)
         if recorder is not None and recorder not in self.bus.sinks:
             self.bus.attach(recorder)
-        self._status = SourceStatus(source.name, LinkState.CONNECTING)
-        self._opened = False
-        self._open_failures = 0
-        self._next_open = 0.0
-        self._ended = False
-        self.failure: str | None = None
+        self.link = SourceLink(source, self._status_changed)
         self._last_t: float | None = None
         self._first_t: float | None = None
         self._last_arrival: float | None = None
@@ -97,11 +92,15 @@ class Session:
     # -- life cycle ---------------------------------------------------------
     @property
     def name(self) -> str:
-        return self._status.name
+        return self.link.status.name
 
     @property
     def ended(self) -> bool:
-        return self._ended
+        return self.link.ended
+
+    @property
+    def failure(self) -> str | None:
+        return self.link.failure
 
     @property
     def sinks(self) -> list[object]:
@@ -121,20 +120,8 @@ class Session:
 
     def open(self) -> bool:
         """Open the source; a transient failure is a status and is retried by ``step``."""
-        try:
-            self.source.open()
-        except TransientSourceError as exc:
-            self._open_failures += 1
-            delay = _OPEN_BACKOFF[min(self._open_failures - 1, len(_OPEN_BACKOFF) - 1)]
-            self._next_open = time.monotonic() + delay
-            self._set_status(SourceStatus(self.name, LinkState.DISCONNECTED, str(exc), self._open_failures))
-            return False
-        except FatalSourceError as exc:
-            self._fail(str(exc))
-            return False
-        self._opened = True
-        self._set_status(self._source_status())
-        return True
+        with self._lock:
+            return self.link.open()
 
     def close(self) -> None:
         """Close the source and every sink (errors of one do not stop the others)."""
@@ -164,36 +151,18 @@ class Session:
             return self._step(timeout)
 
     def _step(self, timeout: float) -> bool:
-        if self._ended:
-            return False
-        if not self._opened:
-            if time.monotonic() < self._next_open:
-                time.sleep(min(timeout, max(0.0, self._next_open - time.monotonic())))
-                return True
-            if not self.open():
-                return not self._ended
-        try:
-            polled = self.source.poll(timeout)
-        except TransientSourceError as exc:
-            self._set_status(SourceStatus(self.name, LinkState.DISCONNECTED, str(exc)))
-            return True
-        except FatalSourceError as exc:
-            self._fail(str(exc))
-            return False
+        polled = self.link.poll(timeout)
+        if polled is None:
+            return not self.link.ended
         with self._lock:
             self._handle(polled)
-            status = polled.status if polled.status is not None else self._source_status()
-            self._set_status(status)
+            self.link.settle(polled)
             if self.engine is not None and self.live:
                 # before any data the wall clock stands in, so a source that never speaks goes stale
                 now = self.now()
                 self._dispatch(self.engine.tick(now if now is not None else self._wall(), self.name))
             self.check_conditions()
-            if status.state is LinkState.ENDED:
-                self._ended = True
-            elif status.state is LinkState.FAILED:
-                self._fail(status.message or "the source gave up")
-        return not self._ended
+        return not self.link.ended
 
     def run(self, duration: float | None = None, stop: threading.Event | None = None, *,
             on_interval: Callable[["Session"], None] | None = None, interval: float = 1.0,
@@ -288,26 +257,9 @@ class Session:
         for ev in events:
             self.bus.alarms.publish(ev)
 
-    def _source_status(self) -> SourceStatus:
-        try:
-            return self.source.status()
-        except Exception as exc:  # noqa: BLE001 - a broken status() is shown, not raised
-            return SourceStatus(self.name, LinkState.DISCONNECTED, f"status unavailable: {exc!r}")
-
-    def _set_status(self, status: SourceStatus) -> None:
+    def _status_changed(self, status: SourceStatus) -> None:
         with self._lock:
-            prev, self._status = self._status, status
-            # sinks hear of link changes; a connected source's chatty message is only kept
-            changed = status.state is not prev.state or (
-                status.state is not LinkState.CONNECTED and status.message != prev.message)
-            if changed or status.retries != prev.retries:
-                self.bus.statuses.publish(status)
-
-    def _fail(self, message: str) -> None:
-        with self._lock:
-            self.failure = message
-            self._ended = True
-            self._set_status(SourceStatus(self.name, LinkState.FAILED, message))
+            self.bus.statuses.publish(status)
 
     def _internal_error(self, text: str) -> None:
         self.internal_errors += 1
@@ -419,7 +371,7 @@ class Session:
 
     # -- views --------------------------------------------------------------
     def _facts(self) -> RunFacts:
-        return RunFacts(name=self.name, status=self._status, live=self.live, data_time=self._last_t,
+        return RunFacts(name=self.name, status=self.link.status, live=self.live, data_time=self._last_t,
                         first_time=self._first_t, wall_time=self._wall(), started=self._started,
                         failure=self.failure, sink_errors=self.bus.errors, internal_errors=self.internal_errors,
                         replay=self.replay_position(),
@@ -437,7 +389,7 @@ class Session:
 
     def status(self) -> SourceStatus:
         with self._lock:
-            return self._status
+            return self.link.status
 
     def latest(self) -> Mapping[str, tuple[float, float | None]]:
         with self._lock:

@@ -72,8 +72,10 @@ def test_accepted_rejected_and_lost_add_up_to_what_was_sent(plan) -> None:
         if kind == "huge":
             s = np.array([10**15 + seq])                   # an extra hostile reading
         elif kind == "flip":
-            seq += 1                                       # the next reading, its seq garbled
-            s = np.array([seq + 2**40])
+            # the next reading with its seq garbled, then a good one (flips on CONFIRM consecutive
+            # readings would be a stuck bit, read as a renumbering: test_a_confirmed_renumbering...)
+            s = np.array([seq + 1 + 2**40, seq + 2])
+            seq += 2
         elif kind == "low" and seq > 6000:
             s = np.array([seq - 5000])                     # an extra reading far back: refused
         else:
