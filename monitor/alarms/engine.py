@@ -16,7 +16,7 @@ from monitor.alarms.events import AlarmEvent, AlarmState, AlarmView, Priority
 from monitor.alarms.load import LoadTracker
 from monitor.alarms.predictive import SlopePredictor
 from monitor.alarms.quality import QualityWindow
-from monitor.alarms.states import AlarmCore
+from monitor.alarms.states import AlarmCore, finite_or_none
 from monitor.errors import UsageError
 from monitor.model import Frame, Stats
 from monitor.operator import UnknownAlarm
@@ -401,7 +401,8 @@ class AlarmEngine:
             return tuple(AlarmView(alarm=c.alarm, state=c.state, priority=c.priority, kind=c.kind,
                                    quantity=c.quantity, value=c.value, limit=c.limit, since=c.since,
                                    description=c.description, predicted_time=c.predicted_time,
-                                   latched=c.latched, shelved_until=c.shelved_until if c.shelved else None)
+                                   latched=c.latched, shelved_until=c.shelved_until if c.shelved else None,
+                                   trip_value=finite_or_none(c.trip_value))
                          for c in self._cores.values())
 
     def state(self, alarm: str) -> AlarmState:

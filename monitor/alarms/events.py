@@ -78,3 +78,4 @@ class AlarmView:
     predicted_time: float | None = None   # data time the limit is expected to be reached
     latched: bool = False
     shelved_until: float | None = None
+    trip_value: float | None = None       # the value that raised it (``value`` is the one at the last transition)

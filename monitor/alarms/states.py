@@ -9,12 +9,12 @@ from typing import Callable
 from monitor.alarms.detect import TIME_EPS
 from monitor.alarms.events import AlarmEvent, AlarmState, Priority
 
-__all__ = ["AlarmCore"]
+__all__ = ["AlarmCore", "finite_or_none"]
 
 _IN_ALARM = (AlarmState.UNACKNOWLEDGED, AlarmState.ACKNOWLEDGED)
 
 
-def _num(x: float | None) -> float | None:
+def finite_or_none(x: float | None) -> float | None:
     return None if x is None or not math.isfinite(x) else float(x)
 
 
@@ -52,6 +52,8 @@ class AlarmCore:
     predicted_time: float | None = None
     realarm_at: float | None = None
     activations: int = 0
+    trip_value: float | None = None        # the value that raised it last (kept after it returns)
+    active_before_set: bool = False
 
     def __post_init__(self) -> None:
         self.state = self.derive()
@@ -83,19 +85,22 @@ class AlarmCore:
         elif new not in _IN_ALARM:
             self.realarm_at = None
         return [AlarmEvent(time=float(t), wall=self.clock(), alarm=self.alarm, state=new, previous=prev,
-                           quantity=self.quantity, value=_num(self.value), limit=_num(self.limit),
+                           quantity=self.quantity, value=finite_or_none(self.value), limit=finite_or_none(self.limit),
                            priority=self.priority, kind=self.kind, action=action, message=message,
-                           predicted_time=_num(self.predicted_time))]
+                           predicted_time=finite_or_none(self.predicted_time))]
 
     # -- what the engine does -------------------------------------------------------------
 
     def set_active(self, flag: bool, t: float, value: float | None, limit: float | None) -> list[AlarmEvent]:
         """The process condition is raised (True) or has returned (False) at data time ``t``."""
+        self.active_before_set = self.active
         self.active = flag
         self.value = value
         if limit is not None:
             self.limit = limit
         if flag:
+            if not self.active_before_set:
+                self.trip_value = value
             self.acked = False
             if self.latch:
                 self.latched = True
