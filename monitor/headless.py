@@ -85,7 +85,7 @@ def status_record(snap: Snapshot) -> dict[str, Any]:
         "wall": snap.wall_time,
         "time": snap.data_time,
         "source": src.name if src else None,
-        "state": src.state.value if src else None,
+        "state": snap.source_states.get(src.name, src.state.value) if src else None,
         "message": src.message if src else "",
         "accepted": accepted,
         "rejected": dict(sorted(rejected.items())),

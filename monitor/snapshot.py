@@ -57,3 +57,6 @@ class Snapshot:
     chattering: tuple[str, ...] = ()
     recorder: Any = None                               # the recorder's RecorderStatus, when the run records
     discharge_known: bool = True                       # False: no density judged yet (discharge_on is a guess)
+    # the one state of each source, the same on the screen and in the headless lines: connected,
+    # stale (connected, but its data stopped: its stale alarm is up), connecting, disconnected, ended, failed
+    source_states: Mapping[str, str] = field(default_factory=dict)

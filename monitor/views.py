@@ -18,11 +18,20 @@ from monitor.pipeline.rolling import Trail
 from monitor.recording.recorder import RecorderStatus
 from monitor.snapshot import AlarmView, ReplayPosition, Snapshot
 
-__all__ = ["RunView", "RunFacts", "TRAIL_BASE", "ATTENTION", "EventCounts"]
+__all__ = ["RunView", "RunFacts", "TRAIL_BASE", "ATTENTION", "EventCounts", "source_state"]
 
 TRAIL_BASE: tuple[str, ...] = ("ne", "Te", "debye_length")
 # alarm states that want the operator's attention ("alarms_active" in the summary)
 ATTENTION = frozenset({"unacknowledged", "acknowledged", "returned_unacknowledged"})
+
+
+def source_state(status: SourceStatus, alarms: tuple[AlarmView, ...]) -> str:
+    """The one state a source is in, as the screen and the headless lines both say it: its link state,
+    except that a connected source whose data stopped (its ``:stale`` alarm active) is ``stale``."""
+    if status.state.value == "connected":
+        if any(v.alarm == f"{status.name}:stale" and v.active for v in alarms):
+            return "stale"
+    return status.state.value
 
 
 class EventCounts:
@@ -96,12 +105,14 @@ class RunView:
             alarms = tuple(engine.views())
             rate10, flood, chatter = engine.load()
         on = pipeline.discharge.on
+        state = source_state(facts.status, alarms)
         return Snapshot(
             data_time=facts.data_time, wall_time=facts.wall_time, latest=dict(self.latest),
             stats=pipeline.stats(facts.name) or pipeline.stats(),
             trail_t=trail_t, trail=trail, warnings=self.warnings,
             sources={facts.name: facts.status}, counts=pipeline.counts(), alarms=alarms,
-            discharge_on=bool(on), discharge_known=on is not None, live=facts.live, replay=facts.replay,
+            discharge_on=bool(on), discharge_known=on is not None, source_states={facts.name: state},
+            live=facts.live, replay=facts.replay,
             recording=None if facts.recorder is None else facts.recorder.file, recorder=facts.recorder,
             flood=bool(flood), alarm_rate_10min=int(rate10), chattering=tuple(chatter),
         )

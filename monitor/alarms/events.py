@@ -79,3 +79,4 @@ class AlarmView:
     latched: bool = False
     shelved_until: float | None = None
     trip_value: float | None = None       # the value that raised it (``value`` is the one at the last transition)
+    active: bool = False                  # its condition holds now (whatever the operator did with it)
