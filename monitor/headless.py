@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import datetime as _dt
 import json
 import math
 import signal
@@ -119,7 +120,11 @@ def human_status(snap: Snapshot) -> str:
     """One line for the operator's terminal."""
     rec = status_record(snap)
     parts = [f"[{rec['state'] or '?'}]"]
-    parts.append(f"t={rec['time']:.3f}" if rec["time"] is not None else "t=-- (no data yet)")
+    if rec["time"] is None:
+        parts.append("t=-- (no data yet)")
+    else:
+        clock = clock_time(rec["time"])
+        parts.append(clock if clock is not None else f"t={rec['time']:.3f} s")
     parts.append(f"{rec['rate']:.0f}/s")
     nrej = sum(rec["rejected"].values())
     parts.append(f"accepted {rec['accepted']} rejected {nrej} lost {rec['lost']}")
@@ -176,6 +181,14 @@ def human_summary(summary: Mapping[str, Any]) -> str:
     return "\n".join(lines)
 
 
+def clock_time(t: float) -> str | None:
+    """A data time that is epoch seconds (after 2001-09-09) as an ISO 8601 UTC clock time; None for a
+    data time counted from the start of a shot or an instrument's own zero."""
+    if not math.isfinite(t) or t < 1e9:
+        return None
+    return _dt.datetime.fromtimestamp(t, _dt.timezone.utc).isoformat(timespec="milliseconds").replace("+00:00", "Z")
+
+
 class HeadlessPrinter:
     """A sink printing alarm events and link changes as they come, and status lines when asked."""
 
@@ -184,6 +197,7 @@ class HeadlessPrinter:
         self.as_json = as_json
         self._lock = threading.Lock()
         self.lines = 0
+        self.first_time: float | None = None     # the run's first data time: alarm times are said from it
 
     def _write(self, text: str) -> None:
         with self._lock:
@@ -199,18 +213,26 @@ class HeadlessPrinter:
 
     # -- sink ---------------------------------------------------------------
     def on_frame(self, frame: Frame) -> None:
-        return None
+        if self.first_time is None and len(frame.t):
+            self.first_time = float(frame.t[0])
 
     def on_rejections(self, rejections: list[Rejection]) -> None:
         return None
 
     def on_alarm(self, event: AlarmEvent) -> None:
+        clock = clock_time(event.time)
+        since = None if self.first_time is None else event.time - self.first_time
         if self.as_json:
-            self._json(event.to_json())
+            # the journal's object, plus the data time as a clock time (data times that are epoch
+            # seconds) and as seconds into the run
+            self._json({**event.to_json(), "clock": clock, "run_time": since})
         else:
-            state = getattr(event.state, "value", event.state)
+            state = event.state.value
             what = f" by {event.action}" if event.action else ""
-            self._write(f"ALARM t={event.time:.3f} {event.alarm} -> {state}{what}  "
+            when = clock if clock is not None else f"t={event.time:.3f} s"
+            if since is not None:
+                when += f" (+{since:.3f} s)"
+            self._write(f"ALARM {when} {event.alarm} -> {state}{what}  "
                         f"{event.quantity or ''} {_num(event.value)} (limit {_num(event.limit)}) "
                         f"[{getattr(event.priority, 'value', event.priority)}] {event.message}".rstrip())
 

@@ -11,6 +11,7 @@ import numpy as np
 
 from adapters.base import LinkState, SourceStatus
 from monitor.alarms.events import AlarmEvent, AlarmState, Priority
+from monitor.model import Frame
 from monitor.headless import HeadlessPrinter, human_status, human_summary, jsonable, recorder_record, status_record
 from monitor.recording import RecorderStatus
 from monitor.snapshot import AlarmView, Snapshot, SourceCounts, Stats
@@ -63,7 +64,16 @@ def test_printer_writes_one_json_object_per_line() -> None:
     p.summary({"type": "summary", "accepted": 10, "rejected": {}, "lost": 0, "x": math.nan})
     recs = [json.loads(line) for line in out.getvalue().splitlines()]
     assert [r["type"] for r in recs] == ["alarm", "source", "status", "summary"]
-    assert recs[0] == json.loads(json.dumps(ev.to_json()))
+    # the journal's object, plus the data time as a clock time (null: t = 3 s is not epoch seconds)
+    # and as seconds into the run (null: no frame came before the event)
+    assert recs[0] == {**json.loads(json.dumps(ev.to_json())), "clock": None, "run_time": None}
+    p.on_frame(Frame("probe", np.array([1.7e9, 1.7e9 + 1]), {"ne": np.array([1e17, 1e17])}))
+    p.on_alarm(AlarmEvent(time=1.7e9 + 2.5, wall=1000.0, alarm="a", state=AlarmState.ACKNOWLEDGED,
+                          previous=AlarmState.UNACKNOWLEDGED, quantity="ne", value=2e17, limit=1.5e17,
+                          priority=Priority.HIGH))
+    late = json.loads(out.getvalue().splitlines()[-1])
+    # 1.7e9 s after 1970-01-01T00:00:00Z is 2023-11-14T22:13:20Z (UTC arithmetic, common practice)
+    assert late["clock"] == "2023-11-14T22:13:22.500Z" and late["run_time"] == 2.5
     assert recs[1]["state"] == "disconnected" and recs[1]["retries"] == 2
     assert recs[3]["x"] is None
 
