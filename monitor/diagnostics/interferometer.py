@@ -1,0 +1,292 @@
+"""Interferometer analysis as pure array functions: phase from I/Q, unwrapping across batches, phase <-> density, fringe-jump flags.
+
+Conventions: SI in and out; phases in radians; ``frequency`` is the probing
+wave's ordinary frequency in Hz; ``path_length`` is the chord length through
+the plasma (one pass) and ``passes`` the number of times the beam crosses it
+(2 for a double-pass set-up), so the optical path in the plasma is
+``passes * path_length``. The phase shift is the wave's phase lag behind the
+same path in vacuum, positive for a positive density.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from monitor.physics.constants import ELECTRON_MASS, ELEMENTARY_CHARGE, EPSILON_0, PI, SPEED_OF_LIGHT
+from monitor.physics.densities import cutoff_density
+
+__all__ = [
+    "CLASSICAL_ELECTRON_RADIUS", "EXACT_ABOVE", "REASONS", "REASON_CODES", "DensityEstimate", "PhaseReading",
+    "phase_from_iq", "unwrap", "phase_shift_linear", "line_integral_from_phase", "phase_shift_exact",
+    "density_from_phase_exact", "line_averaged_density", "line_density_from_phase_reading",
+    "fringe_events", "hold_doubt", "off_run_mean", "discharge_from_density",
+]
+
+# r_e = e^2 / (4 pi eps0 me c^2) = 2.8179403205e-15 m (CODATA 2022; checked against
+# scipy.constants' "classical electron radius" in the tests).
+CLASSICAL_ELECTRON_RADIUS = ELEMENTARY_CHARGE**2 / (4.0 * PI * EPSILON_0 * ELECTRON_MASS * SPEED_OF_LIGHT**2)
+
+# "auto" takes the exact cold-plasma form where the linear estimate reaches this fraction of the
+# cutoff density: below it the linear relation is within 1 % of the exact one (its relative error
+# is about n / (4 n_c)).
+EXACT_ABOVE = 0.04
+
+# reason codes of doubtful data (the stage's ``fringe_reason`` column); 0 = good
+REASONS: tuple[str, ...] = ("ok", "phase_step", "amplitude_drop", "near_cutoff", "no_zero")
+REASON_CODES: dict[str, int] = {name: code for code, name in enumerate(REASONS)}
+
+_TWO_PI = 2.0 * math.pi
+
+
+def phase_from_iq(i: ArrayLike, q: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """Wrapped phase atan2(Q, I) in (-pi, pi] (rad) and amplitude sqrt(I^2 + Q^2) (units of I and Q).
+
+    The amplitude is the signal-quality measure: it drops when the beam is
+    refracted away or the detector loses the signal (common practice).
+    """
+    i_a = np.asarray(i, dtype=np.float64)
+    q_a = np.asarray(q, dtype=np.float64)
+    return np.arctan2(q_a, i_a), np.hypot(i_a, q_a)
+
+
+def unwrap(phase: ArrayLike, previous_wrapped: float = math.nan, previous_unwrapped: float = math.nan, *,
+           accumulated: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """Continuous phase and the sample-to-sample steps, carrying the previous batch's last sample.
+
+    Unwrapping by continuity: each step phi_k - phi_{k-1} is taken into
+    [-pi, pi) (the same rule as ``numpy.unwrap``), and the continuous phase is
+    the previous batch's last continuous value plus the cumulative sum of the
+    steps. ``previous_*`` NaN: the first sample starts the run (step 0, value
+    kept). ``accumulated``: the input is already continuous; steps are plain
+    differences and the values are kept (a step over pi then stays visible).
+    Returns (continuous phase, steps), both in rad.
+    """
+    p = np.asarray(phase, dtype=np.float64)
+    steps = np.empty_like(p)
+    if len(p) == 0:
+        return p.copy(), steps
+    first_known = math.isfinite(previous_wrapped)
+    steps[0] = p[0] - previous_wrapped if first_known else 0.0
+    np.subtract(p[1:], p[:-1], out=steps[1:])
+    if accumulated:
+        return p.copy(), steps
+    steps += math.pi
+    np.mod(steps, _TWO_PI, out=steps)
+    steps -= math.pi
+    base = previous_unwrapped if first_known and math.isfinite(previous_unwrapped) else float(p[0]) - steps[0]
+    out = np.cumsum(steps)
+    out += base
+    return out, steps
+
+
+def phase_shift_linear(line_integral: ArrayLike, wavelength: float) -> np.ndarray:
+    """Phase shift far below cutoff, phi = r_e lambda integral(ne dl) (rad), for one pass.
+
+    ``line_integral`` in m^-2, ``wavelength`` in m. From the refractive index
+    N = sqrt(1 - ne/n_c) ~ 1 - ne/(2 n_c) for ne << n_c (Hutchinson,
+    Principles of Plasma Diagnostics, ch. 4); r_e the classical electron
+    radius (CODATA). Checked against scipy.constants in the tests.
+    """
+    return CLASSICAL_ELECTRON_RADIUS * wavelength * np.asarray(line_integral, dtype=np.float64)
+
+
+def line_integral_from_phase(phase: ArrayLike, wavelength: float, passes: int = 1) -> np.ndarray:
+    """Line-integrated density integral(ne dl) along the chord (m^-2): phi / (r_e lambda passes), far below cutoff."""
+    return np.asarray(phase, dtype=np.float64) / (CLASSICAL_ELECTRON_RADIUS * wavelength * passes)
+
+
+def phase_shift_exact(ne: ArrayLike, frequency: float, length: float) -> np.ndarray:
+    """Phase shift of a uniform slab, phi = (omega/c) L (1 - sqrt(1 - ne/n_c)) (rad); NaN above cutoff.
+
+    Cold unmagnetised plasma, ordinary wave, refractive index
+    N = sqrt(1 - omega_pe^2/omega^2) = sqrt(1 - ne/n_c) (NRL Plasma Formulary,
+    cutoff density n_c = eps0 me omega^2 / e^2). At ne = n_c the phase per
+    unit length is omega/c. ``length`` is the optical path in the plasma (m).
+    """
+    ratio = np.asarray(ne, dtype=np.float64) / cutoff_density(frequency)
+    with np.errstate(invalid="ignore"):
+        return (_TWO_PI * frequency / SPEED_OF_LIGHT) * length * (1.0 - np.sqrt(1.0 - ratio))
+
+
+def density_from_phase_exact(phase: ArrayLike, frequency: float, length: float) -> np.ndarray:
+    """Uniform density from the exact cold-plasma form: ne = n_c x (2 - x), x = phi c / (omega L) (m^-3).
+
+    The inverse of ``phase_shift_exact``; NaN where x > 1 (the wave would be cut off).
+    """
+    x = np.asarray(phase, dtype=np.float64) * (SPEED_OF_LIGHT / (_TWO_PI * frequency * length))
+    n = float(cutoff_density(frequency)) * x * (2.0 - x)
+    return np.where(x > 1.0, np.nan, n)
+
+
+@dataclass(frozen=True, eq=False)
+class DensityEstimate:
+    """Line-averaged density (m^-3) with its standard uncertainty, where the exact form was used, and n / n_c."""
+
+    density: np.ndarray
+    sigma: np.ndarray
+    exact: np.ndarray
+    cutoff_ratio: np.ndarray
+
+
+def line_averaged_density(phase: ArrayLike, frequency: float, path_length: float, passes: int = 1, *,
+                          phase_sigma: ArrayLike = 0.0, path_length_sigma: float = 0.0,
+                          method: str = "auto", exact_above: float = EXACT_ABOVE) -> DensityEstimate:
+    """Line-averaged density from the phase shift, with its standard uncertainty.
+
+    With x = phi c / (omega P L) (P passes of a chord L): far below cutoff
+    ne = 2 n_c x, the same as phi / (r_e lambda P L); the exact cold-plasma form
+    for a uniform chord gives ne = n_c x (2 - x). ``method``: ``"linear"``,
+    ``"exact"`` or ``"auto"`` (exact where the linear value reaches
+    ``exact_above`` n_c). Uncertainty by the first-order law of propagation
+    (GUM): sigma_n = |dn/dx| sqrt((sigma_phi / (k0 P L))^2 + (x sigma_L / L)^2),
+    dn/dx = 2 n_c (linear) or 2 n_c (1 - x) (exact). NaN beyond cutoff (x > 1).
+    """
+    k0l = _TWO_PI * frequency / SPEED_OF_LIGHT * passes * path_length
+    nc = float(cutoff_density(frequency))
+    x = np.asarray(phase, dtype=np.float64) * (1.0 / k0l)
+    n = x * (2.0 * nc)
+    if method == "linear":
+        exact = np.zeros(n.shape, dtype=bool)
+    elif method == "exact":
+        exact = np.ones(n.shape, dtype=bool)
+    elif method == "auto":
+        exact = x >= 0.5 * exact_above
+    else:
+        raise ValueError(f"method must be linear, exact or auto, got {method!r}")
+    sigma = np.hypot(np.asarray(phase_sigma, dtype=np.float64) * (1.0 / k0l), x * (path_length_sigma / path_length))
+    sigma *= 2.0 * nc
+    if exact.any():
+        g = np.where(exact, 1.0 - x, 1.0)
+        n *= np.where(exact, 1.0 - 0.5 * x, 1.0)
+        sigma *= np.abs(g)
+        beyond = exact & (x > 1.0)
+        n[beyond] = np.nan
+        sigma[beyond] = np.nan
+    return DensityEstimate(density=n, sigma=sigma, exact=exact, cutoff_ratio=n * (1.0 / nc))
+
+
+@dataclass(frozen=True)
+class PhaseReading:
+    """One phase reading turned into a density (``regime calc``): line-averaged ne, sigma, the method used."""
+
+    density: float          # m^-3, line-averaged
+    sigma: float            # m^-3
+    method: str             # "linear" or "exact"
+    line_integral: float    # m^-2, density times chord length
+    cutoff_density: float   # m^-3
+    cutoff_ratio: float
+
+
+def line_density_from_phase_reading(phase: float, frequency: float, path_length: float, passes: int = 1, *,
+                                    phase_sigma: float | None = None, path_length_sigma: float | None = None,
+                                    method: str = "auto", exact_above: float = EXACT_ABOVE) -> PhaseReading:
+    """One phase shift (rad) -> line-averaged density with uncertainty and the method chosen (see line_averaged_density)."""
+    if not (frequency > 0 and path_length > 0 and passes >= 1):
+        raise ValueError("frequency, path length and passes must be positive")
+    est = line_averaged_density(np.array([phase]), frequency, path_length, passes,
+                                phase_sigma=phase_sigma or 0.0, path_length_sigma=path_length_sigma or 0.0,
+                                method=method, exact_above=exact_above)
+    n = float(est.density[0])
+    return PhaseReading(density=n, sigma=float(est.sigma[0]), method="exact" if est.exact[0] else "linear",
+                        line_integral=n * path_length, cutoff_density=float(cutoff_density(frequency)),
+                        cutoff_ratio=float(est.cutoff_ratio[0]))
+
+
+def fringe_events(steps: np.ndarray, amplitude: np.ndarray | None, cutoff_ratio: np.ndarray, on: np.ndarray, *,
+                  jump_threshold: float, amplitude_min: float | np.ndarray = 0.0,
+                  cutoff_margin: float = 0.9) -> np.ndarray:
+    """Reason code per sample (int8, REASONS) of an event that makes the data doubtful; 0 = none.
+
+    On discharge-on samples only: a phase step over ``jump_threshold`` x pi
+    between samples (phase_step), an I/Q amplitude under ``amplitude_min``
+    (amplitude_drop), a density at ``cutoff_margin`` of the cutoff or beyond
+    (near_cutoff, NaN density counts). One code per sample, in that priority.
+    """
+    code = np.zeros(len(steps), dtype=np.int8)
+    with np.errstate(invalid="ignore"):
+        cut = ~(cutoff_ratio < cutoff_margin)
+        code[cut] = REASON_CODES["near_cutoff"]
+        if amplitude is not None:
+            code[amplitude < amplitude_min] = REASON_CODES["amplitude_drop"]
+        code[np.abs(steps) > jump_threshold * math.pi] = REASON_CODES["phase_step"]
+    code[~on] = 0
+    return code
+
+
+def hold_doubt(codes: np.ndarray, off: np.ndarray, carried: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """Doubtful data held from an event until the next discharge-off sample.
+
+    ``codes``: fringe_events' codes; ``off``: discharge-off samples (each
+    re-zeroes, so it clears the doubt unless it has an event itself);
+    ``carried``: the reason still in force from the previous batch (0 none).
+    Returns (reason per sample, the reason of the episode's first event, 0 where
+    good; episode starts as a bool array, one per lost fringe).
+    """
+    n = len(codes)
+    idx = np.arange(n)
+    ev = codes > 0
+    last_ev = np.maximum.accumulate(np.where(ev, idx, -1 if carried else -3))
+    last_off = np.maximum.accumulate(np.where(off, idx, -2))
+    doubt = last_ev >= last_off
+    prev = np.empty(n, dtype=bool)
+    if n:
+        prev[0] = bool(carried)
+        prev[1:] = doubt[:-1]
+    starts = doubt & ~prev
+    first = np.maximum.accumulate(np.where(starts, idx, -1))
+    reason = np.where(first >= 0, codes[np.maximum(first, 0)], carried).astype(np.int8)
+    reason[~doubt] = 0
+    return reason, starts
+
+
+def off_run_mean(x: np.ndarray, off: np.ndarray, continuing: bool, mean0: float,
+                 count0: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per sample, the mean of ``x`` over the current (or, on discharge-on samples, the last) off run.
+
+    An off run is a stretch of consecutive off samples; ``continuing`` says the
+    previous batch ended inside one whose mean and count so far are
+    ``mean0``/``count0`` (also what on samples get before this batch's first
+    off sample; NaN, 0 when there has been none). Returns (mean, count).
+    """
+    n = len(x)
+    idx = np.arange(n)
+    prev = np.empty(n, dtype=bool)
+    if n:
+        prev[0] = continuing
+        prev[1:] = off[:-1]
+    starts = off & ~prev
+    cs = np.cumsum(np.where(off, x, 0.0))
+    cn = np.cumsum(off)
+    r = np.maximum.accumulate(np.where(starts, idx, -1))
+    before = np.maximum(r - 1, 0)
+    fresh = r > 0
+    s = cs - np.where(fresh, cs[before], 0.0)
+    c = (cn - np.where(fresh, cn[before], 0)).astype(np.float64)
+    carry = r < 0
+    if count0 > 0:
+        s = s + np.where(carry, mean0 * count0, 0.0)
+        c = c + np.where(carry, float(count0), 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean_here = s / c
+    last_off = np.maximum.accumulate(np.where(off, idx, -1))
+    have = last_off >= 0
+    at = np.maximum(last_off, 0)
+    mean = np.where(have, mean_here[at], mean0)
+    count = np.where(have, c[at], float(count0))
+    return mean, count
+
+
+def discharge_from_density(density: np.ndarray, on_above: float, previous: bool, deadband: float = 0.9) -> np.ndarray:
+    """Discharge on/off per sample from the density with hysteresis: on above ``on_above``, off below
+    ``deadband * on_above``, unchanged between (and on NaN); ``previous`` is the state before the first sample."""
+    n = len(density)
+    idx = np.arange(n)
+    with np.errstate(invalid="ignore"):
+        up = density > on_above
+        down = density < deadband * on_above
+    last = np.maximum.accumulate(np.where(up | down, idx, -1))
+    return np.where(last >= 0, up[np.maximum(last, 0)], previous)
