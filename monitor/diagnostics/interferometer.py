@@ -243,41 +243,36 @@ def hold_doubt(codes: np.ndarray, off: np.ndarray, carried: int = 0) -> tuple[np
     return reason, starts
 
 
-def off_run_mean(x: np.ndarray, off: np.ndarray, continuing: bool, mean0: float,
-                 count0: int) -> tuple[np.ndarray, np.ndarray]:
-    """Per sample, the mean of ``x`` over the current (or, on discharge-on samples, the last) off run.
+def off_run_mean(x: np.ndarray, off: np.ndarray, tail: np.ndarray, mean0: float, count0: float,
+                 window: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per sample, the mean of ``x`` over the last ``window`` samples of the current off run, or, on
+    discharge-on samples, of the last one (frozen when the discharge came on).
 
-    An off run is a stretch of consecutive off samples; ``continuing`` says the
-    previous batch ended inside one whose mean and count so far are
-    ``mean0``/``count0`` (also what on samples get before this batch's first
-    off sample; NaN, 0 when there has been none). Returns (mean, count).
+    An off run is a stretch of consecutive off samples. ``tail``: the values of
+    the run the previous batch ended in (its last ``window`` at most; empty if
+    it ended on); ``mean0``/``count0``: what on samples get before this
+    batch's first off sample (NaN, 0 when there has been none). Returns (mean,
+    count of samples averaged, the tail to carry into the next batch).
     """
-    n = len(x)
-    idx = np.arange(n)
-    prev = np.empty(n, dtype=bool)
-    if n:
-        prev[0] = continuing
-        prev[1:] = off[:-1]
-    starts = off & ~prev
-    cs = np.cumsum(np.where(off, x, 0.0))
-    cn = np.cumsum(off)
-    r = np.maximum.accumulate(np.where(starts, idx, -1))
-    before = np.maximum(r - 1, 0)
-    fresh = r > 0
-    s = cs - np.where(fresh, cs[before], 0.0)
-    c = (cn - np.where(fresh, cn[before], 0)).astype(np.float64)
-    carry = r < 0
-    if count0 > 0:
-        s = s + np.where(carry, mean0 * count0, 0.0)
-        c = c + np.where(carry, float(count0), 0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean_here = s / c
-    last_off = np.maximum.accumulate(np.where(off, idx, -1))
+    n, m = len(x), len(tail)
+    xe = np.concatenate([tail, np.where(off, x, 0.0)])
+    offe = np.concatenate([np.ones(m, dtype=bool), off])
+    idx = np.arange(n + m)
+    prev = np.zeros(n + m, dtype=bool)
+    prev[1:] = offe[:-1]
+    run_start = np.maximum.accumulate(np.where(offe & ~prev, idx, 0))
+    cs = np.zeros(n + m + 1)
+    np.cumsum(xe, out=cs[1:])
+    lo = np.maximum(run_start, idx - (window - 1))
+    count_here = (idx + 1 - lo).astype(np.float64)
+    mean_here = (cs[idx + 1] - cs[lo]) / count_here
+    last_off = np.maximum.accumulate(np.where(offe, idx, -1))
     have = last_off >= 0
     at = np.maximum(last_off, 0)
-    mean = np.where(have, mean_here[at], mean0)
-    count = np.where(have, c[at], float(count0))
-    return mean, count
+    mean = np.where(have, mean_here[at], mean0)[m:]
+    count = np.where(have, count_here[at], count0)[m:]
+    new_tail = xe[max(int(run_start[-1]), n + m - window):].copy() if n and off[-1] else np.empty(0)
+    return mean, count, new_tail
 
 
 def discharge_from_density(density: np.ndarray, on_above: float, previous: bool, deadband: float = 0.9) -> np.ndarray:

@@ -18,7 +18,7 @@ __all__ = ["InterferometerConfig", "parse_interferometer", "interferometer_confi
 KEYS = frozenset({
     "frequency", "wavelength", "path_length", "path_length_sigma", "passes", "phase_sign", "reference",
     "jump_threshold", "amplitude_min", "cutoff_margin", "phase_sigma", "iq_noise", "method", "exact_above",
-    "phase_input", "discharge_column", "output", "on_doubt",
+    "phase_input", "discharge_column", "output", "on_doubt", "zero_samples",
 })
 
 _ANGLE = re.compile(r"^\s*(?P<num>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>rad|mrad|deg|°|)\s*$")
@@ -64,7 +64,9 @@ class InterferometerConfig:
     a float is a fixed phase offset (rad). ``amplitude_min`` is absolute (I/Q
     units) unless ``amplitude_relative``, then a fraction of the mean amplitude
     of the last discharge-off period. ``phase_sigma`` None: estimated from the
-    scatter of the off periods.
+    scatter of the off periods. ``zero_samples``: the zero (and the noise and
+    amplitude references) are means over at most this many of the latest
+    samples of an off period.
     """
 
     frequency: float
@@ -85,6 +87,7 @@ class InterferometerConfig:
     discharge_column: str | None = None
     output: str = "ne"
     withhold_doubtful: bool = False
+    zero_samples: int = 1000
 
     @property
     def wavelength(self) -> float:
@@ -150,6 +153,7 @@ def parse_interferometer(table: Mapping[str, Any], path: str | Path | None = Non
             if not isinstance(value, str) or not value.strip():
                 raise ConfigError(path, f"interferometer.{key}", f"expected a column name, got {value!r}")
             kwargs[key] = value.strip()
+    kwargs["zero_samples"] = _whole(table, "zero_samples", 1000, 1, 10_000_000, path)
     kwargs["withhold_doubtful"] = _choice(table, "on_doubt", ("keep", "withhold"), path) == "withhold"
     return InterferometerConfig(**kwargs)
 

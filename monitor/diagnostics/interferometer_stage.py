@@ -42,12 +42,14 @@ class _State:
     on: bool = False
     off_continuing: bool = False
     zero: float = math.nan
-    zero_count: int = 0
-    quiet_continuing: bool = False
+    zero_count: float = 0.0
+    zero_tail: np.ndarray = field(default_factory=lambda: np.empty(0))
     noise_ms: float = math.nan
-    noise_count: int = 0
+    noise_count: float = 0.0
+    noise_tail: np.ndarray = field(default_factory=lambda: np.empty(0))
     amp_ref: float = math.nan
-    amp_count: int = 0
+    amp_count: float = 0.0
+    amp_tail: np.ndarray = field(default_factory=lambda: np.empty(0))
     doubt: int = 0
     reason_now: int = 0
     samples: int = 0
@@ -125,13 +127,15 @@ class InterferometerStage:
             zero_count = np.full(n, math.inf)
         else:
             shift = float(u[0])
-            zero, zero_count = off_run_mean(u - shift, off, s.off_continuing, s.zero - shift, s.zero_count)
+            zero, zero_count, tail = off_run_mean(u - shift, off, s.zero_tail - shift, s.zero - shift,
+                                                  s.zero_count, cfg.zero_samples)
             zero += shift
+            s.zero_tail = tail + shift
         no_zero = np.isnan(zero)
         dphi = u - np.where(no_zero, s.first_unwrapped, zero)
         if cfg.phase_sign != 1.0:
             dphi *= cfg.phase_sign
-        sp, quiet = self._phase_sigma(batch, mask, every, steps, off, amp)
+        sp = self._phase_sigma(batch, mask, every, steps, off, amp)
         with np.errstate(divide="ignore"):
             sp = sp * np.where(zero_count > 0, np.sqrt(1.0 + 1.0 / zero_count), 1.0)   # the zero's own scatter
         est = line_averaged_density(dphi, cfg.frequency, cfg.path_length, cfg.passes, phase_sigma=sp,
@@ -140,7 +144,8 @@ class InterferometerStage:
         amin: float | np.ndarray = cfg.amplitude_min
         amp_ref = amp_count = None
         if amp is not None and cfg.amplitude_relative:
-            amp_ref, amp_count = off_run_mean(amp, off, s.off_continuing, s.amp_ref, s.amp_count)
+            amp_ref, amp_count, s.amp_tail = off_run_mean(amp, off, s.amp_tail, s.amp_ref, s.amp_count,
+                                                          cfg.zero_samples)
             amin = cfg.amplitude_min * amp_ref
         codes = fringe_events(steps, amp, est.cutoff_ratio, on, jump_threshold=cfg.jump_threshold,
                               amplitude_min=amin, cutoff_margin=cfg.cutoff_margin)
@@ -151,11 +156,11 @@ class InterferometerStage:
         jumps_run = s.jumps + np.cumsum(starts)
         # state for the next batch
         s.last_wrapped, s.last_unwrapped = float(wrapped[-1]), float(u[-1])
-        s.on, s.off_continuing, s.quiet_continuing = bool(on[-1]), bool(off[-1]), bool(quiet[-1])
+        s.on, s.off_continuing = bool(on[-1]), bool(off[-1])
         if cfg.reference is None:
-            s.zero, s.zero_count = float(zero[-1]), int(zero_count[-1])
+            s.zero, s.zero_count = float(zero[-1]), float(zero_count[-1])
         if amp_ref is not None and amp_count is not None:
-            s.amp_ref, s.amp_count = float(amp_ref[-1]), int(amp_count[-1])
+            s.amp_ref, s.amp_count = float(amp_ref[-1]), float(amp_count[-1])
         s.doubt, s.reason_now = int(reason[-1]), int(fringe_reason[-1])
         s.samples += n
         s.doubtful += n - int(np.count_nonzero(ok))
@@ -191,25 +196,25 @@ class InterferometerStage:
         return discharge_from_density(n_lin, self.on_above, s.on)
 
     def _phase_sigma(self, batch: Batch, mask: np.ndarray, every: bool, steps: np.ndarray, off: np.ndarray,
-                     amp: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
-        """Phase standard uncertainty per sample (rad) and the quiet (off, after off) samples.
+                     amp: np.ndarray | None) -> np.ndarray:
+        """Phase standard uncertainty per sample (rad).
 
         The configured ``phase_sigma``, else the white-noise estimate
-        sqrt(mean(step^2) / 2) over the quiet samples of the current or last off
-        period (the difference of two independent samples has twice the
+        sqrt(mean(step^2) / 2) over the quiet samples (off, after an off sample)
+        of the current or last off period (the difference of two independent samples has twice the
         variance; common practice); in quadrature with ``iq_noise / amplitude``
         and any per-sample sigma the source sent for ``phase``."""
         cfg, s = self.config, self._s
         n = len(steps)
-        quiet = off.copy()
-        if n:
-            quiet[0] &= s.off_continuing
-            quiet[1:] &= off[:-1]
         if cfg.phase_sigma is not None:
             sp = np.full(n, cfg.phase_sigma)
         else:
-            ms, mc = off_run_mean(steps * steps, quiet, s.quiet_continuing, s.noise_ms, s.noise_count)
-            s.noise_ms, s.noise_count = float(ms[-1]), int(mc[-1])
+            quiet = off.copy()
+            quiet[0] &= s.off_continuing
+            quiet[1:] &= off[:-1]
+            ms, mc, s.noise_tail = off_run_mean(steps * steps, quiet, s.noise_tail, s.noise_ms, s.noise_count,
+                                                cfg.zero_samples)
+            s.noise_ms, s.noise_count = float(ms[-1]), float(mc[-1])
             sp = np.sqrt(ms * 0.5)
         if amp is not None and cfg.iq_noise > 0:
             with np.errstate(divide="ignore"):
@@ -219,7 +224,7 @@ class InterferometerStage:
             g = np.asarray(given, np.float64)
             g = g if every else g[mask]
             sp = np.where(np.isfinite(g), np.hypot(sp, g), sp)
-        return sp, quiet
+        return sp
 
     def _emit(self, batch: Batch, mask: np.ndarray, every: bool, density: np.ndarray, sigma: np.ndarray,
               extra: dict[str, np.ndarray], ok: np.ndarray) -> Batch:
