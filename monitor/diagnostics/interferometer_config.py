@@ -18,7 +18,7 @@ __all__ = ["InterferometerConfig", "parse_interferometer", "interferometer_confi
 KEYS = frozenset({
     "frequency", "wavelength", "path_length", "path_length_sigma", "passes", "phase_sign", "reference",
     "jump_threshold", "amplitude_min", "cutoff_margin", "phase_sigma", "iq_noise", "method", "exact_above",
-    "phase_input", "discharge_column", "output", "on_doubt", "zero_samples",
+    "phase_input", "discharge_column", "output", "on_doubt", "zero_samples", "nonpositive",
 })
 
 _ANGLE = re.compile(r"^\s*(?P<num>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>rad|mrad|deg|°|)\s*$")
@@ -66,7 +66,9 @@ class InterferometerConfig:
     of the last discharge-off period. ``phase_sigma`` None: estimated from the
     scatter of the off periods. ``zero_samples``: the zero (and the noise and
     amplitude references) are means over at most this many of the latest
-    samples of an off period.
+    samples of an off period. ``floor_nonpositive``: a density at or below
+    zero (noise around the zero between discharges) is reported as
+    ``FLOOR`` m^-3, since the pipeline refuses a density that is not positive.
     """
 
     frequency: float
@@ -88,6 +90,7 @@ class InterferometerConfig:
     output: str = "ne"
     withhold_doubtful: bool = False
     zero_samples: int = 1000
+    floor_nonpositive: bool = True
 
     @property
     def wavelength(self) -> float:
@@ -154,6 +157,7 @@ def parse_interferometer(table: Mapping[str, Any], path: str | Path | None = Non
                 raise ConfigError(path, f"interferometer.{key}", f"expected a column name, got {value!r}")
             kwargs[key] = value.strip()
     kwargs["zero_samples"] = _whole(table, "zero_samples", 1000, 1, 10_000_000, path)
+    kwargs["floor_nonpositive"] = _choice(table, "nonpositive", ("floor", "keep"), path) == "floor"
     kwargs["withhold_doubtful"] = _choice(table, "on_doubt", ("keep", "withhold"), path) == "withhold"
     return InterferometerConfig(**kwargs)
 

@@ -16,10 +16,14 @@ from monitor.diagnostics.interferometer_config import InterferometerConfig
 from monitor.physics.constants import SPEED_OF_LIGHT
 from monitor.physics.densities import cutoff_density
 
-__all__ = ["InterferometerStage", "StageCounts", "OUTPUT_COLUMNS"]
+__all__ = ["InterferometerStage", "StageCounts", "OUTPUT_COLUMNS", "FLOOR"]
 
 # columns the stage adds besides its output (``ne`` by default); NaN where a row carried no phase
-OUTPUT_COLUMNS = ("phase_shift", "fringe_ok", "fringe_reason", "fringe_jumps", "ne_exact", "iq_amplitude")
+OUTPUT_COLUMNS = ("phase_shift", "fringe_ok", "fringe_reason", "fringe_jumps", "ne_exact", "ne_floored",
+                  "iq_amplitude")
+# what a density at or below zero is reported as (``nonpositive = "floor"``): the pipeline refuses densities
+# that are not positive, and between discharges an interferometer reads zero within its noise
+FLOOR = 1.0         # m^-3
 
 
 @dataclass(frozen=True)
@@ -73,7 +77,8 @@ class InterferometerStage:
     Added columns: the output (``ne``, and its sigma), ``phase_shift`` (rad,
     against the zero), ``fringe_ok`` (1 good, 0 doubtful), ``fringe_reason``
     (code into ``REASONS``), ``fringe_jumps`` (running count), ``ne_exact``
-    (1 where the exact form was used) and, for I/Q input, ``iq_amplitude``. A
+    (1 where the exact form was used), ``ne_floored`` (1 where a density at
+    or below zero was reported as ``FLOOR``) and, for I/Q input, ``iq_amplitude``. A
     batch with neither phase nor I/Q passes through unchanged. The result does
     not depend on how the stream is cut into batches.
     """
@@ -229,6 +234,11 @@ class InterferometerStage:
     def _emit(self, batch: Batch, mask: np.ndarray, every: bool, density: np.ndarray, sigma: np.ndarray,
               extra: dict[str, np.ndarray], ok: np.ndarray) -> Batch:
         cfg = self.config
+        if cfg.floor_nonpositive:
+            low = density <= 0.0
+            extra["ne_floored"] = low.astype(np.float64)
+            if low.any():
+                density = np.where(low, FLOOR, density)
         if cfg.withhold_doubtful and not ok.all():
             density = np.where(ok, density, np.nan)
             sigma = np.where(ok, sigma, np.nan)

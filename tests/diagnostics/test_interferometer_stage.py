@@ -11,7 +11,7 @@ import scipy.constants as sc
 from adapters.batch import Batch
 from monitor.diagnostics.interferometer import REASON_CODES, phase_shift_exact, phase_shift_linear, unwrap
 from monitor.diagnostics.interferometer_config import InterferometerConfig
-from monitor.diagnostics.interferometer_stage import InterferometerStage
+from monitor.diagnostics.interferometer_stage import FLOOR, InterferometerStage
 from monitor.physics.densities import cutoff_density
 
 F, L, P = 100e9, 0.2, 2
@@ -21,7 +21,7 @@ RATE = 1000.0
 
 def config(**kw: object) -> InterferometerConfig:
     base: dict[str, object] = dict(frequency=F, path_length=L, passes=P, discharge_column="discharge",
-                                   method="linear", phase_sigma=0.01)
+                                   method="linear", phase_sigma=0.01, floor_nonpositive=False)
     base.update(kw)
     return InterferometerConfig(**base)  # type: ignore[arg-type]
 
@@ -227,3 +227,19 @@ def test_discharge_from_the_density_when_no_discharge_column_and_a_negative_phas
     np.testing.assert_allclose(out.columns["ne"][on], ne[on], atol=1e15)
     assert np.abs(out.columns["ne"][-100:]).max() < 1e15           # off again, and re-zeroed
     assert out.columns["fringe_ok"].min() == 1
+
+
+def test_densities_at_or_below_zero_are_floored_by_default_and_marked() -> None:
+    ne, phase, discharge = shot()
+    rng = np.random.default_rng(2)
+    noisy = phase + 0.01 * rng.standard_normal(len(phase))
+    b = batch({"phase": wrap(noisy), "discharge": discharge})
+    kept = InterferometerStage(config()).process(b)
+    floored = InterferometerStage(config(floor_nonpositive=True)).process(b)
+    low = kept.columns["ne"] <= 0
+    assert 100 < low.sum() < 600                                # about half of the off samples
+    np.testing.assert_array_equal(floored.columns["ne"][low], FLOOR)
+    np.testing.assert_array_equal(floored.columns["ne"][~low], kept.columns["ne"][~low])
+    np.testing.assert_array_equal(floored.columns["ne_floored"], low.astype(float))
+    np.testing.assert_array_equal(floored.sigma["ne"], kept.sigma["ne"])
+    assert "ne_floored" not in kept.columns
