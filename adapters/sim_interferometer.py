@@ -68,7 +68,8 @@ SCENARIO = InterferometerScenario()
 
 def _smooth(x: np.ndarray) -> np.ndarray:
     x = np.clip(x, 0.0, 1.0)
-    return x * x * (3.0 - 2.0 * x)
+    out: np.ndarray = x * x * (3.0 - 2.0 * x)
+    return out
 
 
 def density_at(s: np.ndarray, sc: InterferometerScenario = SCENARIO) -> np.ndarray:
@@ -77,7 +78,8 @@ def density_at(s: np.ndarray, sc: InterferometerScenario = SCENARIO) -> np.ndarr
     up = _smooth((s - sc.ramp_up[0]) / (sc.ramp_up[1] - sc.ramp_up[0]))
     down = 1.0 - _smooth((s - sc.ramp_down[0]) / (sc.ramp_down[1] - sc.ramp_down[0]))
     level = sc.steady + np.where(s >= sc.step_at, sc.step, 0.0)
-    return level * up * down
+    out: np.ndarray = level * up * down
+    return out
 
 
 def phase_of_density(n: np.ndarray, sc: InterferometerScenario = SCENARIO) -> np.ndarray:

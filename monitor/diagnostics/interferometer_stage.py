@@ -15,6 +15,7 @@ from monitor.diagnostics.interferometer import (
 from monitor.diagnostics.interferometer_config import InterferometerConfig
 from monitor.physics.constants import SPEED_OF_LIGHT
 from monitor.physics.densities import cutoff_density
+from monitor.physics.derive import _warm_allocator
 
 __all__ = ["InterferometerStage", "StageCounts", "OUTPUT_COLUMNS", "FLOOR"]
 
@@ -24,6 +25,9 @@ OUTPUT_COLUMNS = ("phase_shift", "fringe_ok", "fringe_reason", "fringe_jumps", "
 # what a density at or below zero is reported as (``nonpositive = "floor"``): the pipeline refuses densities
 # that are not positive, and between discharges an interferometer reads zero within its noise
 FLOOR = 1.0         # m^-3
+Rows = np.ndarray | slice
+_ALL: Rows = slice(None)  # the row selection when every row carries the phase
+_warm = [False]     # glibc's malloc thresholds raised once (monitor.physics.derive._warm_allocator)
 
 
 @dataclass(frozen=True)
@@ -108,16 +112,19 @@ class InterferometerStage:
         amp: np.ndarray | None = None
         if "I_q" in cols and "Q_q" in cols:
             i_all, q_all = np.asarray(cols["I_q"], np.float64), np.asarray(cols["Q_q"], np.float64)
-            mask = np.isfinite(i_all) & np.isfinite(q_all)
-            every = bool(mask.all())
+            every = math.isfinite(float(i_all.sum()) + float(q_all.sum()))    # one pass when all are there
+            mask: Rows = _ALL if every else np.isfinite(i_all) & np.isfinite(q_all)
             wrapped, amp = phase_from_iq(i_all if every else i_all[mask], q_all if every else q_all[mask])
         elif "phase" in cols:
             p_all = np.asarray(cols["phase"], np.float64)
-            mask = np.isfinite(p_all)
-            every = bool(mask.all())
+            every = math.isfinite(float(p_all.sum()))
+            mask = _ALL if every else np.isfinite(p_all)
             wrapped = p_all if every else p_all[mask]
         else:
             return batch
+        if not _warm[0] and len(wrapped) >= 256:
+            _warm_allocator()
+            _warm[0] = True
         if len(wrapped) == 0:
             return batch
         cfg, s = self.config, self._s
@@ -137,12 +144,18 @@ class InterferometerStage:
             zero += shift
             s.zero_tail = tail + shift
         no_zero = np.isnan(zero)
-        dphi = u - np.where(no_zero, s.first_unwrapped, zero)
+        any_no_zero = bool(no_zero.any())
+        dphi = u - (np.where(no_zero, s.first_unwrapped, zero) if any_no_zero else zero)
         if cfg.phase_sign != 1.0:
             dphi *= cfg.phase_sign
         sp = self._phase_sigma(batch, mask, every, steps, off, amp)
-        with np.errstate(divide="ignore"):
-            sp = sp * np.where(zero_count > 0, np.sqrt(1.0 + 1.0 / zero_count), 1.0)   # the zero's own scatter
+        # the zero's own scatter: sigma_phi / sqrt(count) in quadrature (one number when the count is)
+        if not off.any():                            # all on: the count is the last off period's, one number
+            c = float(zero_count[0])
+            sp = sp * (math.sqrt(1.0 + 1.0 / c) if c > 0 else 1.0)
+        else:
+            with np.errstate(divide="ignore"):
+                sp = sp * np.where(zero_count > 0, np.sqrt(1.0 + 1.0 / zero_count), 1.0)
         est = line_averaged_density(dphi, cfg.frequency, cfg.path_length, cfg.passes, phase_sigma=sp,
                                     path_length_sigma=cfg.path_length_sigma, method=cfg.method,
                                     exact_above=cfg.exact_above)
@@ -156,9 +169,9 @@ class InterferometerStage:
                               amplitude_min=amin, cutoff_margin=cfg.cutoff_margin)
         clears = off if cfg.reference is None else np.zeros(n, dtype=bool)
         reason, starts = hold_doubt(codes, clears, s.doubt)
-        fringe_reason = np.where(no_zero & (reason == 0), REASON_CODES["no_zero"], reason)
+        fringe_reason = np.where(no_zero & (reason == 0), REASON_CODES["no_zero"], reason) if any_no_zero else reason
         ok = fringe_reason == 0
-        jumps_run = s.jumps + np.cumsum(starts)
+        jumps_run = s.jumps + np.cumsum(starts) if starts.any() else np.full(n, s.jumps)
         # state for the next batch
         s.last_wrapped, s.last_unwrapped = float(wrapped[-1]), float(u[-1])
         s.on, s.off_continuing = bool(on[-1]), bool(off[-1])
@@ -181,7 +194,7 @@ class InterferometerStage:
             "fringe_jumps": jumps_run.astype(np.float64), "ne_exact": est.exact.astype(np.float64),
             **({"iq_amplitude": amp} if amp is not None else {})}, ok)
 
-    def _discharge(self, batch: Batch, mask: np.ndarray, every: bool, u: np.ndarray) -> np.ndarray:
+    def _discharge(self, batch: Batch, mask: Rows, every: bool, u: np.ndarray) -> np.ndarray:
         cfg, s = self.config, self._s
         n = len(u)
         name = cfg.discharge_column
@@ -191,6 +204,8 @@ class InterferometerStage:
                 return np.full(n, s.on)
             d = np.asarray(col, np.float64)
             d = d if every else d[mask]
+            if math.isfinite(float(d.sum())):
+                return d > 0.5
             known = np.isfinite(d)
             idx = np.arange(n)
             last = np.maximum.accumulate(np.where(known, idx, -1))
@@ -200,7 +215,7 @@ class InterferometerStage:
         n_lin = (u - zero0) * (cfg.phase_sign * 2.0 * self._nc / self._k0l)
         return discharge_from_density(n_lin, self.on_above, s.on)
 
-    def _phase_sigma(self, batch: Batch, mask: np.ndarray, every: bool, steps: np.ndarray, off: np.ndarray,
+    def _phase_sigma(self, batch: Batch, mask: Rows, every: bool, steps: np.ndarray, off: np.ndarray,
                      amp: np.ndarray | None) -> np.ndarray:
         """Phase standard uncertainty per sample (rad).
 
@@ -231,7 +246,7 @@ class InterferometerStage:
             sp = np.where(np.isfinite(g), np.hypot(sp, g), sp)
         return sp
 
-    def _emit(self, batch: Batch, mask: np.ndarray, every: bool, density: np.ndarray, sigma: np.ndarray,
+    def _emit(self, batch: Batch, mask: Rows, every: bool, density: np.ndarray, sigma: np.ndarray,
               extra: dict[str, np.ndarray], ok: np.ndarray) -> Batch:
         cfg = self.config
         if cfg.floor_nonpositive:
@@ -248,7 +263,7 @@ class InterferometerStage:
         def spread(values: np.ndarray) -> np.ndarray:
             if every:
                 return values
-            out = np.full(len(mask), np.nan)
+            out = np.full(len(batch.t), np.nan)
             out[mask] = values
             return out
 

@@ -9,7 +9,7 @@ import pytest
 import scipy.constants as sc
 
 from adapters.batch import Batch
-from monitor.diagnostics.interferometer import REASON_CODES, phase_shift_exact, phase_shift_linear, unwrap
+from monitor.diagnostics.interferometer import REASON_CODES, off_run_mean, phase_shift_exact, phase_shift_linear, unwrap
 from monitor.diagnostics.interferometer_config import InterferometerConfig
 from monitor.diagnostics.interferometer_stage import FLOOR, InterferometerStage
 from monitor.physics.densities import cutoff_density
@@ -243,3 +243,27 @@ def test_densities_at_or_below_zero_are_floored_by_default_and_marked() -> None:
     np.testing.assert_array_equal(floored.columns["ne_floored"], low.astype(float))
     np.testing.assert_array_equal(floored.sigma["ne"], kept.sigma["ne"])
     assert "ne_floored" not in kept.columns
+
+
+@pytest.mark.parametrize("window", [1, 7, 10_000])
+def test_off_run_mean_paths_agree_with_a_plain_loop(window: int) -> None:
+    rng = np.random.default_rng(window)
+    lengths = rng.integers(1, 40, 200)
+    off = np.repeat(np.arange(200) % 2 == 0, lengths)
+    x = rng.normal(size=len(off))
+    # the definition, one sample at a time: the mean of the last `window` samples of the current off run,
+    # held through the on samples that follow
+    expected, run, held = np.empty(len(x)), [], math.nan
+    for k in range(len(x)):
+        if off[k]:
+            run = (run if k and off[k - 1] else []) + [x[k]]
+            held = float(np.mean(run[-window:]))
+        expected[k] = held
+    whole, _, _ = off_run_mean(x, off, np.empty(0), math.nan, 0.0, window)     # many changes: the array path
+    np.testing.assert_allclose(whole, expected, rtol=1e-9, atol=1e-12)
+    parts, tail, mean0, count0 = [], np.empty(0), math.nan, 0.0
+    for lo in range(0, len(x), 37):                                              # few changes: the stretch path
+        m, c, tail = off_run_mean(x[lo:lo + 37], off[lo:lo + 37], tail, mean0, count0, window)
+        mean0, count0 = float(m[-1]), float(c[-1])
+        parts.append(m)
+    np.testing.assert_allclose(np.concatenate(parts), expected, rtol=1e-9, atol=1e-12)
