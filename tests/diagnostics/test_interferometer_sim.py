@@ -85,3 +85,16 @@ def test_demo_file_is_what_its_script_writes(tmp_path: Path) -> None:
     shipped = ROOT / "replay_data" / "interferometer_iq.csv"
     assert (tmp_path / "demo.csv").read_bytes() == shipped.read_bytes()
     assert size < 300_000
+
+
+def test_a_large_batch_is_analysed_in_blocks_with_the_same_result() -> None:
+    b = sim.generate(seed=2, rate=40_000.0)                    # 200,000 samples, over the stage's block size
+    whole = InterferometerStage(simulator_config()).process(b)
+    stage = InterferometerStage(simulator_config())
+    parts = [stage.process(Batch(source=b.source, t=b.t[k:k + 9999], columns={c: v[k:k + 9999] for c, v in
+                                                                              b.columns.items()}))
+             for k in range(0, len(b), 9999)]
+    for key in ("ne", "fringe_ok", "fringe_jumps", "phase_shift"):
+        np.testing.assert_allclose(np.concatenate([p.columns[key] for p in parts]), whole.columns[key],
+                                   rtol=1e-9, atol=1e-9, err_msg=key)
+    assert whole.columns["fringe_jumps"][-1] == 1 and len(whole.columns["ne"]) == 200_000
