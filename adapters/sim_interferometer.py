@@ -9,7 +9,9 @@ down to 0.15 for 3 ms; hold at 4.2e18; smooth ramp down 3.5-4.0; off 4.0-5.0.
 The bench phase drifts by 0.05 rad/s throughout (what the discharge-off
 re-zero takes out). I and Q carry independent Gaussian noise of 0.01 on an
 amplitude of 1 (a phase noise of about 0.01 rad). The ``discharge`` column
-is 1 while the discharge is on (0.5-4.0 s), 0 otherwise.
+is 1 while the discharge is on (0.5-4.0 s), 0 otherwise. A Langmuir probe
+beside it gives ``Te`` at 20 Hz (NaN in the other rows): 0.5 eV off, rising
+with the density to 3.0 eV, 3 % noise, so the criteria have a temperature.
 
 ``generate_samples`` is a pure function of (seed, rate, sample range): the
 noise is indexed by sample number, so any cutting of the stream gives the
@@ -61,6 +63,10 @@ class InterferometerScenario:
     drift: float = 0.05             # rad/s of bench phase drift
     iq_noise: float = 0.01          # standard deviation of I and Q each (amplitude 1)
     offset: float = 0.4             # rad, the bench phase at t = 0
+    te_rate: float = 20.0           # Hz
+    te_off: float = 0.5             # eV
+    te_on: float = 3.0              # eV at the steady density and above
+    te_noise: float = 0.03          # relative
 
 
 SCENARIO = InterferometerScenario()
@@ -104,7 +110,7 @@ def _normals(seed: int, channel: int, k: np.ndarray) -> np.ndarray:
 
 def generate_samples(seed: int, rate: float, k0: int, k1: int, *, loop: bool = False,
                      sc: InterferometerScenario = SCENARIO, source: str = "sim:interferometer") -> Batch:
-    """Samples k0 .. k1-1 (sample k at time k/rate): columns ``I_q``, ``Q_q``, ``discharge``; seq = k."""
+    """Samples k0 .. k1-1 (sample k at time k/rate): columns ``I_q``, ``Q_q``, ``discharge``, ``Te``; seq = k."""
     if not (rate > 0 and math.isfinite(rate)):
         raise FatalSourceError(f"rate must be a positive number of samples per second, got {rate}")
     n_pass = int(round(sc.duration * rate))
@@ -118,7 +124,11 @@ def generate_samples(seed: int, rate: float, k0: int, k1: int, *, loop: bool = F
     i = amp * np.cos(phase) + sc.iq_noise * _normals(seed, 11, k)
     q = amp * np.sin(phase) + sc.iq_noise * _normals(seed, 12, k)
     on = ((s >= sc.on[0]) & (s < sc.on[1])).astype(np.float64)
-    return Batch(source=source, t=t, columns={"I_q": i, "Q_q": q, "discharge": on}, seq=k)
+    slot = np.floor(k * (sc.te_rate / rate))
+    new_slot = slot != np.floor((k - 1) * (sc.te_rate / rate))        # the first sample of each 20 Hz slot
+    te_level = sc.te_off + (sc.te_on - sc.te_off) * np.clip(density_at(s, sc) / sc.steady, 0.0, 1.0)
+    te = np.where(new_slot, te_level * (1.0 + sc.te_noise * _normals(seed, 13, k)), np.nan)
+    return Batch(source=source, t=t, columns={"I_q": i, "Q_q": q, "discharge": on, "Te": te}, seq=k)
 
 
 def generate(seed: int = 0, rate: float = 1000.0, t0: float = 0.0, t1: float | None = None,

@@ -20,10 +20,11 @@ SEED = 14
 def write(path: Path) -> int:
     """Write the demo file; returns its size in bytes."""
     b = generate(seed=SEED, rate=RATE)
-    assert b.seq is not None
-    cols = np.column_stack([b.t + T0, b.seq, b.columns["I_q"], b.columns["Q_q"], b.columns["discharge"]])
-    lines = ["t,seq,I_q,Q_q,discharge"]
-    lines += [f"{t:.3f},{int(k)},{i:.5f},{q:.5f},{int(d)}" for t, k, i, q, d in cols]
+    seq = b.seq if b.seq is not None else np.arange(len(b))
+    cols = np.column_stack([b.t + T0, seq, b.columns["I_q"], b.columns["Q_q"], b.columns["discharge"], b.columns["Te"]])
+    lines = ["t,seq,I_q,Q_q,discharge,Te"]
+    lines += [f"{t:.3f},{int(k)},{i:.5f},{q:.5f},{int(d)},{'nan' if np.isnan(te) else f'{te:.3f}'}"
+              for t, k, i, q, d, te in cols]
     path.write_text("\n".join(lines) + "\n", encoding="ascii")
     return path.stat().st_size
 
