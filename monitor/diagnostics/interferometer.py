@@ -292,13 +292,14 @@ def off_run_mean(x: np.ndarray, off: np.ndarray, tail: np.ndarray, mean0: float,
     edges = np.flatnonzero(off[1:] != off[:-1]) + 1 if n > 1 else np.empty(0, dtype=np.int64)
     if 0 < len(edges) <= _FEW_EDGES:
         # a few on/off changes (the usual case): each stretch through the one-value or one-run path
-        means, counts = [], []
-        for lo, hi in zip([0, *edges.tolist()], [*edges.tolist(), n]):
-            mean_i, count_i, tail = off_run_mean(x[lo:hi], off[lo:hi], tail, mean0, count0, window)
+        means: list[np.ndarray] = []
+        seen: list[np.ndarray] = []
+        for start, stop in zip([0, *edges.tolist()], [*edges.tolist(), n]):
+            mean_i, count_i, tail = off_run_mean(x[start:stop], off[start:stop], tail, mean0, count0, window)
             mean0, count0 = float(mean_i[-1]), float(count_i[-1])
             means.append(mean_i)
-            counts.append(count_i)
-        return np.concatenate(means), np.concatenate(counts), tail
+            seen.append(count_i)
+        return np.concatenate(means), np.concatenate(seen), tail
     if n and not off.any():                     # all on (the common case in a discharge): one value
         mean_t, count_t = _window_end(tail, window) if m else (mean0, count0)
         return np.full(n, mean_t), np.full(n, count_t), np.empty(0)

@@ -135,3 +135,26 @@ def test_phase_reading_for_calc() -> None:
     assert near.method == "exact" and near.cutoff_ratio == pytest.approx(0.75, rel=1e-9)
     with pytest.raises(ValueError):
         line_density_from_phase_reading(1.0, 0.0, 0.3)
+
+
+def test_calc_keys_give_the_line_averaged_density_and_refuse_what_is_missing() -> None:
+    from monitor.diagnostics.interferometer_calc import density_from_calc_keys, describe
+    from monitor.errors import UsageError
+
+    r = density_from_calc_keys({"phase": "2rad±0.02rad", "Lpath": "20cm±2mm", "passes": "2"}, 100e9, 1e8)
+    r_e = sc.physical_constants["classical electron radius"][0]          # CODATA via scipy.constants
+    n = 2.0 / (r_e * LAM * 2 * 0.2)
+    assert r.density == pytest.approx(n, rel=1e-9) and r.method == "linear"
+    assert r.sigma == pytest.approx(n * math.sqrt(0.01**2 + 0.01**2 + 1e-3**2), rel=1e-9)   # GUM, relative terms
+    assert "linear relation" in describe(r)
+    deg = density_from_calc_keys({"phase": "114.59deg", "Lpath": "0.2m", "passes": "2"}, 100e9)
+    assert deg.density == pytest.approx(n, rel=1e-4)
+    assert density_from_calc_keys({"phase": "2rad", "Lpath": "0.2m", "method": "exact"}, 100e9).method == "exact"
+    for texts, f, words in (({"phase": "2rad"}, 100e9, "Lpath"), ({"phase": "2rad", "Lpath": "0.2m"}, None, "f="),
+                            ({"Lpath": "0.2m"}, 100e9, "phase="), ({"phase": "2rad", "Lpath": "0.2m", "passes": "x"},
+                                                                  100e9, "passes"),
+                            ({"phase": "2 furlongs", "Lpath": "0.2m"}, 100e9, "angle"),
+                            ({"phase": "2rad", "Lpath": "0.2m", "method": "guess"}, 100e9, "method"),
+                            ({"phase": "900rad", "Lpath": "0.2m", "passes": "2"}, 100e9, "cutoff")):
+        with pytest.raises(UsageError, match=words):
+            density_from_calc_keys(texts, f)
