@@ -27,7 +27,8 @@ def density_from_calc_keys(texts: Mapping[str, str], frequency: float | None,
 
     The uncertainty combines those of the phase and the path length (see
     ``line_averaged_density``) and, when ``f`` carries one, n sigma_f / f in
-    quadrature (first order: n is proportional to f in the linear relation).
+    quadrature (first order: n is proportional to f in the linear relation);
+    NaN (unknown) when none of the three carries an uncertainty.
     """
     unknown = sorted(set(texts) - set(CALC_KEYS))
     if unknown:
@@ -54,11 +55,12 @@ def density_from_calc_keys(texts: Mapping[str, str], frequency: float | None,
         raise UsageError(f"phase={texts['phase']} is beyond what a wave at f={frequency:g} Hz can gain over "
                          f"{int(passes_text)} x {path:g} m: the density would be above its cutoff "
                          f"({reading.cutoff_density:.3g} m^-3)")
-    if frequency_sigma and reading.sigma == reading.sigma:
-        total = math.hypot(reading.sigma, reading.density * frequency_sigma / frequency)
-        reading = PhaseReading(reading.density, total, reading.method, reading.line_integral,
-                               reading.cutoff_density, reading.cutoff_ratio)
-    return reading
+    if phase_sigma is None and path_sigma is None and not frequency_sigma:
+        total = math.nan                       # no uncertainty stated: unknown, not zero
+    else:
+        total = math.hypot(reading.sigma, reading.density * (frequency_sigma or 0.0) / frequency)
+    return PhaseReading(reading.density, total, reading.method, reading.line_integral,
+                        reading.cutoff_density, reading.cutoff_ratio)
 
 
 def describe(reading: PhaseReading) -> str:
