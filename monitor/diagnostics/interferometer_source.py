@@ -70,6 +70,10 @@ class InterferometerSource:
 
     def _annotate(self, status: SourceStatus) -> SourceStatus:
         c = self.stage.counts
+        if self.internal_errors:
+            state = f"interferometer: {self.internal_errors} batch(es) not analysed (internal error, see rejections)"
+            return SourceStatus(status.name, status.state, f"{status.message}; {state}" if status.message else state,
+                                status.retries)
         if c.samples == 0:
             return status
         jumps = f"{c.fringe_jumps} fringe jump{'' if c.fringe_jumps == 1 else 's'}"

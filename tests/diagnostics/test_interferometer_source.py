@@ -16,7 +16,7 @@ from adapters.serial_line import SerialSource
 from adapters.sim_interferometer import SCENARIO, density_at
 from monitor.alarms.events import AlarmEvent
 from monitor.config import load_config
-from monitor.diagnostics.interferometer_config import interferometer_config
+from monitor.diagnostics.interferometer_config import InterferometerConfig, interferometer_config
 from monitor.diagnostics.interferometer_source import InterferometerSource, simulator_config
 from monitor.model import Frame
 from monitor.session import Session
@@ -168,3 +168,26 @@ def test_the_session_and_pipeline_take_the_density_and_derive_from_it() -> None:
     nrl_cutoff = (100e9 / 8.98e3) ** 2 * 1e6        # NRL Plasma Formulary: f_pe = 8.98e3 sqrt(ne/cm^-3) Hz
     np.testing.assert_allclose(ratio[steady], ne[steady] / nrl_cutoff, rtol=2e-3)
     assert np.isfinite(np.concatenate([f.sigma["ne"] for f in sink.frames])[steady]).all()
+
+
+def test_a_fault_in_the_stage_is_a_rejection_and_the_readings_go_on() -> None:
+    ic = interferometer_config(load_config(DEMO_CONFIG).raw)
+    assert ic is not None
+    broken = InterferometerConfig(**{**ic.__dict__, "method": "guess"})   # built in code, past the parser's check
+    src = InterferometerSource(CsvSource(DEMO, speed=None, batch_rows=2000), broken)
+    src.open()
+    rejections: list[Rejection] = []
+    batches: list[Batch] = []
+    try:
+        for _ in range(50):
+            polled = src.poll(0.05)
+            batches.extend(polled.batches)
+            rejections.extend(polled.rejections)
+            if polled.status is not None and polled.status.state is LinkState.ENDED:
+                break
+    finally:
+        src.close()
+    assert sum(len(b) for b in batches) == 5000 and all("ne" not in b.columns for b in batches)
+    assert len(rejections) == len(batches) == src.internal_errors
+    assert {r.reason for r in rejections} == {"internal_error"} and "method" in rejections[0].detail
+    assert "not analysed (internal error" in src.status().message
