@@ -267,3 +267,17 @@ def test_off_run_mean_paths_agree_with_a_plain_loop(window: int) -> None:
         mean0, count0 = float(m[-1]), float(c[-1])
         parts.append(m)
     np.testing.assert_allclose(np.concatenate(parts), expected, rtol=1e-9, atol=1e-12)
+
+
+def test_per_sample_phase_sigma_and_iq_noise_add_in_quadrature() -> None:
+    ne, phase, discharge = shot()
+    per_rad = 1 / (sc.physical_constants["classical electron radius"][0] * LAM * P * L)   # CODATA r_e
+    given = np.full(len(phase), 0.03)
+    b = Batch(source="test", t=np.arange(len(phase)) / RATE, columns={"phase": wrap(phase), "discharge": discharge},
+              sigma={"phase": given})
+    out = InterferometerStage(config(phase_sigma=0.04, reference=0.4)).process(b)
+    np.testing.assert_allclose(out.sigma["ne"], 0.05 * per_rad, rtol=1e-9)          # hypot(0.04, 0.03)
+    amp = 2.0
+    iq = batch({"I_q": amp * np.cos(phase), "Q_q": amp * np.sin(phase), "discharge": discharge})
+    out = InterferometerStage(config(phase_sigma=0.0, iq_noise=0.02, reference=0.4)).process(iq)
+    np.testing.assert_allclose(out.sigma["ne"], 0.01 * per_rad, rtol=1e-9)          # s / A (common practice)
