@@ -191,3 +191,43 @@ def test_a_fault_in_the_stage_is_a_rejection_and_the_readings_go_on() -> None:
     assert len(rejections) == len(batches) == src.internal_errors
     assert {r.reason for r in rejections} == {"internal_error"} and "method" in rejections[0].detail
     assert "not analysed (internal error" in src.status().message
+
+
+def test_wrapped_zeromq_binary_batches_over_loopback() -> None:
+    import zmq
+
+    from adapters.sim_interferometer import generate_samples
+    from adapters.zmq_stream import ZmqSource
+    from monitor.commands.simulate import encode_binary
+
+    ctx = zmq.Context()
+    pub = ctx.socket(zmq.XPUB)
+    pub.setsockopt(zmq.LINGER, 0)
+    pub.setsockopt(zmq.XPUB_VERBOSE, 1)
+    pub.bind("tcp://127.0.0.1:*")
+    endpoint = pub.getsockopt(zmq.LAST_ENDPOINT).decode()
+    src = InterferometerSource(ZmqSource(endpoint, context=ctx), simulator_config())
+    src.open()
+    batches: list[Batch] = []
+    try:
+        deadline = time.monotonic() + 5
+        while not (pub.poll(0, zmq.POLLIN) and pub.recv()[:1] == b"\x01"):      # the subscription arrived
+            batches.extend(src.poll(0.02).batches)
+            assert time.monotonic() < deadline, "no subscription"
+        b = generate_samples(1, 1000.0, 0, 5000)
+        for lo in range(0, 5000, 500):
+            part = Batch(source=b.source, t=b.t[lo:lo + 500], columns={k: v[lo:lo + 500] for k, v in b.columns.items()},
+                         seq=None if b.seq is None else b.seq[lo:lo + 500])
+            pub.send_multipart(encode_binary(part, fields=("I_q", "Q_q", "discharge", "Te")))
+        got, _ = drain(src, until_ended=False, want=5000, timeout=10)
+        batches.extend(got)
+    finally:
+        src.close()
+        pub.close()
+        ctx.term()
+    t = np.concatenate([x.t for x in batches])
+    ne = column(batches, "ne")
+    assert len(t) == 5000 and src.counts.fringe_jumps == 1
+    steady = (t > 1.6) & (t < 2.49)
+    np.testing.assert_allclose(ne[steady], density_at(t[steady]), rtol=0.03)
+    assert np.isnan(column(batches, "Te")).sum() == 5000 - 100                 # the 20 Hz Te rows came along
