@@ -289,17 +289,6 @@ def off_run_mean(x: np.ndarray, off: np.ndarray, tail: np.ndarray, mean0: float,
     count of samples averaged, the tail to carry into the next batch).
     """
     n, m = len(x), len(tail)
-    edges = np.flatnonzero(off[1:] != off[:-1]) + 1 if n > 1 else np.empty(0, dtype=np.int64)
-    if 0 < len(edges) <= _FEW_EDGES:
-        # a few on/off changes (the usual case): each stretch through the one-value or one-run path
-        means: list[np.ndarray] = []
-        seen: list[np.ndarray] = []
-        for start, stop in zip([0, *edges.tolist()], [*edges.tolist(), n]):
-            mean_i, count_i, tail = off_run_mean(x[start:stop], off[start:stop], tail, mean0, count0, window)
-            mean0, count0 = float(mean_i[-1]), float(count_i[-1])
-            means.append(mean_i)
-            seen.append(count_i)
-        return np.concatenate(means), np.concatenate(seen), tail
     if n and not off.any():                     # all on (the common case in a discharge): one value
         mean_t, count_t = _window_end(tail, window) if m else (mean0, count0)
         return np.full(n, mean_t), np.full(n, count_t), np.empty(0)
@@ -313,6 +302,17 @@ def off_run_mean(x: np.ndarray, off: np.ndarray, tail: np.ndarray, mean0: float,
         sums[head:] = cs[head + 1:] - cs[1:n + m + 1 - head]
         counts = np.minimum(np.arange(1, n + m + 1), window).astype(np.float64)
         return (sums / counts)[m:], counts[m:], xe[max(0, n + m - window):].copy()
+    edges = np.flatnonzero(off[1:] != off[:-1]) + 1 if n > 1 else np.empty(0, dtype=np.int64)
+    if 0 < len(edges) <= _FEW_EDGES:
+        # a few on/off changes (the usual case): each stretch through the one-value or one-run path
+        means: list[np.ndarray] = []
+        seen: list[np.ndarray] = []
+        for start, stop in zip([0, *edges.tolist()], [*edges.tolist(), n]):
+            mean_i, count_i, tail = off_run_mean(x[start:stop], off[start:stop], tail, mean0, count0, window)
+            mean0, count0 = float(mean_i[-1]), float(count_i[-1])
+            means.append(mean_i)
+            seen.append(count_i)
+        return np.concatenate(means), np.concatenate(seen), tail
     xe = np.concatenate([tail, np.where(off, x, 0.0)])
     offe = np.concatenate([np.ones(m, dtype=bool), off])
     idx = np.arange(n + m)
