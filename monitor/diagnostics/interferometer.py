@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -139,6 +140,11 @@ def density_from_phase_exact(phase: ArrayLike, frequency: float, length: float) 
     return np.where(x > 1.0, np.nan, n)
 
 
+@lru_cache(maxsize=16)
+def _cutoff(frequency: float) -> float:
+    return float(cutoff_density(frequency))
+
+
 @dataclass(frozen=True, eq=False)
 class DensityEstimate:
     """Line-averaged density (m^-3) with its standard uncertainty, where the exact form was used, and n / n_c."""
@@ -163,7 +169,7 @@ def line_averaged_density(phase: ArrayLike, frequency: float, path_length: float
     dn/dx = 2 n_c (linear) or 2 n_c (1 - x) (exact). NaN beyond cutoff (x > 1).
     """
     k0l = _TWO_PI * frequency / SPEED_OF_LIGHT * passes * path_length
-    nc = float(cutoff_density(frequency))
+    nc = _cutoff(frequency)
     x = np.asarray(phase, dtype=np.float64) * (1.0 / k0l)
     n = x * (2.0 * nc)
     if method == "linear":
