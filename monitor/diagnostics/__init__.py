@@ -1,0 +1,1 @@
+"""Raw diagnostic signals turned into readings."""
