@@ -1,0 +1,51 @@
+"""Running the per-shot summary on a Dask distributed cluster (an address, or "local" for a LocalCluster), rows streamed back as they finish."""
+
+from __future__ import annotations
+
+import os
+from typing import Iterator
+
+from monitor.archive.summary import Row, summarise
+from monitor.errors import UsageError
+
+__all__ = ["dask_rows", "local_cluster"]
+
+
+def _import_distributed() -> object:
+    try:
+        import distributed
+    except ImportError:
+        raise UsageError("--scheduler needs the `distributed` package: pip install 'regime[cluster]'") from None
+    return distributed
+
+
+def local_cluster(workers: int) -> object:
+    """A LocalCluster of ``workers`` single-threaded worker processes on the loopback interface, no dashboard."""
+    _import_distributed()
+    from distributed import LocalCluster
+
+    return LocalCluster(n_workers=max(1, workers), threads_per_worker=1, processes=True, host="127.0.0.1",
+                        dashboard_address=None, silence_logs=40)
+
+
+def dask_rows(paths: list[str], config_path: str | None, scheduler: str, workers: int) -> Iterator[Row]:
+    """``summarise(path, config_path)`` for each path on the cluster at ``scheduler`` ("local": a new
+    LocalCluster of ``workers`` processes, closed at the end). Paths (and the config file) must be
+    readable at the same path on every worker: the archive lives on a shared file system."""
+    _import_distributed()
+    from distributed import Client, as_completed
+
+    if not paths:
+        return
+    cluster = local_cluster(workers) if scheduler == "local" else None
+    try:
+        address = cluster if cluster is not None else scheduler
+        with Client(address, timeout="30s") as client:  # type: ignore[arg-type]
+            config = os.path.abspath(config_path) if config_path is not None else None
+            futures = client.map(summarise, paths, config_path=config, pure=False)
+            for fut in as_completed(futures):
+                yield fut.result()
+                fut.release()
+    finally:
+        if cluster is not None:
+            cluster.close()  # type: ignore[attr-defined]
