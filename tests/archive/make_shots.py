@@ -8,7 +8,7 @@ import numpy as np
 
 from monitor.recording.csvformat import RowFormatter, header_block
 
-T0 = 1798675200.0          # 2027-01-01T00:00:00Z, an invented campaign start
+T0 = 1798761600.0          # 2027-01-01T00:00:00Z, an invented campaign start
 
 ENVELOPE = """[device]
 length = "0.3m"
