@@ -7,7 +7,7 @@ import json
 import math
 import os
 import sys
-from typing import Sequence
+from typing import Mapping, Sequence
 
 from monitor.errors import EXIT_OK, UsageError
 
@@ -83,7 +83,7 @@ def _fmt(value: object) -> str:
     return str(value)
 
 
-def _print_table(rows: Sequence[dict[str, object]], columns: Sequence[str]) -> None:
+def _print_table(rows: Sequence[Mapping[str, object]], columns: Sequence[str]) -> None:
     cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
     print("  ".join(c.ljust(w) for c, w in zip(columns, widths)))
