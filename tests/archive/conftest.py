@@ -19,11 +19,12 @@ DEMO = ROOT / "replay_data"
 
 
 def settle(folder: Path, age: float = 120.0) -> None:
-    """Date every file back by ``age`` s, so that none looks still being recorded."""
-    old = time.time() - age
+    """Date the files written in the last minute back by ``age`` s, so that none looks still being
+    recorded (older files keep their time: a re-run must see them unchanged)."""
+    now = time.time()
     for f in folder.rglob("*"):
-        if f.is_file():
-            os.utime(f, (old, old))
+        if f.is_file() and f.stat().st_mtime > now - 60:
+            os.utime(f, (now - age, now - age))
 
 
 @pytest.fixture
