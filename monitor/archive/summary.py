@@ -20,7 +20,8 @@ from monitor.report.build import Collector, Report, _read_jsonl, _run, _verdicts
 from monitor.report.summary import LimitSummary, limit_summary, quantity_stats, sample_durations
 from monitor.recording.replaying import open_file, sibling
 
-__all__ = ["Value", "Row", "summarise", "ShotFacts", "shot_report", "envelope_time", "file_fingerprint", "content_hash", "config_fingerprint", "HASH_BYTES"]
+__all__ = ["Value", "Row", "summarise", "ShotFacts", "row_of", "shot_report", "envelope_time", "file_fingerprint",
+           "content_hash", "config_fingerprint", "HASH_BYTES"]
 
 Value = str | int | float | None
 Row = dict[str, Value]
@@ -221,11 +222,12 @@ def summarise(path: str, config_path: str | None = None) -> Row:
     except Exception as exc:            # a bad file is catalogued with its reason, never stops the build
         row.update(status="unreadable", damage=f"{type(exc).__name__}: {exc}")
         return row
-    row.update(_row_of(facts, config_path))
+    row.update(row_of(facts, config_path))
     return row
 
 
-def _row_of(facts: ShotFacts, config_path: str | None) -> Row:
+def row_of(facts: ShotFacts, config_path: str | None) -> Row:
+    """The summary columns of the row (not the file's fingerprint) from a shot's facts."""
     from monitor.recording.csvformat import read_info
 
     report, sigma = facts.report, facts.sigma
