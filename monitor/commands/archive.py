@@ -24,7 +24,8 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--where", metavar="E", help='select shots, e.g. "cutoff_ratio_max > 1 and duration > 10", '
                                                      '\'alarm("ne_high")\', "started >= 2026-11-30"')
     parser.add_argument("--json", action="store_true", help="one JSON object per shot")
-    parser.add_argument("--sort", metavar="C", help="sort by columns, comma-separated; -C for descending")
+    parser.add_argument("--sort", metavar="C", help="sort by columns, comma-separated; C:desc (or --sort=-C) "
+                                                    "for descending")
     parser.add_argument("--limit", metavar="N", type=int, help="at most N shots")
     parser.add_argument("--csv", metavar="OUT", help="write the selected shots as CSV to OUT")
     parser.add_argument("--workers", metavar="N", type=int, help="processes summarising shots (default: cores)")
@@ -44,7 +45,8 @@ def register(parser: argparse.ArgumentParser) -> None:
 
 
 def parse_sort(text: str | None) -> list[tuple[str, bool]]:
-    """``"-duration,shot"`` -> [("duration", True), ("shot", False)]; unknown columns are a UsageError."""
+    """``"-duration,shot"`` or ``"duration:desc,shot"`` -> [("duration", True), ("shot", False)];
+    unknown columns are a UsageError."""
     from monitor.archive.columns import column
 
     out: list[tuple[str, bool]] = []
@@ -52,8 +54,11 @@ def parse_sort(text: str | None) -> list[tuple[str, bool]]:
         part = part.strip()
         if not part:
             continue
-        desc = part.startswith("-")
-        name = part.lstrip("-+")
+        name, _, way = part.partition(":")
+        if way.strip().lower() not in ("", "asc", "desc"):
+            raise UsageError(f"--sort: {part!r}: after ':' write asc or desc")
+        desc = name.startswith("-") or way.strip().lower() == "desc"
+        name = name.strip().lstrip("-+")
         if column(name) is None:
             raise UsageError(f"--sort: no column {name!r} (`regime archive DIR --columns` lists them)")
         out.append((name, desc))
