@@ -161,7 +161,11 @@ def run(args: argparse.Namespace) -> int:
     elif sys.stdout.isatty() and sys.stdin.isatty() and not args.table:
         from monitor.tui.archive_app import run_browser
 
-        run_browser(directory, version or 0, args.where or "")
+        chosen = run_browser(directory, version or 0, args.where or "", args.config)
+        if chosen is not None and chosen[0] == "replay":
+            from monitor.cli import main
+
+            return main(["replay", chosen[1]] + (["--config", args.config] if args.config else []))
     else:
         _print_table(rows, TABLE_COLUMNS)
     return EXIT_OK
