@@ -12,7 +12,7 @@ from monitor.archive import catalogue
 from monitor.archive.columns import COLUMN_NAMES
 from monitor.archive.summary import Row, config_fingerprint, content_hash, summarise
 
-__all__ = ["Found", "BuildResult", "scan", "build", "in_progress_row", "SETTLE_S", "Progress"]
+__all__ = ["Found", "BuildResult", "Plan", "plan", "scan", "build", "in_progress_row", "SETTLE_S", "Progress"]
 
 SETTLE_S = 5.0                  # a file written to within this many seconds is still being recorded
 _EXPORT_HEAD = b"file,status,shot,"   # the first bytes of our own CSV export (never catalogued)
@@ -118,44 +118,94 @@ def _dask(paths: list[str], config_path: str | None, scheduler: str, workers: in
     yield from dask_rows(paths, config_path, scheduler, workers)
 
 
+@dataclass(frozen=True)
+class Plan:
+    """What a build has to do against what the catalogue holds."""
+
+    read: tuple[Found, ...]          # new or changed, to summarise
+    in_progress: tuple[Found, ...]   # being recorded: (re)listed as in progress
+    removed: tuple[str, ...]         # catalogued, gone from the folder
+    unchanged: int
+    listed_in_progress: int          # in progress now (listed before or not)
+
+    @property
+    def empty(self) -> bool:
+        return not (self.read or self.in_progress or self.removed)
+
+
+def plan(found: Iterable[Found], stored: dict[str, catalogue.Stored]) -> Plan:
+    """Compare the folder with the catalogue: unchanged = same size, mtime and content hash."""
+    read: list[Found] = []
+    listed: list[Found] = []
+    unchanged = in_progress = 0
+    keys = set()
+    for f in found:
+        keys.add(f.key)
+        old = stored.get(f.key)
+        same = old is not None and (old.size, old.mtime_ns, old.content_hash) == (f.size, f.mtime_ns,
+                                                                                     f.content_hash)
+        if f.in_progress:
+            in_progress += 1
+            if not (same and old is not None and old.status == "in_progress"):
+                listed.append(f)
+        elif same and old is not None and old.status != "in_progress":
+            unchanged += 1
+        else:
+            read.append(f)
+    removed = tuple(k for k in stored if k not in keys)
+    return Plan(tuple(read), tuple(listed), removed, unchanged, in_progress)
+
+
+def _stored_now(root: Path, key: str) -> dict[str, catalogue.Stored] | None:
+    """What the current catalogue holds for version ``key`` (read-only), or None without one."""
+    try:
+        db = catalogue.open_readonly(root)
+    except FileNotFoundError:
+        return None
+    try:
+        row = db.execute("SELECT version FROM versions WHERE key = ?", (key,)).fetchone()
+        return None if row is None else catalogue.Writer(db, int(row[0])).stored()
+    finally:
+        db.close()
+
+
 def build(directory: str | os.PathLike[str], *, config_path: str | None = None, workers: int = 1,
           scheduler: str | None = None, settle: float = SETTLE_S, progress: Progress | None = None,
           skip: Iterable[str] = ()) -> BuildResult:
     """Bring the catalogue's version for ``config_path`` up to date with the recordings under ``directory``.
     ``workers`` 1 summarises in this process, more on a process pool; ``scheduler`` (an address, or
-    "local") on a Dask cluster. Rows are written as they finish; the catalogue changes at the end only."""
+    "local") on a Dask cluster. Rows are written as they finish; the catalogue changes at the end only,
+    and not at all when nothing changed."""
     started = time.perf_counter()
     root = Path(directory)
     config_path = os.path.abspath(config_path) if config_path is not None else None
     key, origin = _version_key(config_path)
     found = scan(root, settle=settle, skip=skip)
+    before = _stored_now(root, key)
+    if before is not None:
+        quick = plan(found, before)
+        if quick.empty:
+            db = catalogue.open_readonly(root)
+            try:
+                (number,) = db.execute("SELECT version FROM versions WHERE key = ?", (key,)).fetchone()
+            finally:
+                db.close()
+            return BuildResult(int(number), len(found), 0, quick.unchanged, quick.listed_in_progress, 0, 0, 0,
+                               time.perf_counter() - started)
     by_path = {os.path.abspath(f.path): f for f in found}
     with catalogue.writing(root, key, origin) as writer:
-        stored = writer.stored()
-        keys = {f.key for f in found}
-        removed = [k for k in stored if k not in keys]
-        for k in removed:
+        todo = plan(found, writer.stored())
+        for k in todo.removed:
             writer.remove(k)
-        todo: list[str] = []
-        unchanged = in_progress = 0
-        for f in found:
-            old = stored.get(f.key)
-            same = old is not None and (old.size, old.mtime_ns, old.content_hash) == (f.size, f.mtime_ns,
-                                                                                         f.content_hash)
-            if f.in_progress:
-                in_progress += 1
-                if not (same and old is not None and old.status == "in_progress"):
-                    writer.put(in_progress_row(f))
-            elif same and old is not None and old.status != "in_progress":
-                unchanged += 1
-            else:
-                todo.append(os.path.abspath(f.path))
+        for f in todo.in_progress:
+            writer.put(in_progress_row(f))
+        paths = [os.path.abspath(f.path) for f in todo.read]
         if scheduler is not None:
-            rows = _dask(todo, config_path, scheduler, workers)
-        elif workers > 1 and len(todo) > 1:
-            rows = _pool(todo, config_path, workers)
+            rows = _dask(paths, config_path, scheduler, workers)
+        elif workers > 1 and len(paths) > 1:
+            rows = _pool(paths, config_path, workers)
         else:
-            rows = _serial(todo, config_path)
+            rows = _serial(paths, config_path)
         done = readings = damaged = 0
         for row in rows:
             f = by_path[os.path.abspath(str(row["file"]))]
@@ -165,7 +215,7 @@ def build(directory: str | os.PathLike[str], *, config_path: str | None = None, 
             readings += int(row.get("accepted") or 0)
             damaged += row.get("status") in ("damaged", "unreadable")
             if progress is not None:
-                progress(done, len(todo), readings)
+                progress(done, len(paths), readings)
         version = writer.version
-    return BuildResult(version, len(found), len(todo), unchanged, in_progress, len(removed), damaged, readings,
-                       time.perf_counter() - started)
+    return BuildResult(version, len(found), len(paths), todo.unchanged, todo.listed_in_progress, len(todo.removed),
+                       damaged, readings, time.perf_counter() - started)

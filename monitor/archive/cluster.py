@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import warnings
 from typing import Iterator
 
 from monitor.archive.summary import Row, summarise
@@ -24,8 +25,12 @@ def local_cluster(workers: int) -> object:
     _import_distributed()
     from distributed import LocalCluster
 
-    return LocalCluster(n_workers=max(1, workers), threads_per_worker=1, processes=True, host="127.0.0.1",
-                        dashboard_address=None, silence_logs=40)
+    with warnings.catch_warnings():
+        # without a dashboard the scheduler still serves health checks over HTTP on 127.0.0.1, at 8787
+        # or, when that port is taken (another cluster), a free one: that move is not worth a warning
+        warnings.filterwarnings("ignore", message="Port .* is already in use", category=UserWarning)
+        return LocalCluster(n_workers=max(1, workers), threads_per_worker=1, processes=True, host="127.0.0.1",
+                            dashboard_address=None, silence_logs=40)
 
 
 def dask_rows(paths: list[str], config_path: str | None, scheduler: str, workers: int) -> Iterator[Row]:

@@ -37,6 +37,10 @@ class ProgressBar:
     def __exit__(self, *exc: object) -> None:
         self._progress.stop()
 
+    def refresh(self) -> None:
+        """Draw now (rich otherwise redraws ten times a second)."""
+        self._progress.refresh()
+
     def __call__(self, done: int, total: int, readings: int) -> None:
         elapsed = max(time.monotonic() - self._t0, 1e-9)
         rate = f"{readings / elapsed:,.0f}"

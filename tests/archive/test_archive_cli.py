@@ -80,3 +80,22 @@ def test_compare_two_shots_by_number_and_file(shots: Path, tmp_path: Path,
     assert rc == 2 and "give the file" in err
     rc, _, err = main(capsys, "compare", *["3"] * 9, "--archive", str(shots))
     assert rc == 2 and "at most 8" in err
+
+
+def test_the_bar_is_drawn_only_on_a_terminal_without_quiet() -> None:
+    import io
+    import pty
+
+    from monitor.archive.progress import ProgressBar, wanted
+
+    master, slave = pty.openpty()
+    with os.fdopen(slave, "w") as tty, os.fdopen(master, "rb", buffering=0) as screen:
+        assert wanted(False, tty) and not wanted(True, tty)
+        assert not wanted(False, io.StringIO())
+        with ProgressBar(tty) as bar:
+            bar(1, 4, 30000)
+            bar(2, 4, 60000)
+            bar.refresh()
+            tty.flush()
+            drawn = screen.read(4096).decode("utf-8", "replace")
+    assert "2/4" in drawn and "readings/s" in drawn

@@ -119,16 +119,22 @@ def _profile_one(path: Path) -> None:
     prof.disable()
     stats = pstats.Stats(prof)
     total = max(stats.total_tt, 1e-9)  # type: ignore[attr-defined]
-    wanted = {"_parse": "CSV parse (loadtxt in blocks)", "_derive_frame": "derive (physics, uncertainties)",
-              "add": "rolling statistics", "_verdicts": "criteria on 200 samples",
-              "limit_summary": "limits and excursions", "process_parts": "pipeline (align, validate, derive)",
-              "_dispatch": "alarm engine and sinks"}
-    print("    share of one shot's summary time:")
-    seen = set()
+    wanted = {("csv_blocks.py", "_parse"): "CSV parse (loadtxt in blocks)",
+              ("pipeline.py", "process_parts"): "pipeline (align, validate, derive, rolling)",
+              ("pipeline.py", "_derive_frame"): "  of which derive (physics, uncertainties)",
+              ("rolling.py", "add"): "  of which rolling statistics (for screens)",
+              ("build.py", "_verdicts"): "report: criteria on 200 samples",
+              ("summary.py", "limit_summary"): "report: limits and excursions",
+              ("summary.py", "quantity_stats"): "report: quantity statistics"}
+    print("    share of one shot's summary time (cProfile, cumulative):")
+    found: dict[str, float] = {}
     for (file, _line, func), (_cc, _nc, _tt, ct, _callers) in stats.stats.items():  # type: ignore[attr-defined]
-        if func in wanted and func not in seen and ("monitor" in file or "adapters" in file):
-            seen.add(func)
-            print(f"      {wanted[func]:<38}{ct / total:6.0%}")
+        for (tail, name), label in wanted.items():
+            if func == name and file.endswith(tail):
+                found[label] = found.get(label, 0.0) + ct
+    for label in wanted.values():
+        if label in found:
+            print(f"      {label:<46}{found[label] / total:6.0%}")
 
 
 def workers(folder: Path) -> tuple[float, float]:
@@ -187,6 +193,8 @@ def main() -> None:
     ap.add_argument("--keep", help="reuse generated files in this folder")
     args = ap.parse_args()
     base = Path(args.keep) if args.keep else Path(tempfile.mkdtemp(prefix="bench-archive-"))
+    print(f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores at the start: other work on the "
+          f"machine moves every ratio)")
     try:
         big = base / "big"
         t0 = time.perf_counter()
@@ -202,6 +210,7 @@ def main() -> None:
         _one, two = workers(big)
         dask_vs_pool(big, two)
         unchanged(base / "small", args.small)
+        print(f"(load average {os.getloadavg()[0]:.1f} at the end)")
     finally:
         if not args.keep:
             shutil.rmtree(base, ignore_errors=True)
