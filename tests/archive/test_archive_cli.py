@@ -85,6 +85,7 @@ def test_compare_two_shots_by_number_and_file(shots: Path, tmp_path: Path,
 def test_the_bar_is_drawn_only_on_a_terminal_without_quiet() -> None:
     import io
     import pty
+    import select
 
     from monitor.archive.progress import ProgressBar, wanted
 
@@ -97,5 +98,10 @@ def test_the_bar_is_drawn_only_on_a_terminal_without_quiet() -> None:
             bar(2, 4, 60000)
             bar.refresh()
             tty.flush()
-            drawn = screen.read(4096).decode("utf-8", "replace")
+            drawn = ""
+            while "readings/s" not in drawn or "2/4" not in drawn:     # the pty hands it over in pieces
+                ready, _, _ = select.select([screen], [], [], 10.0)
+                if not ready:
+                    break
+                drawn += screen.read(4096).decode("utf-8", "replace")
     assert "2/4" in drawn and "readings/s" in drawn
