@@ -77,7 +77,7 @@ def scan(directory: str | os.PathLike[str], *, settle: float = SETTLE_S, now: fl
 
 def in_progress_row(found: Found) -> Row:
     """The row of a file still being recorded: what its header says, no summary."""
-    from monitor.archive.summary import _utc
+    from monitor.archive.summary import utc_iso
     from monitor.recording.csvformat import read_info
 
     row: Row = {name: None for name in COLUMN_NAMES}
@@ -85,7 +85,7 @@ def in_progress_row(found: Found) -> Row:
                content_hash=found.content_hash, damage="")
     try:
         info = read_info(found.path)
-        row.update(shot=info.shot, started=_utc(info.start), started_local=info.start, source=info.source)
+        row.update(shot=info.shot, started=utc_iso(info.start), started_local=info.start, source=info.source)
     except Exception:
         pass
     return row

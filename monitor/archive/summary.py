@@ -21,7 +21,7 @@ from monitor.report.summary import LimitSummary, limit_summary, quantity_stats, 
 from monitor.recording.replaying import open_file, sibling
 
 __all__ = ["Value", "Row", "summarise", "ShotFacts", "row_of", "shot_report", "envelope_time", "file_fingerprint",
-           "content_hash", "config_fingerprint", "HASH_BYTES"]
+           "content_hash", "config_fingerprint", "utc_iso", "HASH_BYTES"]
 
 Value = str | int | float | None
 Row = dict[str, Value]
@@ -191,7 +191,8 @@ def _alarm_counts(alarms: tuple[Mapping[str, object], ...]) -> tuple[dict[str, i
     return raised, priority
 
 
-def _utc(start: str | None) -> str | None:
+def utc_iso(start: str | None) -> str | None:
+    """An ISO 8601 time (with an offset; local time without) as UTC ISO 8601 to the microsecond; None if unreadable."""
     if not start:
         return None
     try:
@@ -242,7 +243,7 @@ def row_of(facts: ShotFacts, config_path: str | None) -> Row:
     names = {v: k for k, v in PRIORITY_RANK.items()}
     row: Row = {
         "status": "damaged" if report.damage else "ok",
-        "shot": report.shot, "started": _utc(report.start), "started_local": report.start,
+        "shot": report.shot, "started": utc_iso(report.start), "started_local": report.start,
         "duration": report.duration, "source": report.source,
         "config_fingerprint": config_fingerprint(config_text), "config_origin": report.config_origin,
         "accepted": facts.accepted, "rejected": int(sum(report.rejected.values())),

@@ -8,7 +8,7 @@ from typing import Sequence
 
 from textual.app import App
 
-from monitor.tui.screens.archive_browser import ArchiveBrowser, TextScreen
+from monitor.tui.screens.archive_browser import ArchiveBrowser, Query, TextScreen
 
 __all__ = ["ArchiveApp", "run_browser", "query_for"]
 
@@ -23,7 +23,7 @@ Screen { background: #1d1f1e; color: #c8c8c0; }
 """
 
 
-def query_for(directory: str | os.PathLike[str], version: int):  # type: ignore[no-untyped-def]
+def query_for(directory: str | os.PathLike[str], version: int) -> Query:
     """A browser query over the catalogue of ``directory`` (a fresh read-only connection per query)."""
     from monitor.archive import catalogue
     from monitor.archive.where import parse_where

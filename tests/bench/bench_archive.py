@@ -120,13 +120,13 @@ def _profile_one(path: Path) -> None:
     stats = pstats.Stats(prof)
     total = max(stats.total_tt, 1e-9)  # type: ignore[attr-defined]
     wanted = {("csv_blocks.py", "_parse"): "CSV parse (loadtxt in blocks)",
-              ("pipeline.py", "process_parts"): "pipeline (align, validate, derive, rolling)",
-              ("pipeline.py", "_derive_frame"): "  of which derive (physics, uncertainties)",
-              ("rolling.py", "add"): "  of which rolling statistics (for screens)",
+              ("pipeline.py", "process_parts"): "pipeline.process_parts (align ... rolling)",
+              ("pipeline.py", "_derive_frame"): "pipeline derive (physics, uncertainties)",
+              ("rolling.py", "add"): "pipeline rolling statistics (for screens)",
               ("build.py", "_verdicts"): "report: criteria on 200 samples",
               ("summary.py", "limit_summary"): "report: limits and excursions",
               ("summary.py", "quantity_stats"): "report: quantity statistics"}
-    print("    share of one shot's summary time (cProfile, cumulative):")
+    print("    share of one shot's summary time (cProfile, cumulative; the parts overlap):")
     found: dict[str, float] = {}
     for (file, _line, func), (_cc, _nc, _tt, ct, _callers) in stats.stats.items():  # type: ignore[attr-defined]
         for (tail, name), label in wanted.items():
