@@ -7,7 +7,8 @@
    (target: within 15 %).
 4. Re-cataloguing an unchanged archive of 1,000 shots against merely listing its directory.
 
-Options: --shots N (default 200) for 2 and 3, --small N (default 1000) for 4, --keep DIR to reuse files.
+Options: --shots N (default 200) for 2 and 3, --small N (default 1000) for 4, --keep DIR to reuse files,
+--parts 1,2,3,4 to choose the measurements.
 """
 
 from __future__ import annotations
@@ -151,14 +152,13 @@ def workers(folder: Path) -> tuple[float, float]:
 
 def dask_vs_pool(folder: Path, pool_s: float) -> None:
     try:
-        from distributed import LocalCluster
+        from distributed import Client
     except ImportError:
         print("[3] skipped: distributed is not installed (pip install 'regime[cluster]')")
         return
-    from distributed import Client
+    from monitor.archive.cluster import local_cluster
 
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                      dashboard_address=None, silence_logs=40) as cluster:
+    with local_cluster(2) as cluster:          # the cluster `--scheduler local` starts
         _fresh(folder)
         cold = _timed(lambda: build(folder, workers=2, scheduler=cluster.scheduler_address))
         with Client(cluster.scheduler_address) as client:      # a long-lived cluster has imported the tool
@@ -191,6 +191,7 @@ def main() -> None:
     ap.add_argument("--shots", type=int, default=200)
     ap.add_argument("--small", type=int, default=1000)
     ap.add_argument("--keep", help="reuse generated files in this folder")
+    ap.add_argument("--parts", default="1,2,3,4", help="which measurements, e.g. 2,3")
     args = ap.parse_args()
     base = Path(args.keep) if args.keep else Path(tempfile.mkdtemp(prefix="bench-archive-"))
     print(f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores at the start: other work on the "
@@ -206,10 +207,15 @@ def main() -> None:
             for f in sorted(big.glob("*.csv"))[:10]:
                 shutil.copy(f, sample / f.name)
             _settle(sample)
-        per_core(sample)
-        _one, two = workers(big)
-        dask_vs_pool(big, two)
-        unchanged(base / "small", args.small)
+        parts = {p.strip() for p in args.parts.split(",")}
+        if "1" in parts:
+            per_core(sample)
+        if parts & {"2", "3"}:
+            _one, two = workers(big)
+            if "3" in parts:
+                dask_vs_pool(big, two)
+        if "4" in parts:
+            unchanged(base / "small", args.small)
         print(f"(load average {os.getloadavg()[0]:.1f} at the end)")
     finally:
         if not args.keep:
