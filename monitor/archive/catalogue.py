@@ -77,8 +77,9 @@ class Writer:
         self.db = db
         self.version = version
         self._since_commit = 0
-        self._insert = (f'INSERT OR REPLACE INTO shots (version, {", ".join(chr(34) + c + chr(34) for c in COLUMN_NAMES)})'
-                        f' VALUES (?, {", ".join("?" for _ in COLUMN_NAMES)})')
+        names = ", ".join(f'"{c}"' for c in COLUMN_NAMES)
+        marks = ", ".join("?" for _ in COLUMN_NAMES)
+        self._insert = f"INSERT OR REPLACE INTO shots (version, {names}) VALUES (?, {marks})"
 
     def stored(self) -> dict[str, Stored]:
         rows = self.db.execute("SELECT file, size, mtime_ns, content_hash, status FROM shots WHERE version = ?",

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from monitor.criteria import CRITERIA
+from monitor.quantities import ALL
 
 __all__ = ["Column", "COLUMNS", "COLUMN_NAMES", "STAT_QUANTITIES", "READINGS", "PRIORITY_RANK", "column"]
 
@@ -53,14 +54,15 @@ _FIXED: tuple[Column, ...] = (
 )
 
 _STATS: tuple[Column, ...] = tuple(
-    Column(f"{q}_{stat}", "REAL", f"{q}: {meaning}")
+    Column(f"{q}_{stat}", "REAL", f"{q} ({ALL[q].unit}): {meaning}")
     for q in STAT_QUANTITIES
     for stat, meaning in (("median", "median"), ("min", "minimum"), ("max", "maximum"),
                           ("sigma", "median standard uncertainty (same unit)"))
 )
 
-_HELD: tuple[Column, ...] = tuple(Column(f"held_{c.name}", "REAL", f"share of discharge-on time {c.name} held")
-                                  for c in CRITERIA)
+_HELD: tuple[Column, ...] = tuple(
+    Column(f"held_{c.name}", "REAL", f"share of the report's 200 discharge-on samples where {c.name} held")
+    for c in CRITERIA)
 
 _BUILD: tuple[Column, ...] = (Column("built", "TEXT", "UTC time the row was written into the catalogue"),)
 

@@ -189,6 +189,9 @@ def _build(args: argparse.Namespace, directory: str) -> int:
                            settle=settle, skip=skip)
     except catalogue.CatalogueBusy as exc:
         raise UsageError(str(exc)) from None
+    except PermissionError as exc:
+        raise UsageError(f"{directory}: cannot write the catalogue there ({exc.strerror}); query an existing "
+                         f"one with --no-update") from None
     if not args.quiet:
         print(f"regime archive: {result.total} recordings ({result.read} read, {result.unchanged} unchanged, "
               f"{result.in_progress} in progress, {result.removed} gone, {result.damaged} damaged) in "
