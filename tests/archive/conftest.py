@@ -2,29 +2,15 @@
 
 from __future__ import annotations
 
-import os
 import shutil
 import sys
-import time
 from pathlib import Path
 
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
 
-from make_shots import write_shot  # noqa: E402
-
-ROOT = Path(__file__).resolve().parents[2]
-DEMO = ROOT / "replay_data"
-
-
-def settle(folder: Path, age: float = 120.0) -> None:
-    """Date the files written in the last minute back by ``age`` s, so that none looks still being
-    recorded (older files keep their time: a re-run must see them unchanged)."""
-    now = time.time()
-    for f in folder.rglob("*"):
-        if f.is_file() and f.stat().st_mtime > now - 60:
-            os.utime(f, (now - age, now - age))
+from make_shots import DEMO, settle, write_shot  # noqa: E402
 
 
 @pytest.fixture

@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
+import os
+import time
 from pathlib import Path
 
 import numpy as np
 
 from monitor.recording.csvformat import RowFormatter, header_block
 
+ROOT = Path(__file__).resolve().parents[2]
+DEMO = ROOT / "replay_data"
 T0 = 1798761600.0          # 2027-01-01T00:00:00Z, an invented campaign start
 
 ENVELOPE = """[device]
@@ -74,3 +78,12 @@ def write_shot(folder: Path, shot: int, seconds: float = 30.0, rate: float = 100
     path = folder / f"shot-{shot:04d}.csv"
     path.write_text(head + body, encoding="utf-8")
     return path
+
+
+def settle(folder: Path, age: float = 120.0) -> None:
+    """Date the files written in the last minute back by ``age`` s, so that none looks still being
+    recorded (older files keep their time: a re-run must see them unchanged)."""
+    now = time.time()
+    for f in folder.rglob("*"):
+        if f.is_file() and f.stat().st_mtime > now - 60:
+            os.utime(f, (now - age, now - age))

@@ -12,8 +12,7 @@ import sys
 from pathlib import Path
 
 import pytest
-from conftest import ROOT, settle
-from make_shots import write_shot
+from make_shots import ROOT, settle, write_shot
 
 from monitor.archive import build as build_mod
 from monitor.archive import catalogue

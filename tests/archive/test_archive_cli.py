@@ -10,7 +10,7 @@ import sys
 from pathlib import Path
 
 import pytest
-from conftest import ROOT
+from make_shots import ROOT
 
 PNG = b"\x89PNG\r\n\x1a\n"
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from conftest import ROOT
+from make_shots import ROOT
 
 from monitor.archive import catalogue
 from monitor.archive.build import build

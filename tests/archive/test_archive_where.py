@@ -71,7 +71,7 @@ _READ_ONLY = {sqlite3.SQLITE_SELECT, sqlite3.SQLITE_READ, sqlite3.SQLITE_FUNCTIO
 def fuzz_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
     import shutil
 
-    from conftest import DEMO, settle
+    from make_shots import DEMO, settle
 
     folder = tmp_path_factory.mktemp("fuzz")
     for f in DEMO.glob("argon*"):
