@@ -10,4 +10,6 @@ COMMANDS: dict[str, str] = {
     "report": "summarise a recorded shot",
     "simulate": "publish a simulated discharge on ZeroMQ",
     "check": "validate an envelope/config file without running",
+    "archive": "catalogue every recorded shot in a folder; find, export and trend shots",
+    "compare": "overlay up to eight shots aligned at discharge start, with a table of differences",
 }
