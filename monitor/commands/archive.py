@@ -163,9 +163,9 @@ def run(args: argparse.Namespace) -> int:
 
         chosen = run_browser(directory, version or 0, args.where or "", args.config)
         if chosen is not None and chosen[0] == "replay":
-            from monitor.cli import main
-
-            return main(["replay", chosen[1]] + (["--config", args.config] if args.config else []))
+            # the browser hands over to `regime replay` of the chosen shot, as a new program in this process
+            argv = [sys.executable, "-m", "monitor", "replay", chosen[1]] + (["--config", args.config] if args.config else [])
+            os.execv(sys.executable, argv)
     else:
         _print_table(rows, TABLE_COLUMNS)
     return EXIT_OK
