@@ -18,8 +18,8 @@ def shots(tmp_path: Path) -> Path:
     """The two demo shots (with journals) and four invented 5 s shots in a subfolder."""
     folder = tmp_path / "shots"
     folder.mkdir()
-    for f in DEMO.iterdir():
-        if f.suffix in (".csv", ".jsonl"):
+    for f in DEMO.iterdir():       # the two recorded demo shots (replay_data also holds raw diagnostic files)
+        if f.suffix in (".csv", ".jsonl") and f.name.startswith(("argon_rf_excursion", "helium_microwave_cutoff")):
             shutil.copy(f, folder / f.name)
     for n in range(1, 5):
         write_shot(folder / "day2", n, seconds=5.0, rate=500.0)
