@@ -15,7 +15,7 @@ from monitor.units import UnitError, parse_value
 
 __all__ = ["Config", "load_config", "parse_config", "PipelineOptions"]
 
-_TABLES = ("device", "discharge", "sources", "channels", "limit", "alarms", "recording", "pipeline")
+_TABLES = ("device", "discharge", "sources", "channels", "limit", "alarms", "recording", "pipeline", "probe")
 
 # [device] key -> (Device field, dimension for monitor.units)
 _DEVICE_KEYS: dict[str, tuple[str, str]] = {

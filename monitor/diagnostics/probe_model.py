@@ -75,3 +75,44 @@ def bias_grid(vp: np.ndarray | float, te: np.ndarray | float, n: int, below: flo
     te_ = np.atleast_1d(np.asarray(te, dtype=np.float64))[:, None]
     u = np.linspace(-below, above, n)[None, :]
     return np.asarray(vp_ + te_ * u, dtype=np.float64)
+
+
+# ----------------------------------------------------------------------------- the sim:probe scenario
+
+SCENARIO_PERIOD = 60.0        # s: the plasma's slow cycle
+_NOISE_BLOCK = 64
+
+
+def scenario_plasma(t: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Our invented discharge seen by the probe at times t (s): ne (m^-3), Te (eV), Vp (V).
+
+    A 60 s cycle: density breathing between 3e15 and 3e16 m^-3 (geometric),
+    Te between 2 and 5 eV against it, plasma potential 8 V + 2 Te.
+    """
+    phase = 2.0 * PI * (np.asarray(t, dtype=np.float64) % SCENARIO_PERIOD) / SCENARIO_PERIOD
+    ne = 1e16 * np.exp(1.15 * np.sin(phase))
+    te = 3.5 - 1.5 * np.sin(phase + 0.4)
+    return ne, te, 8.0 + 2.0 * te
+
+
+def scenario_sweeps(k0: int, k1: int, *, spec: ProbeSpec, seed: int = 0, points: int = 250,
+                    rate: float = 20.0, noise: float = 0.01) -> tuple[np.ndarray, np.ndarray, np.ndarray,
+                                                                       np.ndarray]:
+    """Sweeps k0 .. k1-1 of the scenario: (ids, t at each sweep's middle, V, I), rows S x points.
+
+    Sweep k runs over [k/rate, (k+1)/rate); the bias goes from -40 V to +30 V;
+    the current is our OML cylinder model plus noise of ``noise`` |I| + ``noise``
+    I_sat (Gaussian), drawn per sweep number so any chunking gives the same numbers.
+    """
+    k = np.arange(k0, max(k0, k1), dtype=np.int64)
+    t = (k + 0.5) / rate
+    ne, te, vp = scenario_plasma(t)
+    V = np.tile(np.linspace(-40.0, 30.0, points), (len(k), 1))
+    I0 = single_probe_current(V, ne[:, None], te[:, None], vp[:, None], spec)
+    floor = noise * np.abs(I0[:, :1])
+    z = np.empty_like(I0)
+    for b in np.unique(k // _NOISE_BLOCK):         # one generator per block of 64 sweeps
+        sel = (k // _NOISE_BLOCK) == b
+        rows = np.random.default_rng([seed, int(b)]).standard_normal((_NOISE_BLOCK, points))
+        z[sel] = rows[k[sel] % _NOISE_BLOCK]
+    return k, t, V, I0 + (noise * np.abs(I0) + floor) * z
