@@ -10,4 +10,5 @@ COMMANDS: dict[str, str] = {
     "report": "summarise a recorded shot",
     "simulate": "publish a simulated discharge on ZeroMQ",
     "check": "validate an envelope/config file without running",
+    "probe": "analyse a file of Langmuir probe sweeps (Te, ne, ni, Vf, Vp with uncertainties)",
 }

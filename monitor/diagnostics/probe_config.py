@@ -74,7 +74,9 @@ def parse_probe(table: Mapping[str, Any], path: str | Path | None, *, ion_mass_u
 
 
 def probe_spec(config: Config) -> ProbeSpec:
-    """The probe of a loaded Config (`[probe]` table, A and Z from `[device]`); defaults when absent."""
+    """The probe of a loaded Config (`[probe]` table, A and Z from `[device]`); without a `[probe]` table
+    the ProbeSpec defaults (a single cylinder, r = 0.1 mm, l = 5 mm)."""
     dev = config.device
-    return parse_probe(config.raw.get("probe", {}), config.path, ion_mass_u=dev.ion_mass_u,
-                       ion_charge=dev.ion_charge)
+    if "probe" not in config.raw:
+        return ProbeSpec(ion_mass_u=dev.ion_mass_u, ion_charge=dev.ion_charge)
+    return parse_probe(config.raw["probe"], config.path, ion_mass_u=dev.ion_mass_u, ion_charge=dev.ion_charge)
