@@ -137,19 +137,20 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         vp = take(V, kc) + delta * h
         sd = np.sqrt(take(sig2, kc) * float((savgol_weights(w, 2, 1) ** 2).sum())) / h
         g = np.stack([0.5 * (1 / curv - num / curv ** 2), num / curv ** 2, 0.5 * (-1 / curv - num / curv ** 2)])
-        # noise through the vertex, the grid step, and the smoothing of the knee (the peak of a smoothed
-        # cusp sits up to a quarter window low: a rectangular half-width of window/4, Type B)
+        # noise through the vertex, the grid step, and the smoothing of the knee: the peak of a smoothed
+        # cusp sits low by about a quarter of the window (0.09 Te for a 0.4 Te window on the OML
+        # cylinder), taken as a standard uncertainty of window/4 (Type B, conservative)
         sigma_vp = np.sqrt((h * sd) ** 2 * np.where(curv < 0, (g ** 2).sum(axis=0), 0.25) + h ** 2 / 12.0
-                           + ((w - 1) * h / 4.0) ** 2 / 3.0)
+                           + ((w - 1) * h / 4.0) ** 2)
         te0 = (take(Isf, kc) - Isf[:, half]) / d0
 
     # floating potential: last upward crossing of the smoothed current below Vp
     vf, kf = last_upward_crossing(V, Isf, upto=kc)
     fail[(kf < 0) & (fail == "")] = "no_floating_potential"
     slope_f = take(didv, kf)
-    raw_slope = (take(I, kf + 1) - take(I, kf)) / (take(V, kf + 1) - take(V, kf))
-    slope_f = np.where(np.isfinite(slope_f) & (slope_f > 0), slope_f, raw_slope)
     with np.errstate(invalid="ignore", divide="ignore"):
+        raw_slope = (take(I, kf + 1) - take(I, kf)) / (take(V, kf + 1) - take(V, kf))
+        slope_f = np.where(np.isfinite(slope_f) & (slope_f > 0), slope_f, raw_slope)
         sigma_vf = np.sqrt(take(sig2, kf) * h0) / np.abs(slope_f)
 
     te = np.where(np.isfinite(te0) & (te0 > 0), te0, (vp - vf) / 4.0)
