@@ -113,8 +113,10 @@ def parse_sweep_csv(data: bytes, source: str, received: float) -> tuple[list[Swe
     if missing:
         return [], [reject(source, "malformed", lines[k], received, f"header lacks column(s) {', '.join(missing)}")]
     use = [names.index(c) for c in _COLUMNS]
-    body = [ln for ln in lines[k + 1:] if ln.strip() and not ln.lstrip().startswith(b"#")]
+    body = [ln.rstrip(b"\r") for ln in lines[k + 1:] if ln.strip() and not ln.lstrip().startswith(b"#")]
     rejections: list[Rejection] = []
+    if not body:
+        return [], rejections
     try:
         arr = np.loadtxt(io.BytesIO(b"\n".join(body)), delimiter=",", usecols=use, ndmin=2, dtype=np.float64)
         if arr.shape[1] != 4:

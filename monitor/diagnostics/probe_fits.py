@@ -8,7 +8,7 @@ from functools import lru_cache
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
-__all__ = ["savgol_weights", "smooth", "LineFit", "line_fit", "last_upward_crossing", "take"]
+__all__ = ["savgol_weights", "smooth", "smooth_pair", "band", "LineFit", "line_fit", "last_upward_crossing", "take"]
 
 
 @lru_cache(maxsize=32)
@@ -35,6 +35,38 @@ def smooth(y: np.ndarray, window: int, order: int = 2, deriv: int = 0) -> np.nda
         return out
     out[:, half:y.shape[1] - half] = sliding_window_view(y, window, axis=1) @ savgol_weights(window, order, deriv)
     return out
+
+
+def smooth_pair(y: np.ndarray, window: int) -> tuple[np.ndarray, np.ndarray]:
+    """Savitzky-Golay (order 2) smoothed rows of ``y`` and their derivative per index, in one pass; NaN edges."""
+    half = window // 2
+    value, slope = np.full(y.shape, np.nan), np.full(y.shape, np.nan)
+    if y.shape[1] < window:
+        return value, slope
+    both = sliding_window_view(y, window, axis=1) @ _pair_weights(window)
+    value[:, half:y.shape[1] - half] = both[:, :, 0]
+    slope[:, half:y.shape[1] - half] = both[:, :, 1]
+    return value, slope
+
+
+@lru_cache(maxsize=32)
+def _pair_weights(window: int) -> np.ndarray:
+    w = np.ascontiguousarray(np.stack([savgol_weights(window, 2, 0), savgol_weights(window, 2, 1)], axis=1))
+    w.setflags(write=False)
+    return w
+
+
+def band(V: np.ndarray, lo: np.ndarray, hi: np.ndarray, grid: np.ndarray | None = None) -> slice:
+    """The columns holding every row's points with lo <= V <= hi (rows ascending; NaN bounds ignored).
+    ``grid``: the one bias row every row shares, when they do (then a binary search suffices)."""
+    lo_f = np.where(np.isnan(lo), np.inf, lo)
+    hi_f = np.where(np.isnan(hi), -np.inf, hi)
+    if grid is not None:
+        c0 = int(np.searchsorted(grid, lo_f.min(initial=np.inf), side="left"))
+        return slice(c0, max(c0, int(np.searchsorted(grid, hi_f.max(initial=-np.inf), side="right"))))
+    c0 = int(np.count_nonzero(V < lo_f[:, None], axis=1).min(initial=V.shape[1]))
+    c1 = int(np.count_nonzero(V <= hi_f[:, None], axis=1).max(initial=0))
+    return slice(c0, max(c0, c1))
 
 
 @dataclass(frozen=True, eq=False)

@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from monitor.diagnostics.probe_fits import LineFit, last_upward_crossing, line_fit, savgol_weights, smooth, take
+from monitor.diagnostics.probe_fits import LineFit, band, last_upward_crossing, line_fit, savgol_weights, smooth_pair, take
 from monitor.diagnostics.probe_spec import ProbeSpec
 from monitor.physics.constants import ELECTRON_MASS, ELEMENTARY_CHARGE, EPSILON_0, PI
 
@@ -116,8 +116,10 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
     half = w // 2
     h0 = float(savgol_weights(w, 2, 0)[half])
     rows = np.arange(S)
-    Is = smooth(I, w)
-    didv = smooth(I, w, 2, 1) / smooth(V, w, 2, 1)
+    Is, dik = smooth_pair(I, w)
+    dvk = np.full(V.shape, np.nan)
+    dvk[:, half:N - half] = (V[:, w - 1:] - V[:, :N - w + 1]) / (w - 1)     # dV per index, over the window
+    didv = dik / dvk
     Isf = np.where(np.isnan(Is), I, Is)
     s0, rel = _noise(I, Is, h0)
     sig2 = s0[:, None] ** 2 + (rel[:, None] * Isf) ** 2
@@ -154,17 +156,23 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         sigma_vf = np.sqrt(take(sig2, kf) * h0) / np.abs(slope_f)
 
     te = np.where(np.isfinite(te0) & (te0 > 0), te0, (vp - vf) / 4.0)
-    wt = 1.0 / sig2
-    for _ in range(2):
-        ion_mask = V <= (vf - ION_BELOW * te)[:, None]
-        ion = line_fit(V, I, wt, ion_mask)
-        ion_at = ion.at(V)
-        ie, ie_s = I - ion_at, Isf - ion_at
-        ret = ((V >= (vf + 0.5 * te)[:, None]) & (V <= (vp - 0.5 * te)[:, None]) & (ie > 0) & (ie_s > 0))
+    grid = V[0] if bool((V == V[0]).all()) else None    # one bias grid for all rows: bands by binary search
+    for _ in range(2):                               # fits on column bands: only the columns they use
+        ion_hi = vf - ION_BELOW * te
+        ci = slice(0, band(V, np.full(S, -np.inf), ion_hi, grid).stop)
+        Vi = V[:, ci]
+        ion_mask = Vi <= ion_hi[:, None]
+        ion = line_fit(Vi, I[:, ci], 1.0 / sig2[:, ci], ion_mask)
+        rlo, rhi = vf + 0.5 * te, vp - 0.5 * te
+        cr = band(V, rlo, rhi, grid)
+        Vr = V[:, cr]
+        ion_at = ion.at(Vr)
+        ie, ie_s = I[:, cr] - ion_at, Isf[:, cr] - ion_at
+        ret = (Vr >= rlo[:, None]) & (Vr <= rhi[:, None]) & (ie > 0) & (ie_s > 0)
         with np.errstate(invalid="ignore", divide="ignore"):
             lnie = np.log(np.where(ret, ie, 1.0))
-            wr = np.where(ret, ie_s ** 2 / sig2, 0.0)
-        fit = line_fit(V, lnie, wr, ret)
+            wr = np.where(ret, ie_s ** 2 / sig2[:, cr], 0.0)
+        fit = line_fit(Vr, lnie, wr, ret)
         te_new = 1.0 / fit.b
         te = np.where(np.isfinite(te_new) & (te_new > 0), te_new, te)
     fail[(ion.n < MIN_ION) & (fail == "")] = "no_ion_branch"
@@ -176,16 +184,21 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
 
     # the two halves of the retarding region, for the exponential test
     vmid = fit.x0[:, None]
-    lo = line_fit(V, lnie, wr, ret & (V <= vmid))
-    hi = line_fit(V, lnie, wr, ret & (V > vmid))
+    lo = line_fit(Vr, lnie, wr, ret & (Vr <= vmid))
+    hi = line_fit(Vr, lnie, wr, ret & (Vr > vmid))
     with np.errstate(invalid="ignore", divide="ignore"):
         te_lo, te_hi = 1.0 / lo.b, 1.0 / hi.b
         sig_halves = np.sqrt(lo.var_b * te_lo ** 4 + hi.var_b * te_hi ** 4)
 
     # knee: the retarding line meets a line through ln Ie above Vp + Te/2
-    sat = (V >= (vp + 0.5 * te_fit)[:, None]) & (ie > 0) & (ie_s > 0)
-    sfit = line_fit(V, np.log(np.where(sat, ie, 1.0)), np.where(sat, ie_s ** 2 / sig2, 0.0), sat)
+    cs = band(V, vp + 0.5 * te_fit, np.full(S, np.inf), grid)
+    cs = slice(cs.start, N)
+    Vs = V[:, cs]
+    ion_s = ion.at(Vs)
+    ie_hi, ies_hi = I[:, cs] - ion_s, Isf[:, cs] - ion_s
+    sat = (Vs >= (vp + 0.5 * te_fit)[:, None]) & (ie_hi > 0) & (ies_hi > 0)
     with np.errstate(invalid="ignore", divide="ignore"):
+        sfit = line_fit(Vs, np.log(np.where(sat, ie_hi, 1.0)), np.where(sat, ies_hi ** 2 / sig2[:, cs], 0.0), sat)
         knee = ((sfit.a - fit.a + fit.b * fit.x0 - sfit.b * sfit.x0) / (fit.b - sfit.b))
     knee = np.where(sfit.n >= 3, knee, np.nan)
 
@@ -204,9 +217,10 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         cs = np.sqrt(Z * e * te_fit / mi)
         ni_bohm = i_sat / (BOHM_FACTOR * Z * e * area * cs)
         sig_bohm = ni_bohm * np.sqrt((sigma_isat / i_sat) ** 2 + (0.5 * sigma_te / te_fit) ** 2)
-        i2 = np.where(ion_mask, I * I, 0.0)
-        w2 = np.where(ion_mask, 1.0 / (4.0 * np.maximum(Isf * Isf, s0[:, None] ** 2) * sig2), 0.0)
-        sq = line_fit(V, i2, w2, ion_mask)
+        Ii, Isi = I[:, ci], Isf[:, ci]
+        i2 = np.where(ion_mask, Ii * Ii, 0.0)
+        w2 = np.where(ion_mask, 1.0 / (4.0 * np.maximum(Isi * Isi, s0[:, None] ** 2) * sig2[:, ci]), 0.0)
+        sq = line_fit(Vi, i2, w2, ion_mask)
         ni_oml = (PI / (Z * e * area)) * np.sqrt(-sq.b * mi / (2.0 * Z * e))
         sig_oml = ni_oml * 0.5 * np.sqrt(sq.var_b) / np.abs(sq.b)
     oml = (spec.geometry == "cylinder") & (spec.size / debye < OML_MAX_RATIO) & np.isfinite(ni_oml)
