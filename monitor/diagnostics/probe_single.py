@@ -214,8 +214,8 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         i_sat = -ion.at(vf)
         sigma_isat = np.sqrt(ion.var_at(vf) + (ion.b * sigma_vf) ** 2)
         Z, mi = spec.ion_charge, spec.ion_mass
-        cs = np.sqrt(Z * e * te_fit / mi)
-        ni_bohm = i_sat / (BOHM_FACTOR * Z * e * area * cs)
+        c_s = np.sqrt(Z * e * te_fit / mi)
+        ni_bohm = i_sat / (BOHM_FACTOR * Z * e * area * c_s)
         sig_bohm = ni_bohm * np.sqrt((sigma_isat / i_sat) ** 2 + (0.5 * sigma_te / te_fit) ** 2)
         Ii, Isi = I[:, ci], Isf[:, ci]
         i2 = np.where(ion_mask, Ii * Ii, 0.0)
