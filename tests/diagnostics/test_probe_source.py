@@ -66,3 +66,20 @@ def test_paced_source_hands_out_sweeps_in_time() -> None:
     batches, _ = _drain(src)
     assert sum(len(b) for b in batches) == 30
     assert src.status().message.startswith("30 sweeps")
+
+
+def test_a_session_runs_the_probe_readings_through_the_pipeline() -> None:
+    """The real Session and Pipeline (no mocks): accepted sweeps become readings with derived quantities,
+    rejected ones are counted by reason."""
+    from monitor.session import Session
+
+    session = Session(ProbeSweepSource(DEMO, probe=SPEC, speed=None), live=False)
+    session.run(duration=60.0)
+    snap = session.snapshot()
+    counts = snap.counts[session.name]
+    assert counts.accepted == 44
+    assert dict(counts.rejected) == {"non_monotonic_bias": 1, "not_finite": 1, "saturated_rail": 1,
+                                     "too_few_points": 1}
+    value, sigma = snap.latest["debye_length"]
+    assert 1e-5 < value < 1e-3 and sigma is not None and sigma > 0
+    assert snap.latest["Te"][1] is not None and snap.latest["Te"][1] > 0
