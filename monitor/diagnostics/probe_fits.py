@@ -8,7 +8,7 @@ from functools import lru_cache
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
-__all__ = ["savgol_weights", "smooth", "smooth_pair", "band", "LineFit", "line_fit", "last_upward_crossing", "take"]
+__all__ = ["savgol_weights", "smooth", "smooth_pair", "Columns", "LineFit", "line_fit", "last_upward_crossing", "take"]
 
 
 @lru_cache(maxsize=32)
@@ -38,9 +38,12 @@ def smooth(y: np.ndarray, window: int, order: int = 2, deriv: int = 0) -> np.nda
 
 
 def smooth_pair(y: np.ndarray, window: int) -> tuple[np.ndarray, np.ndarray]:
-    """Savitzky-Golay (order 2) smoothed rows of ``y`` and their derivative per index, in one pass; NaN edges."""
+    """Savitzky-Golay (order 2) smoothed rows of ``y`` and their derivative per index, in one pass.
+
+    The smoothed rows keep the raw values in the half-window edges; the derivative is NaN there.
+    """
     half = window // 2
-    value, slope = np.full(y.shape, np.nan), np.full(y.shape, np.nan)
+    value, slope = y.copy(), np.full(y.shape, np.nan)
     if y.shape[1] < window:
         return value, slope
     both = sliding_window_view(y, window, axis=1) @ _pair_weights(window)
@@ -56,17 +59,31 @@ def _pair_weights(window: int) -> np.ndarray:
     return w
 
 
-def band(V: np.ndarray, lo: np.ndarray, hi: np.ndarray, grid: np.ndarray | None = None) -> slice:
-    """The columns holding every row's points with lo <= V <= hi (rows ascending; NaN bounds ignored).
-    ``grid``: the one bias row every row shares, when they do (then a binary search suffices)."""
-    lo_f = np.where(np.isnan(lo), np.inf, lo)
-    hi_f = np.where(np.isnan(hi), -np.inf, hi)
-    if grid is not None:
-        c0 = int(np.searchsorted(grid, lo_f.min(initial=np.inf), side="left"))
-        return slice(c0, max(c0, int(np.searchsorted(grid, hi_f.max(initial=-np.inf), side="right"))))
-    c0 = int(np.count_nonzero(V < lo_f[:, None], axis=1).min(initial=V.shape[1]))
-    c1 = int(np.count_nonzero(V <= hi_f[:, None], axis=1).max(initial=0))
-    return slice(c0, max(c0, c1))
+class Columns:
+    """Column bands of rows with ascending bias: each row's position of a bound by one binary search
+    in the rows laid end to end (row r shifted by r times more than the whole bias span)."""
+
+    def __init__(self, V: np.ndarray) -> None:
+        self.n = V.shape[1]
+        lo, hi = float(np.min(V[:, 0])), float(np.max(V[:, -1]))
+        self.base = lo
+        self.step = 2.0 * (hi - lo) + 1.0
+        self.shift = np.arange(V.shape[0]) * self.step
+        self.flat = ((V - lo) + self.shift[:, None]).ravel()
+        self.starts = np.arange(V.shape[0]) * self.n
+
+    def count_below(self, x: np.ndarray, inclusive: bool) -> np.ndarray:
+        """Per row, the number of points with V < x (V <= x when inclusive); x clipped into the row's span."""
+        xc = np.clip(x - self.base, -0.25 * self.step, 0.75 * self.step) + self.shift
+        return np.searchsorted(self.flat, xc, side="right" if inclusive else "left") - self.starts
+
+    def band(self, lo: np.ndarray, hi: np.ndarray) -> slice:
+        """The columns holding every row's points with lo <= V <= hi (NaN bounds ignored)."""
+        lo_f = np.where(np.isnan(lo), np.inf, lo)
+        hi_f = np.where(np.isnan(hi), -np.inf, hi)
+        c0 = int(self.count_below(lo_f, False).min(initial=self.n))
+        c1 = int(self.count_below(hi_f, True).max(initial=0))
+        return slice(c0, max(c0, c1))
 
 
 @dataclass(frozen=True, eq=False)

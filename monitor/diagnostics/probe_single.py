@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from monitor.diagnostics.probe_fits import LineFit, band, last_upward_crossing, line_fit, savgol_weights, smooth_pair, take
+from monitor.diagnostics.probe_fits import Columns, LineFit, last_upward_crossing, line_fit, savgol_weights, smooth_pair, take
 from monitor.diagnostics.probe_spec import ProbeSpec
 from monitor.physics.constants import ELECTRON_MASS, ELEMENTARY_CHARGE, EPSILON_0, PI
 
@@ -97,15 +97,16 @@ def electron_saturation_density(ie_sat: np.ndarray, te: np.ndarray, area: float)
 
 
 def _noise(I: np.ndarray, Is: np.ndarray, h0: float) -> tuple[np.ndarray, np.ndarray]:
-    """Per sweep: (floor sigma in A, relative sigma) from the smoothing residual (Gaussian mean |r| scale)."""
+    """Per sweep: (floor sigma in A, relative sigma) from the smoothing residual (Gaussian mean |r| scale),
+    over the points the filter smoothed (I, Is: those columns only)."""
     res = np.abs(I - Is) * (math.sqrt(PI / 2.0) / math.sqrt(max(1e-12, 1.0 - h0)))
-    finite = np.isfinite(res)
-    neg = finite & (Is <= 0)
+    neg = Is <= 0
     with np.errstate(invalid="ignore", divide="ignore"):
-        s0 = np.where(neg, res, 0.0).sum(axis=1) / np.maximum(neg.sum(axis=1), 1)
-        big = finite & (Is > 10.0 * s0[:, None]) & (Is > 0)
-        rel = np.where(big, res / np.where(big, Is, 1.0), 0.0).sum(axis=1) / np.maximum(big.sum(axis=1), 1)
-    tiny = 1e-9 * np.nanmax(np.abs(I), axis=1)
+        s0 = np.where(neg, res, 0.0).sum(axis=1) / np.maximum(np.count_nonzero(neg, axis=1), 1)
+        big = Is > np.maximum(10.0 * s0, 0.0)[:, None]
+        rel = np.where(big, res / np.where(big, Is, 1.0), 0.0).sum(axis=1) / np.maximum(
+            np.count_nonzero(big, axis=1), 1)
+    tiny = 1e-9 * np.abs(I).max(axis=1)
     return np.maximum(s0, tiny), rel
 
 
@@ -116,17 +117,16 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
     half = w // 2
     h0 = float(savgol_weights(w, 2, 0)[half])
     rows = np.arange(S)
-    Is, dik = smooth_pair(I, w)
-    dvk = np.full(V.shape, np.nan)
-    dvk[:, half:N - half] = (V[:, w - 1:] - V[:, :N - w + 1]) / (w - 1)     # dV per index, over the window
-    didv = dik / dvk
-    Isf = np.where(np.isnan(Is), I, Is)
-    s0, rel = _noise(I, Is, h0)
+    inner = slice(half, N - half)
+    Isf, didv = smooth_pair(I, w)                   # smoothed current (raw at the edges), dI per index
+    didv[:, inner] /= (V[:, w - 1:] - V[:, :N - w + 1]) / (w - 1)     # / dV per index, over the window
+    s0, rel = _noise(I[:, inner], Isf[:, inner], h0)
     sig2 = s0[:, None] ** 2 + (rel[:, None] * Isf) ** 2
     fail = np.full(S, "", dtype=object)
+    cols = Columns(V)
 
     # plasma potential: the peak of the smoothed derivative, refined by a parabola through three points
-    k = np.where(np.isnan(didv), -np.inf, didv).argmax(axis=1)
+    k = didv[:, inner].argmax(axis=1) + half
     edge = (k <= half) | (k >= N - half - 1)
     fail[edge] = "no_plasma_potential"
     kc = np.clip(k, half + 1, N - half - 2)
@@ -156,15 +156,14 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         sigma_vf = np.sqrt(take(sig2, kf) * h0) / np.abs(slope_f)
 
     te = np.where(np.isfinite(te0) & (te0 > 0), te0, (vp - vf) / 4.0)
-    grid = V[0] if bool((V == V[0]).all()) else None    # one bias grid for all rows: bands by binary search
     for _ in range(2):                               # fits on column bands: only the columns they use
         ion_hi = vf - ION_BELOW * te
-        ci = slice(0, band(V, np.full(S, -np.inf), ion_hi, grid).stop)
+        ci = slice(0, cols.band(np.full(S, -np.inf), ion_hi).stop)
         Vi = V[:, ci]
         ion_mask = Vi <= ion_hi[:, None]
         ion = line_fit(Vi, I[:, ci], 1.0 / sig2[:, ci], ion_mask)
         rlo, rhi = vf + 0.5 * te, vp - 0.5 * te
-        cr = band(V, rlo, rhi, grid)
+        cr = cols.band(rlo, rhi)
         Vr = V[:, cr]
         ion_at = ion.at(Vr)
         ie, ie_s = I[:, cr] - ion_at, Isf[:, cr] - ion_at
@@ -191,7 +190,7 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
         sig_halves = np.sqrt(lo.var_b * te_lo ** 4 + hi.var_b * te_hi ** 4)
 
     # knee: the retarding line meets a line through ln Ie above Vp + Te/2
-    cs = band(V, vp + 0.5 * te_fit, np.full(S, np.inf), grid)
+    cs = cols.band(vp + 0.5 * te_fit, np.full(S, np.inf))
     cs = slice(cs.start, N)
     Vs = V[:, cs]
     ion_s = ion.at(Vs)

@@ -92,3 +92,22 @@ def test_sigmas_describe_the_scatter_over_repeated_sweeps() -> None:
         ratio = np.std(res[key]) / np.median(res[f"sigma_{key}"])
         assert 0.5 < ratio < 2.0, (key, ratio)
     assert np.mean(np.abs(res["ne"] - ne) <= 2.0 * res["sigma_ne"]) >= 0.9
+
+
+@settings(max_examples=40)
+@given(st.integers(1, 6), st.integers(2, 40), st.integers(0, 2**16))
+def test_column_bands_hold_every_point_in_bounds(rows: int, n: int, seed: int) -> None:
+    """probe_fits.Columns (one binary search over the rows laid end to end) against brute force."""
+    from monitor.diagnostics.probe_fits import Columns
+
+    rng = np.random.default_rng(seed)
+    V = np.cumsum(rng.uniform(0.01, 2.0, (rows, n)), axis=1) + rng.uniform(-50, 50, (rows, 1))
+    lo, hi = rng.uniform(-60, 60, rows), rng.uniform(-60, 100, rows)
+    lo[rng.random(rows) < 0.2] = np.nan
+    got = Columns(V).band(lo, hi)
+    inside = (V >= np.where(np.isnan(lo), np.inf, lo)[:, None]) & (V <= hi[:, None])
+    cols = np.flatnonzero(inside.any(axis=0))
+    if len(cols):
+        assert got.start <= cols[0] and cols[-1] < got.stop
+    below = (V < np.where(np.isnan(lo), np.inf, lo)[:, None]).sum(axis=1)
+    assert got.start == below.min()
