@@ -12,13 +12,12 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from monitor.diagnostics.probe_model import scenario_sweeps  # noqa: E402
-from monitor.diagnostics.probe_spec import ProbeSpec  # noqa: E402
+from monitor.diagnostics.probe_model import SCENARIO_PROBE, scenario_sweeps  # noqa: E402
 
 SWEEPS = 48
 POINTS = 150
 RATE = 0.8                 # sweeps per second: the file covers one 60 s cycle of the scenario
-SPEC = ProbeSpec(geometry="cylinder", radius=5e-5, length=5e-3)   # as in probe_sweeps.toml
+SPEC = SCENARIO_PROBE       # a 0.05 mm x 5 mm cylinder, as in probe_sweeps.toml
 
 
 def main(out: Path) -> None:

@@ -10,7 +10,8 @@ from monitor.diagnostics.probe_single import BOHM_FACTOR
 from monitor.diagnostics.probe_spec import ProbeSpec
 from monitor.physics.constants import ELECTRON_MASS, ELEMENTARY_CHARGE, PI
 
-__all__ = ["single_probe_current", "double_probe_current", "noisy", "bias_grid"]
+__all__ = ["single_probe_current", "double_probe_current", "noisy", "bias_grid", "scenario_plasma", "scenario_sweeps",
+           "SCENARIO_PROBE", "SCENARIO_PERIOD"]
 
 
 def _erfcx(x: np.ndarray) -> np.ndarray:
@@ -80,6 +81,7 @@ def bias_grid(vp: np.ndarray | float, te: np.ndarray | float, n: int, below: flo
 # ----------------------------------------------------------------------------- the sim:probe scenario
 
 SCENARIO_PERIOD = 60.0        # s: the plasma's slow cycle
+SCENARIO_PROBE = ProbeSpec(geometry="cylinder", radius=5e-5, length=5e-3)   # thin enough for OML throughout
 _NOISE_BLOCK = 64
 
 

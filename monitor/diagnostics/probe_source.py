@@ -26,7 +26,7 @@ from adapters.framing import reject
 from adapters.sweeps import SweepBlock
 from monitor.diagnostics.probe import ProbeResults, analyse_sweeps
 from monitor.diagnostics.probe_file import read_sweeps
-from monitor.diagnostics.probe_model import scenario_sweeps
+from monitor.diagnostics.probe_model import SCENARIO_PROBE, scenario_sweeps
 from monitor.diagnostics.probe_spec import ProbeSpec
 
 __all__ = ["ProbeSweepSource", "readings", "COLUMNS"]
@@ -60,7 +60,8 @@ class ProbeSweepSource:
     """Sweeps as readings. ``path`` a sweep file (CSV, JSON lines or text lines) played in its data
     time at ``speed`` x real time (None: as fast as possible); ``path=None`` is `sim:probe`: our
     forward model's scenario at ``rate`` sweeps/s of ``points`` points, ``duration`` s (None: forever),
-    times offset by the wall clock at open (``epoch``)."""
+    times offset by the wall clock at open (``epoch``). ``probe`` None: the scenario's probe
+    (SCENARIO_PROBE) for sim:probe, the ProbeSpec defaults for a file."""
 
     def __init__(self, path: str | Path | None, *, probe: ProbeSpec | None = None, speed: float | None = 1.0,
                  rate: float = 20.0, points: int = 250, seed: int = 0, duration: float | None = None,
@@ -71,7 +72,7 @@ class ProbeSweepSource:
             raise FatalSourceError(f"rate must be positive and points >= 20, got {rate}, {points}")
         self.path = Path(path) if path is not None else None
         self.name = name or (self.path.name if self.path is not None else "sim:probe")
-        self.spec = probe or ProbeSpec()
+        self.spec = probe or (SCENARIO_PROBE if path is None else ProbeSpec())
         self.speed, self.rate, self.points, self.seed, self.noise = speed, rate, points, seed, noise
         self._total = None if duration is None else int(round(duration * rate))
         self._epoch_arg = epoch
