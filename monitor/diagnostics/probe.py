@@ -117,14 +117,15 @@ def analyse_sweeps(V: np.ndarray, I: np.ndarray, spec: ProbeSpec, *, sweep: np.n
               ("few_retarding_points", "not_exponential", "large_residuals", "knee_disagrees",
                "transitional_sheath", "ni_ne_mismatch", "coarse_smoothing", "double_fit_poor")}
     run = _double_chunk if spec.kind == "double" else _single_chunk
-    for start in range(0, S, CHUNK):              # screening and analysis chunk by chunk (cache-sized)
-        Vc, Ic = orient(V[start:start + CHUNK], I[start:start + CHUNK])
-        fail[start:start + CHUNK] = screen(Vc, Ic)
-        ok = np.flatnonzero(fail[start:start + CHUNK] == "")
-        if len(ok) == len(Vc):
-            run(Vc, Ic, spec, out, np.arange(start, start + len(Vc)), fail, method, doubts)
-        elif len(ok):
-            run(Vc[ok], Ic[ok], spec, out, start + ok, fail, method, doubts)
+    with np.errstate(all="ignore"):               # meaningless input gives NaN and a verdict, not warnings
+        for start in range(0, S, CHUNK):          # screening and analysis chunk by chunk (cache-sized)
+            Vc, Ic = orient(V[start:start + CHUNK], I[start:start + CHUNK])
+            fail[start:start + CHUNK] = screen(Vc, Ic)
+            ok = np.flatnonzero(fail[start:start + CHUNK] == "")
+            if len(ok) == len(Vc):
+                run(Vc, Ic, spec, out, np.arange(start, start + len(Vc)), fail, method, doubts)
+            elif len(ok):
+                run(Vc[ok], Ic[ok], spec, out, start + ok, fail, method, doubts)
     quality, reason = verdict(fail, doubts)
     rejected = quality == "rejected"
     for name in _FLOAT:

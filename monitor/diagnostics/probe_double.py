@@ -132,5 +132,12 @@ def analyse_double(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> DoubleFit:
         sigma_ni = ni * np.sqrt(np.maximum(var_ln, 0.0))
     fail = np.full(S, "", dtype=object)
     fail[~(np.isfinite(te) & (te > 0) & np.isfinite(isat) & (isat > 0))] = "fit_failed"
+    # the tanh must be resolved: I_sat well above its sigma, Te between the bias step and a quarter
+    # of the sweep's span (else the knee is a step or a straight line), Te to 50 %
+    step = np.abs(np.diff(V, axis=1)).max(axis=1)
+    span = V.max(axis=1) - V.min(axis=1)
+    with np.errstate(invalid="ignore"):
+        resolved = (isat > 5.0 * sig_isat) & (te > step) & (te < 0.25 * span) & (sig_te <= 0.5 * te)
+    fail[~resolved & (fail == "")] = "uncertain_fit"
     return DoubleFit(I_sat=isat, Te=te, slope=p[:, 2], offset=p[:, 3], sigma_I_sat=sig_isat, sigma_Te=sig_te,
                      ni=ni, sigma_ni=sigma_ni, chi2_red=chi2_red, fail=fail)

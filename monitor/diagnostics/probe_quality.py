@@ -10,7 +10,7 @@ MIN_POINTS = 20
 MALFORMED = ("too_few_points", "length_mismatch", "not_finite", "repeated_bias", "non_monotonic_bias",
              "saturated_rail")
 ANALYSIS_FAILURES = ("no_plasma_potential", "no_floating_potential", "no_ion_branch", "no_retarding_region",
-                     "fit_failed")
+                     "fit_failed", "uncertain_fit")
 # doubt token -> what it means (shown in the README and by `regime probe`)
 DOUBTS: dict[str, str] = {
     "few_retarding_points": "fewer than 8 points in the retarding (exponential) region",

@@ -180,6 +180,7 @@ def analyse_single(V: np.ndarray, I: np.ndarray, spec: ProbeSpec) -> SingleFit:
     fail[~(np.isfinite(te_fit) & (te_fit > 0)) & (fail == "")] = "fit_failed"
     with np.errstate(invalid="ignore", divide="ignore"):
         sigma_te = np.sqrt(fit.var_b) * te_fit ** 2
+        fail[~(sigma_te <= 0.5 * te_fit) & (fail == "")] = "uncertain_fit"      # Te not determined
 
     # the two halves of the retarding region, for the exponential test
     vmid = fit.x0[:, None]

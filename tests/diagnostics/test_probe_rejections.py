@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from monitor.diagnostics.probe import analyse_sweeps
 from monitor.diagnostics.probe_model import bias_grid, noisy, single_probe_current
@@ -88,3 +90,34 @@ def test_a_two_temperature_plasma_is_doubtful_not_exponential() -> None:
     assert set(res.quality) == {"doubtful"}
     assert all("not_exponential" in r for r in res.reason)
     assert np.isfinite(res["Te"]).all()
+
+
+@settings(max_examples=60)
+@given(st.integers(0, 5), st.integers(1, 80), st.sampled_from(["single", "double"]), st.integers(0, 2**16),
+       st.sampled_from(["noise", "steps", "nan", "huge"]))
+def test_any_input_gets_a_verdict_and_nothing_raises(rows: int, n: int, kind: str, seed: int, flavour: str) -> None:
+    rng = np.random.default_rng(seed)
+    V = np.sort(rng.uniform(-50, 50, (rows, n)), axis=1)
+    I = rng.normal(0, 1e-3, (rows, n))
+    if flavour == "steps":
+        I = np.round(I, 3)
+    elif flavour == "nan":
+        I[rng.random((rows, n)) < 0.05] = np.nan
+    elif flavour == "huge":
+        I *= 1e300
+    spec = ProbeSpec(kind=kind, radius=5e-5, length=5e-3)
+    res = analyse_sweeps(V, I, spec)
+    assert len(res) == rows
+    assert set(res.quality) <= {"accepted", "doubtful", "rejected"}
+    for k in range(rows):
+        assert (res.quality[k] == "rejected") == (res.reason[k] in MALFORMED + ANALYSIS_FAILURES)
+
+
+@pytest.mark.parametrize("kind", ["single", "double"])
+def test_pure_noise_is_never_accepted(kind: str) -> None:
+    """Sweeps of white noise alone (no plasma) must not pass as readings."""
+    rng = np.random.default_rng(0)
+    V = np.tile(np.linspace(-50, 50, 300), (400, 1))
+    res = analyse_sweeps(V, rng.normal(0, 1e-3, V.shape), ProbeSpec(kind=kind, radius=5e-5, length=5e-3))
+    assert "accepted" not in set(res.quality)
+    assert np.mean(res.quality == "rejected") > 0.95
