@@ -39,7 +39,10 @@ def read_sweeps(data: bytes, source: str) -> tuple[list[SweepBlock], list[Reject
         if not ln.strip() or ln.strip().startswith(b"#"):
             continue
         got = parse(ln.strip(), source, received)
-        (rejections if isinstance(got, Rejection) else blocks).append(got)   # type: ignore[arg-type]
+        if isinstance(got, Rejection):
+            rejections.append(got)
+        else:
+            blocks.append(got)
     return merge_blocks(blocks), rejections
 
 

@@ -110,3 +110,28 @@ def test_csv_keeps_every_row_in_a_sweep_or_a_rejection(rows: list[tuple[int, flo
     kept = sum(b.V.size for b in blocks)
     refused_rows = sum(int(r.detail.split("(")[1].split()[0]) for r in rej if r.reason == "duplicate_sweep")
     assert kept + refused_rows == len(rows)
+
+
+def test_the_three_file_formats_give_the_same_analysis(tmp_path) -> None:   # type: ignore[no-untyped-def]
+    """The demo CSV rewritten as JSON lines and as text lines: identical results sweep by sweep."""
+    import json as _json
+    from pathlib import Path
+
+    from monitor.diagnostics.probe_file import analyse_file
+    from monitor.diagnostics.probe_model import SCENARIO_PROBE
+
+    demo = Path(__file__).resolve().parents[2] / "replay_data" / "probe_sweeps.csv"
+    base = analyse_file(demo, SCENARIO_PROBE)
+    block, res = base.blocks[0], base.results[0]
+    rows = [k for k in range(len(block)) if np.isfinite(block.I[k]).all()]   # JSON refuses NaN (bad_json)
+    jl = "\n".join(_json.dumps({"sweep": int(block.sweep[k]), "t": float(block.t[k]), "V": block.V[k].tolist(),
+                                "I": block.I[k].tolist()}) for k in rows)
+    tl = "\n".join(f"sweep={int(block.sweep[k])} t={float(block.t[k])!r} V={','.join(map(repr, block.V[k].tolist()))} "
+                   f"I={','.join(map(repr, block.I[k].tolist()))}" for k in rows)
+    for name, text in (("s.jsonl", jl), ("s.txt", tl)):
+        (tmp_path / name).write_text("# sweeps\n" + text + "\n")
+        got = analyse_file(tmp_path / name, SCENARIO_PROBE)
+        assert got.rejections == ()
+        np.testing.assert_array_equal(got.results[0].sweep, res.sweep[rows])
+        np.testing.assert_array_equal(got.results[0].quality, res.quality[rows])
+        np.testing.assert_allclose(got.results[0]["Te"], res["Te"][rows], rtol=1e-12)
