@@ -2,7 +2,7 @@
 
 For two equal tips floating together, the current between them is
 I = I_sat tanh(e V / 2 k Te) (Hutchinson, *Principles of Plasma Diagnostics*,
-2nd ed., sec. 3.3 on double probes; Merlino 2007 for the Bohm ion current
+2nd ed., ch. 3 on double probes; Merlino 2007 for the Bohm ion current
 each tip saturates at). A linear term g V models sheath expansion and c an
 offset (stray current, slightly unequal tips). All sweeps are fitted
 together: the Jacobian is built for the whole (sweeps x points) array and the

@@ -31,9 +31,8 @@ def druyvesteyn(V: np.ndarray, I: np.ndarray, vp: np.ndarray, spec: ProbeSpec, w
     """g(eps) = (2 m_e / (e^2 A)) sqrt(2 e eps / m_e) d^2 I / dV^2 at eps = Vp - V > 0 (V in volts, eps in eV).
 
     Druyvesteyn's relation for any convex probe in the retarding region
-    (Hutchinson, *Principles of Plasma Diagnostics*, 2nd ed., sec. 3.2 on the
-    distribution function; Merlino 2007 discusses it for the same curves):
-    the ion line's second derivative vanishes, so the measured current is
+    (Hutchinson, *Principles of Plasma Diagnostics*, 2nd ed., ch. 3, on the
+    distribution function): the ion line's second derivative vanishes, so the measured current is
     differentiated directly. Smoothing: Savitzky-Golay of order 2 over
     ``window`` points (default twice the analysis window, so the second
     derivative's noise stays bounded); the distribution is blurred over

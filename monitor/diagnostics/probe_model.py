@@ -25,9 +25,9 @@ def single_probe_current(V: np.ndarray, ne: np.ndarray | float, Te: np.ndarray |
     """Probe current (A, electron collection positive) at bias V (V) for rows of (ne m^-3, Te eV, Vp V).
 
     Electrons (Maxwellian, thermal current I_e0 = e n A sqrt(e Te / 2 pi m_e)):
-    I_e0 exp((V - Vp)/Te) below Vp (Hutchinson sec. 3.2); above Vp, ``model="oml"``
+    I_e0 exp((V - Vp)/Te) below Vp (Hutchinson ch. 3); above Vp, ``model="oml"``
     gives the orbital-motion-limited cylinder I_e0 [2 sqrt(eta/pi) + exp(eta) erfc(sqrt(eta))],
-    eta = (V - Vp)/Te (Hutchinson sec. 3.3; Merlino 2007 sec. V), ``"thin_sheath"`` a flat I_e0.
+    eta = (V - Vp)/Te (Hutchinson ch. 3; Merlino 2007), ``"thin_sheath"`` a flat I_e0.
     Ions (cold, Z from spec, n_i = n_e / Z): OML cylinder I_i = Z e n_i A (sqrt 2 / pi) sqrt(Z e (Vp - V)/m_i);
     thin sheath the Bohm current exp(-1/2) Z e n_i A c_s times (1 + sheath_slope (Vp - V)/Te).
     Arrays broadcast: V (S, N) with ne, Te, Vp of shape (S, 1) or scalars.
@@ -56,7 +56,7 @@ def single_probe_current(V: np.ndarray, ne: np.ndarray | float, Te: np.ndarray |
 def double_probe_current(V: np.ndarray, ne: np.ndarray | float, Te: np.ndarray | float, spec: ProbeSpec,
                          *, slope: float = 0.0) -> np.ndarray:
     """Symmetric double probe: I = I_sat tanh(V / 2 Te) + slope V, with I_sat the Bohm current of one tip
-    exp(-1/2) Z e n_i A c_s (Hutchinson sec. 3.3, the double probe; Merlino 2007 for the Bohm current)."""
+    exp(-1/2) Z e n_i A c_s (Hutchinson ch. 3, the double probe; Merlino 2007 for the Bohm current)."""
     e, A, Z, mi = ELEMENTARY_CHARGE, spec.collecting_area, spec.ion_charge, spec.ion_mass
     te_ = np.asarray(Te, dtype=np.float64)
     isat = BOHM_FACTOR * Z * e * (np.asarray(ne, dtype=np.float64) / Z) * A * np.sqrt(Z * e * te_ / mi)

@@ -15,12 +15,12 @@ Am. J. Phys. 75, 1078 (2007)), done on whole (sweeps x points) arrays:
    Vf + Te/2 <= V <= Vp - Te/2 (steps 4-5 iterate twice from the first
    estimate Te0 = Ie(Vp) / max dI/dV);
 6. ne from the electron saturation current at Vp,
-   I_es = e n_e A sqrt(e Te / (2 pi m_e))   (Hutchinson sec. 3.2; Merlino eq. 4);
+   I_es = e n_e A sqrt(e Te / (2 pi m_e))   (Hutchinson ch. 3; Merlino 2007);
 7. ni by the Bohm (thin sheath) law I_sat = exp(-1/2) Z e n_i A c_s with
-   c_s = sqrt(Z e Te / m_i) (exp(-1/2) = 0.61, Hutchinson sec. 3.2), or for a
+   c_s = sqrt(Z e Te / m_i) (exp(-1/2) = 0.61 from memory, Hutchinson ch. 3), or for a
    thin cylinder (r_p < lambda_D) the orbital-motion-limited law
    I_i = Z e n_i A (sqrt(2) / pi) sqrt(Z e (Vp - V) / m_i) through the slope of
-   I_i^2 against V (Hutchinson sec. 3.3; Merlino sec. V).
+   I_i^2 against V (Hutchinson ch. 3; Merlino 2007).
 
 Noise is measured per sweep from the smoothing residual as a floor plus a
 part proportional to the current; it weights the fits and, through their
@@ -40,7 +40,7 @@ from monitor.physics.constants import ELECTRON_MASS, ELEMENTARY_CHARGE, EPSILON_
 
 __all__ = ["SingleFit", "analyse_single", "window_for", "BOHM_FACTOR", "OML_MAX_RATIO", "electron_saturation_density"]
 
-BOHM_FACTOR = math.exp(-0.5)      # 0.607: presheath density drop (Hutchinson sec. 3.2)
+BOHM_FACTOR = math.exp(-0.5)      # 0.607: presheath density drop (from memory; Hutchinson ch. 3)
 OML_MAX_RATIO = 1.0               # r_p / lambda_D below which a cylinder collects ions by OML (common practice)
 ION_BELOW = 2.5                   # ion branch: V <= Vf - ION_BELOW * Te
 MIN_ION = 5
@@ -90,7 +90,7 @@ def electron_saturation_density(ie_sat: np.ndarray, te: np.ndarray, area: float)
     """n_e = I_es / (e A sqrt(e Te / (2 pi m_e))): density from the electron current at Vp (m^-3).
 
     I_es in A, Te in eV, A in m^2: the one-way thermal flux n v_mean / 4 of a
-    Maxwellian (Hutchinson sec. 3.2; Merlino 2007, eq. 4).
+    Maxwellian (Hutchinson ch. 3; Merlino 2007).
     """
     with np.errstate(invalid="ignore", divide="ignore"):
         return ie_sat / (ELEMENTARY_CHARGE * area * np.sqrt(ELEMENTARY_CHARGE * te / (2.0 * PI * ELECTRON_MASS)))
