@@ -133,6 +133,6 @@ def run(args: argparse.Namespace) -> int:
     if args.plot:
         from monitor.diagnostics.probe_plot import plot_sweep
 
-        out_path = plot_sweep(found, args.plot, args.sweep)
+        out_path = plot_sweep(found, args.plot, args.sweep, spec.current_sign)
         print(f"regime probe: figure written to {out_path}", file=sys.stderr)
     return EXIT_OK

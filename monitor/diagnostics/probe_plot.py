@@ -28,9 +28,10 @@ def choose_sweep(found: Any, wanted: int | None) -> tuple[Any, Any, int]:
     return block, res, row
 
 
-def plot_sweep(found: Any, out: str | Path, wanted: int | None = None) -> Path:
+def plot_sweep(found: Any, out: str | Path, wanted: int | None = None, current_sign: float = 1.0) -> Path:
     """Draw one sweep to ``out`` (PNG): I-V with the ion line, ion + exponential fit, Vf, Vp and knee marks,
-    and ln Ie beside it. UsageError when matplotlib is not installed."""
+    and ln Ie beside it (the current as analysed: times ``current_sign``, bias ascending). UsageError
+    when matplotlib is not installed."""
     try:
         import matplotlib
         matplotlib.use("Agg")
@@ -38,7 +39,9 @@ def plot_sweep(found: Any, out: str | Path, wanted: int | None = None) -> Path:
     except ImportError:
         raise UsageError("--plot needs matplotlib: pip install 'regime[plot]' (or pip install matplotlib)") from None
     block, res, k = choose_sweep(found, wanted)
-    V, I = block.V[k], block.I[k]
+    V, I = block.V[k], block.I[k] * current_sign
+    if len(V) > 1 and V[-1] < V[0]:                  # swept downwards: drawn as analysed, ascending
+        V, I = V[::-1], I[::-1]
     fig, (ax, axl) = plt.subplots(1, 2, figsize=(11, 4.5), constrained_layout=True)
     ax.plot(V, I, ".", ms=3, color="0.3", label="sweep")
     f = res.fits
@@ -63,6 +66,9 @@ def plot_sweep(found: Any, out: str | Path, wanted: int | None = None) -> Path:
         fit = double_model(V[None, :], res["I_sat"][k] * one, res["Te"][k] * one, f["dbl_slope"][k] * one,
                            f["dbl_offset"][k] * one)[0]
         ax.plot(V, fit, "-", color="tab:orange", label=f"tanh fit, Te = {res['Te'][k]:.3g} eV")
+        axl.plot(V, I - fit, ".", ms=3, color="0.3", label="residual I - fit")
+        axl.axhline(0.0, color="tab:orange", lw=0.8)
+        axl.set_yscale("linear")
     for name, style in (("Vf", "tab:green"), ("Vp", "tab:red")):
         x = res[name][k]
         if math.isfinite(x):
@@ -79,7 +85,7 @@ def plot_sweep(found: Any, out: str | Path, wanted: int | None = None) -> Path:
     ax.set_title(title)
     ax.legend(loc="upper left", fontsize=8)
     axl.set_xlabel("bias V (V)")
-    axl.set_ylabel("electron current (A)")
+    axl.set_ylabel("residual (A)" if res.method[k] == "double_bohm" else "electron current (A)")
     ne = res["ne"][k]
     axl.set_title(f"ne = {ne:.3g} m^-3 [{res.method[k]}]" if math.isfinite(ne) else "electron current")
     if axl.has_data():
