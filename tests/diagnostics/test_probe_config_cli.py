@@ -94,3 +94,35 @@ def test_cli_bad_usage_exits_2(tmp_path: Path) -> None:
     bad = _write(tmp_path, '[probe]\nkind = "triple"\n')
     out = _run(str(DEMO), "--config", str(bad))
     assert out.returncode == 2 and "probe.kind" in out.stderr
+
+
+def test_cli_double_probe_reversed_sign_and_direction(tmp_path: Path) -> None:
+    """A double probe swept downwards by an instrument reporting the other sign (current_sign = -1)."""
+    import numpy as np
+
+    from monitor.diagnostics.probe_model import double_probe_current, noisy
+    from monitor.diagnostics.probe_spec import ProbeSpec
+
+    spec = ProbeSpec(kind="double", radius=1e-4, length=5e-3)
+    V = np.tile(np.linspace(40, -40, 200), (4, 1))                    # downwards
+    I = -noisy(double_probe_current(V, 1e16, 4.0, spec), 0.0, 2e-7, 1)  # the other sign
+    rows = [f"{s},{s + j * 1e-3},{V[s, j]!r},{I[s, j]!r}" for s in range(4) for j in range(200)]
+    data = tmp_path / "double.csv"
+    data.write_text("sweep,t,V,I\n" + "\n".join(rows) + "\n")
+    cfg = _write(tmp_path, '[probe]\nkind = "double"\nradius = "0.1mm"\nlength = "5mm"\ncurrent_sign = -1\n')
+    png = tmp_path / "double.png"
+    args = [str(data), "--config", str(cfg), "--json"]
+    out = _run(*args, *(["--plot", str(png)] if _has_matplotlib() else []))
+    assert out.returncode == 0, out.stderr
+    sweeps = [json.loads(x) for x in out.stdout.splitlines() if '"type":"sweep"' in x]
+    assert [s["quality"] for s in sweeps] == ["accepted"] * 4
+    assert all(abs(s["Te"] / 4.0 - 1) < 0.05 and abs(s["ne"] / 1e16 - 1) < 0.05 for s in sweeps)
+    assert all(s["method"] == "double_bohm" and s["Vf"] is None for s in sweeps)
+
+
+def _has_matplotlib() -> bool:
+    try:
+        import matplotlib  # noqa: F401
+    except ImportError:
+        return False
+    return True
