@@ -106,7 +106,7 @@ def test_cli_double_probe_reversed_sign_and_direction(tmp_path: Path) -> None:
     spec = ProbeSpec(kind="double", radius=1e-4, length=5e-3)
     V = np.tile(np.linspace(40, -40, 200), (4, 1))                    # downwards
     I = -noisy(double_probe_current(V, 1e16, 4.0, spec), 0.0, 2e-7, 1)  # the other sign
-    rows = [f"{s},{s + j * 1e-3},{V[s, j]!r},{I[s, j]!r}" for s in range(4) for j in range(200)]
+    rows = [f"{s},{s + j * 1e-3},{float(V[s, j])!r},{float(I[s, j])!r}" for s in range(4) for j in range(200)]
     data = tmp_path / "double.csv"
     data.write_text("sweep,t,V,I\n" + "\n".join(rows) + "\n")
     cfg = _write(tmp_path, '[probe]\nkind = "double"\nradius = "0.1mm"\nlength = "5mm"\ncurrent_sign = -1\n')
