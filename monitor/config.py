@@ -19,7 +19,8 @@ if TYPE_CHECKING:
 
 __all__ = ["Config", "load_config", "parse_config", "PipelineOptions"]
 
-_TABLES = ("device", "discharge", "sources", "channels", "limit", "alarms", "recording", "pipeline", "interferometer")
+_TABLES = ("device", "discharge", "sources", "channels", "limit", "alarms", "recording", "pipeline",
+           "interferometer", "probe")
 
 # [device] key -> (Device field, dimension for monitor.units)
 _DEVICE_KEYS: dict[str, tuple[str, str]] = {

@@ -12,4 +12,5 @@ COMMANDS: dict[str, str] = {
     "check": "validate an envelope/config file without running",
     "archive": "catalogue every recorded shot in a folder; find, export and trend shots",
     "compare": "overlay up to eight shots aligned at discharge start, with a table of differences",
+    "probe": "analyse a file of Langmuir probe sweeps (Te, ne, ni, Vf, Vp with uncertainties)",
 }
