@@ -78,6 +78,10 @@ class RelayConsole:
         self._sock.setsockopt(zmq.SUBSCRIBE, TOPIC_PREFIX)
         self._sock.connect(self.endpoint)
 
+    @property
+    def is_open(self) -> bool:
+        return self._sock is not None
+
     def close(self) -> None:
         if self._sock is not None:
             self._sock.close(0)
@@ -167,8 +171,12 @@ class RelayConsole:
         sources = h.get("sources") or {}
         if sources:
             self._owner = status_from(next(iter(sources.values())))
+        sent = int(h["accepted"])          # every reading sent before this state
         if self.accepted is None:
-            self.accepted = int(h["accepted"])
+            self.accepted = sent
+        elif sent > self.accepted:
+            self.missed += sent - self.accepted
+            self.accepted = sent
         if self._trail is None or self.behind:
             names = tuple(h.get("trail_names") or ())
             self._trail = Trail(names, float(h.get("trail_seconds") or 60.0), int(h.get("trail_points") or 600))

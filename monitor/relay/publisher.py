@@ -97,6 +97,11 @@ class RelayPublisher:
         """Publish an operator action's record (the authority's ``regime.action`` messages)."""
         self._put(("action", dict(record), None))
 
+    @property
+    def pending(self) -> int:
+        """Readings and events not sent yet (0: consoles have been sent everything the run made so far)."""
+        return len(self._queue) + (self._accepted != self._accepted_sent)
+
     def _put(self, item: _Item) -> None:
         if len(self._queue) >= self._limit:
             self.dropped += 1

@@ -1,0 +1,51 @@
+"""The owner's side in one call: the relay publisher and, when operators are named, the alarm authority, closed with the session."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Mapping
+
+from monitor.relay.authority import OperatorAuthority
+from monitor.relay.publisher import RelayPublisher
+
+if TYPE_CHECKING:
+    from monitor.session import Session
+
+__all__ = ["RelayOwner", "start_relay"]
+
+
+class RelayOwner:
+    """The relay of one session: ``publisher`` and ``authority`` (None without operators)."""
+
+    def __init__(self, publisher: RelayPublisher, authority: OperatorAuthority | None) -> None:
+        self.publisher = publisher
+        self.authority = authority
+
+    @property
+    def endpoint(self) -> str:
+        return self.publisher.endpoint
+
+    def close(self) -> None:
+        """Stop taking requests, then send what is queued and a last state (idempotent)."""
+        if self.authority is not None:
+            self.authority.close()
+        self.publisher.close()
+
+
+def start_relay(session: Session, endpoint: str, *, allow_remote: bool = False,
+                operators: Mapping[str, str] | None = None, journal: str | Path | None = None,
+                interval: float = 1.0, shot: str | None = None) -> RelayOwner:
+    """Relay ``session`` at ``endpoint``; with ``operators`` (key -> identity) consoles may send actions.
+    Attach before the run starts; the session's close closes the relay."""
+    publisher = RelayPublisher(session, endpoint, allow_remote=allow_remote, interval=interval, shot=shot,
+                               requests=bool(operators))
+    authority = None
+    if operators:
+        try:
+            authority = OperatorAuthority(session, publisher, operators, journal=journal)
+        except Exception:
+            publisher.close()
+            raise
+    owner = RelayOwner(publisher, authority)
+    session.add_sink(owner)
+    return owner
