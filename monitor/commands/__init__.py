@@ -10,4 +10,5 @@ COMMANDS: dict[str, str] = {
     "report": "summarise a recorded shot",
     "simulate": "publish a simulated discharge on ZeroMQ",
     "check": "validate an envelope/config file without running",
+    "serve": "the operator's screen in web browsers, read-only, on a run's relay",
 }
