@@ -48,6 +48,7 @@ class RelayConsole:
         self.events: collections.deque[AlarmEvent] = collections.deque(maxlen=5000)
         self.actions: collections.deque[dict[str, Any]] = collections.deque(maxlen=200)
         self.bad_messages = 0
+        self.notice_total = 0
         self._last_seen: float | None = None
         self._reset()
 
@@ -74,6 +75,7 @@ class RelayConsole:
         ctx = self._ctx or zmq.Context.instance()
         self._sock = ctx.socket(zmq.SUB)
         self._sock.setsockopt(zmq.RCVHWM, self._rcvhwm)
+        self._sock.setsockopt(zmq.MAXMSGSIZE, 256 * 2**20)     # a memory defence against a hostile relay
         self._sock.setsockopt(zmq.LINGER, 0)
         self._sock.setsockopt(zmq.SUBSCRIBE, TOPIC_PREFIX)
         self._sock.connect(self.endpoint)
@@ -132,7 +134,7 @@ class RelayConsole:
         run = str(h["run"])
         if run != self.run:
             if self.run is not None:
-                self.notices.append(f"a new run began ({run}); the owner restarted")
+                self._notice(f"a new run began ({run}); the owner restarted")
             self._reset()
             self.run = run
             self.runs.append(run)
@@ -140,10 +142,20 @@ class RelayConsole:
         if self._last_msg is not None and msg > self._last_msg + 1:
             self.gaps += msg - self._last_msg - 1
             if not self.behind:
-                self.notices.append(f"fell behind: {msg - self._last_msg - 1} messages missed; "
+                self._notice(f"fell behind: {msg - self._last_msg - 1} messages missed; "
                                     "catching up from the next state")
             self.behind = True
         self._last_msg = msg
+
+    def _notice(self, text: str) -> None:
+        self.notices.append(text)
+        self.notice_total += 1
+
+    def notices_since(self, seen: int) -> tuple[list[str], int]:
+        """Notices after the first ``seen`` ever made (those still kept), and the total so far."""
+        with self._lock:
+            new = min(self.notice_total - seen, len(self.notices))
+            return (list(self.notices)[len(self.notices) - new:] if new > 0 else []), self.notice_total
 
     def _data(self, h: Mapping[str, Any], cols: Mapping[str, np.ndarray]) -> None:
         n = int(h["n"])
@@ -187,7 +199,7 @@ class RelayConsole:
             self._data_time = h.get("data_time")
             self._discharge = bool(h["discharge_on"]) if h.get("discharge_known") else None
         if self.behind:
-            self.notices.append(f"caught up from the owner's state; {self.missed} readings missed so far")
+            self._notice(f"caught up from the owner's state; {self.missed} readings missed so far")
             self.behind = False
         if self.states == 1:
             for d in h.get("recent") or ():
@@ -229,6 +241,12 @@ class RelayConsole:
                 return SourceStatus(name, LinkState.DISCONNECTED, f"owner silent for {silent:.0f} s")
             return SourceStatus(name, LinkState.CONNECTED, self.notices[-1] if self.notices else
                                 f"run {self.run} of {self.identity.get('source', '?')}")
+
+    @property
+    def owner_status(self) -> SourceStatus | None:
+        """The owner's source status as last relayed (``ended`` once its run is over)."""
+        with self._lock:
+            return self._owner
 
     def alarms(self) -> tuple[AlarmView, ...]:
         with self._lock:

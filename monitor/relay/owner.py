@@ -11,7 +11,28 @@ from monitor.relay.publisher import RelayPublisher
 if TYPE_CHECKING:
     from monitor.session import Session
 
-__all__ = ["RelayOwner", "start_relay"]
+__all__ = ["RelayOwner", "start_relay", "load_operator_keys"]
+
+
+def load_operator_keys(path: str | Path) -> dict[str, str]:
+    """The operators a relay accepts actions from: one ``IDENTITY KEY`` pair a line (``#`` comments),
+    identity without spaces, key at least 12 characters; key -> identity. UsageError for anything else."""
+    from monitor.errors import UsageError
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except OSError as exc:
+        raise UsageError(f"operator keys {path}: {exc.strerror or exc}") from None
+    keys: dict[str, str] = {}
+    for number, line in enumerate(text.splitlines(), 1):
+        words = line.split("#", 1)[0].split()
+        if not words:
+            continue
+        if len(words) != 2 or len(words[1]) < 12:
+            raise UsageError(f"operator keys {path}:{number}: write IDENTITY KEY (a key of 12 or more characters)")
+        if words[1] in keys:
+            raise UsageError(f"operator keys {path}:{number}: this key is given to {keys[words[1]]} already")
+        keys[words[1]] = words[0]
+    return keys
 
 
 class RelayOwner:

@@ -74,6 +74,7 @@ class RelayPublisher:
         self.dropped = 0
         self.states = 0
         self.subscribers = 0
+        self.cpu = 0.0          # CPU seconds of the relay's own thread (encoding and sending), once closed
         self._closed = threading.Event()
         self._thread = threading.Thread(target=self._loop, name="regime-relay", daemon=True)
         session.add_sink(self)
@@ -129,6 +130,7 @@ class RelayPublisher:
                 self._send_state()
                 next_state = time.monotonic() + self.interval
             if closing:
+                self.cpu = time.thread_time()
                 return
 
     def _header(self, kind: str) -> dict[str, Any]:
@@ -193,4 +195,5 @@ class RelayPublisher:
             return
         self._closed.set()
         self._thread.join(timeout=5.0)
-        self._sock.close(0)
+        # what is still queued for consoles goes out for up to 2 s more (ZeroMQ's I/O thread; close does not wait)
+        self._sock.close(linger=2000)
