@@ -76,8 +76,8 @@ def run_console(spec: str, *, operator_key: str | None = None, name: str = "cons
                 printer.status(snap)
                 next_line = now + 1.0
             owner = console.owner_status
-            if owner is not None and owner.state in (LinkState.ENDED, LinkState.FAILED):
-                break       # everything the owner sent before its status came first
+            if owner is not None and owner.state in (LinkState.ENDED, LinkState.FAILED) and console.states:
+                break       # the whole picture came (a state), and everything the owner sent before its end
     finally:
         console.close()
         if previous is not None:
