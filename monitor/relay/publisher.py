@@ -10,6 +10,7 @@ from typing import TYPE_CHECKING, Any, Mapping, Union
 
 from adapters.base import SourceStatus
 from monitor.alarms.events import AlarmEvent, AlarmView
+from monitor.alarms.publisher import PublisherBindError as RelayBindError   # exit 3, as for the alarm publisher
 from monitor.channels import BASE_KEYS
 from monitor.model import Frame
 from monitor.relay.state import data_columns, data_fields, event_json, frame_latest, state_header, status_json, view_json
@@ -20,8 +21,6 @@ if TYPE_CHECKING:
     from monitor.session import Session
 
 __all__ = ["RelayPublisher", "RelayBindError"]
-
-from monitor.alarms.publisher import PublisherBindError as RelayBindError   # exit 3, as for the alarm publisher
 
 _Item = Union[tuple[str, Frame, int], tuple[str, AlarmEvent, "AlarmView | None"], tuple[str, SourceStatus, None],
               tuple[str, dict[str, Any], None]]

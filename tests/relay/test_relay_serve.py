@@ -128,3 +128,15 @@ def test_serve_refuses_remote_without_a_token() -> None:
     out = subprocess.run([sys.executable, "-m", "monitor", "serve"], env=env, capture_output=True, text=True,
                          timeout=60)
     assert out.returncode == 2 and "give a SOURCE or --relay" in out.stderr
+
+
+def test_serve_refusals_in_process(capsys, monkeypatch) -> None:
+    from monitor.cli import main
+
+    monkeypatch.delenv("REGIME_SERVE_TOKEN", raising=False)
+    for argv, says in ((["serve", "sim:demo", "--allow-remote", "--token", "short"], "at least 12"),
+                       (["serve", "--relay", "tcp://127.0.0.1:5590", "sim:demo"], "one of them"),
+                       (["serve", "--relay", "serial:/dev/ttyS0"], "relay+tcp://HOST:PORT"),
+                       (["serve", "sim:demo", "--port", "70000"], "1-65535")):
+        assert main(argv) == 2
+        assert says in capsys.readouterr().err
