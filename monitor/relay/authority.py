@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING, Any, Mapping
 
 from monitor.alarms.events import AlarmEvent
 from monitor.operator import UnknownAlarm
+from monitor.relay.curve import server_socket_keys
 from monitor.relay.requests import command_from
 from monitor.relay.state import event_json
 from monitor.relay.wire import VERSION, dumps
@@ -43,8 +44,10 @@ class OperatorAuthority:
         self._session = session
         self._publisher = publisher
         self._operators = dict(operators)
-        ctx = context or zmq.Context.instance()
+        ctx = context or publisher.context
         self._sock = ctx.socket(zmq.ROUTER)
+        if publisher.curve is not None:
+            server_socket_keys(self._sock, publisher.curve[0])
         self._sock.setsockopt(zmq.LINGER, 0)
         self._sock.setsockopt(zmq.MAXMSGSIZE, 65536)       # a hostile console cannot make us read megabytes
         try:

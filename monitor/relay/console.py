@@ -13,6 +13,7 @@ import numpy as np
 from adapters.base import LinkState, SourceStatus
 from monitor.alarms.events import AlarmEvent, AlarmView
 from monitor.pipeline.rolling import Trail
+from monitor.relay.curve import ConsoleCurve, client_socket_keys
 from monitor.relay.state import counts_from, event_from, snapshot_from, status_from, view_from
 from monitor.relay.wire import TOPIC_PREFIX, VERSION, console_endpoint, decode_columns
 from monitor.snapshot import Snapshot, SourceCounts
@@ -33,8 +34,10 @@ class RelayConsole:
     and the properties from any (a lock keeps them consistent)."""
 
     def __init__(self, spec: str, *, context: Any = None, rcvhwm: int = 100_000,
-                 clock: Callable[[], float] = time.time, on_event: Callable[[AlarmEvent], None] | None = None) -> None:
+                 clock: Callable[[], float] = time.time, on_event: Callable[[AlarmEvent], None] | None = None,
+                 curve: ConsoleCurve | None = None) -> None:
         self.endpoint = console_endpoint(spec)
+        self.curve = curve
         self._ctx = context
         self._rcvhwm = rcvhwm
         self._clock = clock
@@ -74,6 +77,8 @@ class RelayConsole:
         import zmq
         ctx = self._ctx or zmq.Context.instance()
         self._sock = ctx.socket(zmq.SUB)
+        if self.curve is not None:
+            client_socket_keys(self._sock, self.curve)
         self._sock.setsockopt(zmq.RCVHWM, self._rcvhwm)
         self._sock.setsockopt(zmq.MAXMSGSIZE, 256 * 2**20)     # a memory defence against a hostile relay
         self._sock.setsockopt(zmq.LINGER, 0)

@@ -59,7 +59,8 @@ class RelayFeed:
         if self._client is None or self._client.endpoint != requests:
             if self._client is not None:
                 self._client.close()
-            self._client = OperatorClient(requests, token=self._token, name=self._name, context=self._context)
+            self._client = OperatorClient(requests, token=self._token, name=self._name, context=self._context,
+                                          curve=self.console.curve)
         alarm = args[0] if args else None
         seconds = args[1] if len(args) > 1 else None
         reply = self._client.request(action, alarm, seconds, run=self.console.run)

@@ -6,6 +6,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Mapping
 
 from monitor.relay.authority import OperatorAuthority
+from monitor.relay.curve import RelayCurve
 from monitor.relay.publisher import RelayPublisher
 
 if TYPE_CHECKING:
@@ -55,11 +56,13 @@ class RelayOwner:
 
 def start_relay(session: Session, endpoint: str, *, allow_remote: bool = False,
                 operators: Mapping[str, str] | None = None, journal: str | Path | None = None,
-                interval: float = 1.0, shot: str | None = None) -> RelayOwner:
+                interval: float = 1.0, shot: str | None = None, curve: RelayCurve | None = None) -> RelayOwner:
     """Relay ``session`` at ``endpoint``; with ``operators`` (key -> identity) consoles may send actions.
-    Attach before the run starts; the session's close closes the relay."""
+    ``curve`` (the owner's secret key file, a directory of the consoles' public keys) admits only those
+    consoles, on the relay and the request channel alike. Attach before the run starts; the session's
+    close closes the relay."""
     publisher = RelayPublisher(session, endpoint, allow_remote=allow_remote, interval=interval, shot=shot,
-                               requests=bool(operators))
+                               requests=bool(operators), curve=curve)
     authority = None
     if operators:
         try:

@@ -13,6 +13,8 @@ from monitor.alarms.events import AlarmEvent, AlarmView
 from monitor.alarms.publisher import PublisherBindError as RelayBindError   # exit 3, as for the alarm publisher
 from monitor.channels import BASE_KEYS
 from monitor.model import Frame
+from monitor.errors import UsageError
+from monitor.relay.curve import RelayCurve, server_socket_keys, start_authenticator
 from monitor.relay.state import data_columns, data_fields, event_json, frame_latest, state_header, status_json, view_json
 from monitor.relay.wire import (TOPIC_ACTION, TOPIC_ALARM, TOPIC_DATA, TOPIC_STATE, TOPIC_STATUS, VERSION,
                                 config_fingerprint, dumps, encode_columns, relay_endpoint, request_endpoint)
@@ -39,21 +41,38 @@ class RelayPublisher:
 
     def __init__(self, session: Session, endpoint: str, *, allow_remote: bool = False, interval: float = 1.0,
                  sndhwm: int = 100_000, queue: int = 100_000, shot: str | None = None, context: Any = None,
-                 requests: bool = True) -> None:
+                 requests: bool = True, curve: RelayCurve | None = None) -> None:
         import zmq
 
         self._zmq = zmq
         self._session = session
-        self._ctx = context or zmq.Context.instance()
+        self._auth: Any = None
+        self.curve = curve
+        if curve is not None:
+            # a context of its own: one ZAP handler per context, admitting the consoles' keys
+            self._ctx = zmq.Context()
+            self._auth = start_authenticator(self._ctx, curve[1])
+        else:
+            self._ctx = context or zmq.Context.instance()
         self._sock = self._ctx.socket(zmq.XPUB)
+        if curve is not None:
+            try:
+                server_socket_keys(self._sock, curve[0])
+            except Exception:
+                self._sock.close(0)
+                self._stop_auth()
+                raise
         self._sock.setsockopt(zmq.SNDHWM, sndhwm)
         self._sock.setsockopt(zmq.XPUB_VERBOSE, 1)     # every console's subscription, not only the first
         self._sock.setsockopt(zmq.LINGER, 0)
-        ep = relay_endpoint(endpoint, allow_remote=allow_remote)
         try:
+            ep = relay_endpoint(endpoint, allow_remote=allow_remote or curve is not None)
             self._sock.bind(ep)
-        except zmq.ZMQError as exc:
+        except (zmq.ZMQError, UsageError) as exc:
             self._sock.close(0)
+            self._stop_auth()
+            if isinstance(exc, UsageError):
+                raise
             raise RelayBindError(f"cannot bind the relay to {ep}: {exc}") from None
         self.endpoint: str = self._sock.getsockopt_string(zmq.LAST_ENDPOINT)
         self.requests: str | None = request_endpoint(self.endpoint) if requests else None
@@ -196,3 +215,14 @@ class RelayPublisher:
         self._thread.join(timeout=5.0)
         # what is still queued for consoles goes out for up to 2 s more (ZeroMQ's I/O thread; close does not wait)
         self._sock.close(linger=2000)
+        self._stop_auth()
+
+    @property
+    def context(self) -> Any:
+        """The ZeroMQ context of the relay's sockets (the authority binds its socket in it, under the same keys)."""
+        return self._ctx
+
+    def _stop_auth(self) -> None:
+        if self._auth is not None:
+            self._auth.stop()
+            self._auth = None

@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 from typing import Any, Mapping
 
 from monitor.operator import Acknowledge, AlarmCommand, Reset, Shelve, Unshelve
+from monitor.relay.curve import ConsoleCurve, client_socket_keys
 from monitor.relay.wire import VERSION, dumps
 
 __all__ = ["Reply", "OperatorClient", "command_from", "COMMANDS"]
@@ -66,11 +67,14 @@ class OperatorClient:
     applies it at most once; the run id the console saw goes with it, so an owner that restarted
     refuses it instead of acting on a run the operator never saw. Thread-safe (one request at a time)."""
 
-    def __init__(self, endpoint: str, *, token: str, name: str, context: Any = None) -> None:
+    def __init__(self, endpoint: str, *, token: str, name: str, context: Any = None,
+                 curve: ConsoleCurve | None = None) -> None:
         import zmq
         self._zmq = zmq
         ctx = context or zmq.Context.instance()
         self._sock = ctx.socket(zmq.DEALER)
+        if curve is not None:
+            client_socket_keys(self._sock, curve)
         self._sock.setsockopt(zmq.LINGER, 0)
         self._sock.connect(endpoint)
         self.endpoint = endpoint
