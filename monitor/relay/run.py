@@ -11,6 +11,7 @@ from typing import Any, TextIO
 from adapters.base import LinkState
 from monitor.errors import EXIT_OK
 from monitor.relay.console import RelayConsole
+from monitor.relay.curve import ConsoleCurve
 from monitor.relay.feed import RelayFeed
 
 __all__ = ["run_console", "console_summary"]
@@ -35,10 +36,12 @@ def console_summary(console: RelayConsole) -> dict[str, Any]:
 
 def run_console(spec: str, *, operator_key: str | None = None, name: str = "console", headless: bool = False,
                 as_json: bool = False, duration: float | None = None, title: str | None = None,
-                stop: threading.Event | None = None, out: TextIO | None = None) -> int:
+                stop: threading.Event | None = None, out: TextIO | None = None,
+                curve: ConsoleCurve | None = None) -> int:
     """Attach to the relay ``spec`` and show the owner's run until quit, ``duration`` wall seconds, ``stop``
-    or (headless) the owner's run ending. ``operator_key``: actions go to the owner (--operator)."""
-    console = RelayConsole(spec)
+    or (headless) the owner's run ending. ``operator_key``: actions go to the owner (--operator).
+    ``curve``: (the owner's public key file, this console's secret key file) for a relay under CURVE."""
+    console = RelayConsole(spec, curve=curve)
     feed = RelayFeed(console, token=operator_key, name=name)
     stop = stop or threading.Event()
     if not headless:
