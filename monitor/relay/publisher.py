@@ -24,6 +24,8 @@ if TYPE_CHECKING:
 
 __all__ = ["RelayPublisher", "RelayBindError"]
 
+_STATE_GAP = 0.1     # s between state messages sent for subscriptions (a console resubscribing in a loop costs little)
+
 _Item = Union[tuple[str, Frame, int], tuple[str, AlarmEvent, "AlarmView | None"], tuple[str, SourceStatus, None],
               tuple[str, dict[str, Any], None]]
 
@@ -130,7 +132,7 @@ class RelayPublisher:
     # -- the relay's thread ----------------------------------------------------
     def _loop(self) -> None:
         zmq = self._zmq
-        next_state = time.monotonic()
+        next_state = last_state = time.monotonic()
         while True:
             closing = self._closed.is_set()
             want = False
@@ -144,9 +146,13 @@ class RelayPublisher:
                 return
             while self._queue:
                 self._send(self._queue.popleft())
-            if want or time.monotonic() >= next_state or closing:
+            if want:
+                # at once for a new console, but at most 10 a second however often consoles (re)subscribe
+                next_state = min(next_state, last_state + min(_STATE_GAP, self.interval))
+            if time.monotonic() >= next_state or closing:
                 self._send_state()
-                next_state = time.monotonic() + self.interval
+                last_state = time.monotonic()
+                next_state = last_state + self.interval
             if closing:
                 self.cpu = time.thread_time()
                 return

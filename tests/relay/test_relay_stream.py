@@ -168,3 +168,4 @@ def test_unreadable_messages_are_counted_and_change_nothing(tmp_path):
     finally:
         console.close()
         pub.close(0)
+
