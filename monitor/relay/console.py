@@ -71,6 +71,7 @@ class RelayConsole:
         self._data_time: float | None = None
         self._discharge: bool | None = None
         self._owner: SourceStatus | None = None
+        self._held: list[AlarmEvent] = []
 
     # -- life cycle --------------------------------------------------------------
     def open(self) -> None:
@@ -207,15 +208,22 @@ class RelayConsole:
             self._notice(f"caught up from the owner's state; {self.missed} readings missed so far")
             self.behind = False
         if self.states == 1:
-            for d in h.get("recent") or ():
-                self._event(event_from(d))
+            # the owner's recent events first, then those heard before this state that it does not hold
+            recent = [event_from(d) for d in h.get("recent") or ()]
+            known = {_key(e) for e in recent}
+            held, self._held = self._held, []
+            for event in recent + [e for e in held if _key(e) not in known]:
+                self._event(event)
 
     def _alarm(self, h: Mapping[str, Any]) -> None:
         event = event_from(h["event"])
         if h.get("view"):
             view = view_from(h["view"])
             self._alarms[view.alarm] = view
-        self._event(event)
+        if self.states == 0:
+            self._held.append(event)      # told in order with the owner's recent events at the first state
+        else:
+            self._event(event)
 
     def _event(self, event: AlarmEvent) -> None:
         self.events.append(event)
@@ -282,6 +290,10 @@ class RelayConsole:
             return {"type": "relay", "run": self.run, "runs": len(self.runs), "received": self.received,
                     "missed": self.missed, "accepted": self.accepted, "gaps": self.gaps, "states": self.states,
                     "bad_messages": self.bad_messages, "behind": self.behind}
+
+
+def _key(e: AlarmEvent) -> tuple[float, str, str, float, str | None]:
+    return (e.wall, e.alarm, e.state.value, e.time, e.action)
 
 
 def _num(x: Any) -> float:
