@@ -13,4 +13,5 @@ COMMANDS: dict[str, str] = {
     "archive": "catalogue every recorded shot in a folder; find, export and trend shots",
     "compare": "overlay up to eight shots aligned at discharge start, with a table of differences",
     "probe": "analyse a file of Langmuir probe sweeps (Te, ne, ni, Vf, Vp with uncertainties)",
+    "serve": "the operator's screen in web browsers, read-only, on a run's relay",
 }
