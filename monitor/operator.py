@@ -24,6 +24,7 @@ class Acknowledge:
     """Acknowledge one alarm, or every alarm waiting for it (``alarm`` None)."""
 
     alarm: str | None = None
+    by: str | None = None     # who asked, when not this console (a relay's operator key)
 
 
 @dataclass(frozen=True)
@@ -32,11 +33,13 @@ class Shelve:
 
     alarm: str
     seconds: float | None = None
+    by: str | None = None     # who asked, when not this console (a relay's operator key)
 
 
 @dataclass(frozen=True)
 class Unshelve:
     alarm: str
+    by: str | None = None     # who asked, when not this console (a relay's operator key)
 
 
 @dataclass(frozen=True)
@@ -44,12 +47,14 @@ class Reset:
     """Reset a latched alarm whose condition has returned."""
 
     alarm: str
+    by: str | None = None     # who asked, when not this console (a relay's operator key)
 
 
 @dataclass(frozen=True)
 class OutOfService:
     alarm: str
     flag: bool = True
+    by: str | None = None     # who asked, when not this console (a relay's operator key)
 
 
 @dataclass(frozen=True)

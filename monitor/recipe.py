@@ -18,7 +18,18 @@ from monitor.session import Session, make_engine
 if TYPE_CHECKING:
     from monitor.tui.settings import ScreenSettings
 
-__all__ = ["RunPlan", "execute"]
+__all__ = ["RunPlan", "RelayOptions", "execute"]
+
+
+@dataclass(frozen=True)
+class RelayOptions:
+    """``--relay ENDPOINT``; ``operator_keys`` (--operator-keys F) names the consoles that may act;
+    ``curve`` is the owner's secret key file and the directory of the consoles' public keys."""
+
+    endpoint: str
+    operator_keys: str | None = None
+    allow_remote: bool = False
+    curve: tuple[str, str] | None = None
 
 
 @dataclass(frozen=True)
@@ -45,6 +56,7 @@ class RunPlan:
     annotate: Callable[[dict[str, Any]], None] | None = None
     finish: Callable[[], int] | None = None
     stop: threading.Event = field(default_factory=threading.Event)
+    relay: RelayOptions | None = None            # --relay: republish the run for consoles and browsers
 
 
 def execute(plan: RunPlan) -> int:
@@ -52,6 +64,8 @@ def execute(plan: RunPlan) -> int:
     recording is incomplete (said on stderr), else what ``finish`` says, else 0."""
     session = Session(plan.source, plan.config, plan.outputs.sinks, engine=make_engine(plan.config),
                       live=plan.live, recorder=plan.outputs.recorder)
+    if plan.relay is not None:
+        _start_relay(session, plan.relay)
     if plan.headless:
         _headless(session, plan)
     else:
@@ -71,6 +85,21 @@ def execute(plan: RunPlan) -> int:
     if code is not None:
         return code
     return plan.finish() if plan.finish is not None else EXIT_OK
+
+
+def _start_relay(session: Session, relay: RelayOptions) -> None:
+    """The run's relay (monitor/relay): the session's close closes it; a refused address is a
+    UsageError (exit 2), an address in use a PublisherBindError (exit 3)."""
+    from monitor.relay.owner import load_operator_keys, start_relay
+
+    keys = load_operator_keys(relay.operator_keys) if relay.operator_keys else None
+    try:
+        start_relay(session, relay.endpoint, allow_remote=relay.allow_remote, operators=keys,
+                    journal=relay.operator_keys + ".journal" if relay.operator_keys else None,
+                    curve=relay.curve)
+    except BaseException:
+        session.close()
+        raise
 
 
 def _printer(session: Session) -> HeadlessPrinter | None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 import threading
 import time
@@ -290,6 +291,8 @@ class Session:
             else:
                 assert isinstance(command, OutOfService)
                 events = engine.set_out_of_service(command.alarm, command.flag, at=at)
+            if command.by is not None:      # an action from another console: its events say who acted
+                events = [dataclasses.replace(e, operator=command.by) for e in events]
             self._dispatch(events)
             return events
 

@@ -52,6 +52,7 @@ class AlarmEvent:
     action: str | None = None
     message: str = ""
     predicted_time: float | None = None
+    operator: str | None = None     # who acted, for an operator action from another console (a relay's key)
 
     def to_json(self) -> dict[str, Any]:
         """The contract of ``{"type": "alarm", ...}`` lines and the journal."""

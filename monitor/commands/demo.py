@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 from importlib import resources
 
-from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags
+from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags, relay_options
 
 __all__ = ["register", "run", "envelope_path"]
 
@@ -59,4 +59,5 @@ def run(args: argparse.Namespace) -> int:
         screen = settings_for(config, title="regime demo", bell=False if args.no_bell else None, units=args.units,
                               quit_after=args.duration)
     return execute(RunPlan("regime demo", source, config, outputs, live=True, headless=args.headless,
-                           json=args.json, duration=args.duration, screen=screen))
+                           json=args.json, duration=args.duration, screen=screen,
+                           relay=relay_options(args)))

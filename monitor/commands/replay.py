@@ -8,7 +8,7 @@ import sys
 import time
 from typing import Any
 
-from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags
+from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags, relay_options
 from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE
 
 __all__ = ["register", "run"]
@@ -97,7 +97,7 @@ def run(args: argparse.Namespace) -> int:
                            json=args.json, screen=screen, open_first=True,
                            on_interval=_Progress(args.headless and not args.quiet),
                            annotate=annotate if args.headless else None,
-                           finish=lambda: _empty_window(source, args, window)))
+                           finish=lambda: _empty_window(source, args, window), relay=relay_options(args)))
 
 
 def _empty_window(source: Any, args: argparse.Namespace, window: str) -> int:

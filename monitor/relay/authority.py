@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import collections
 import json
 import threading
@@ -109,6 +111,8 @@ class OperatorAuthority:
             command = command_from(req)
         except ValueError as exc:
             return self._remember(rid, self._refuse(req, by, str(exc)))
+        console = req.get("console")
+        command = dataclasses.replace(command, by=f"{by} via {console}" if console else by)   # journaled with the event
         try:
             result = self._session.apply(command)
         except UnknownAlarm as exc:
