@@ -12,7 +12,7 @@ import numpy as np
 
 from adapters.batch import Batch, Rejection
 from adapters.framing import (DTYPES, KEEP_RAW, KEY, MAX_FRAME, MAX_HEADER, MAX_LINE, REASONS, RESERVED, SEQ_MAX,
-                              LineFramer, refuse_constant, parse_binary_batch, reject)
+                              T_LIMIT, LineFramer, refuse_constant, parse_binary_batch, text_reject)
 
 __all__ = [
     "MAX_LINE", "MAX_FRAME", "MAX_HEADER", "KEEP_RAW", "DTYPES", "REASONS",
@@ -20,7 +20,7 @@ __all__ = [
     "parse_json_frame", "parse_json_frames", "parse_binary_batch", "merge_batches",
 ]
 
-_KEY, _RESERVED, _SEQ_MAX, _reject = KEY, RESERVED, SEQ_MAX, reject
+_KEY, _RESERVED, _SEQ_MAX, _reject = KEY, RESERVED, SEQ_MAX, text_reject
 
 
 @dataclass(frozen=True)
@@ -176,6 +176,10 @@ def _line_fallback(line: bytes, vals: list[bytes], ti: int, si: int) -> tuple[st
     return nums, seq
 
 
+def _at(seqs: np.ndarray | None, i: int) -> int | None:
+    return None if seqs is None else int(seqs[i])
+
+
 def parse_text_lines(lines: Iterable[bytes], source: str, received: float, *, max_line: int = MAX_LINE) -> Parsed:
     """Parse many text lines (line ends already removed) into batches, one per run of lines alike.
 
@@ -231,13 +235,14 @@ def parse_text_lines(lines: Iterable[bytes], source: str, received: float, *, ma
         chan_idx = [i for i in range(k) if i != ti and i != si]
         vals = arr[:, chan_idx]
         if ti >= 0:
-            bad_t = ok & ~np.isfinite(arr[:, ti])
+            bad_t = ok & ~(np.abs(arr[:, ti]) <= T_LIMIT)          # NaN fails too
             for i in np.flatnonzero(bad_t):
-                rejects.append(_reject(source, "bad_time", raws[i], received, "t is not finite"))
+                rejects.append(_reject(source, "bad_time", raws[i], received,
+                                       f"t is not finite or beyond {T_LIMIT:g} s", seq=_at(seqs, i)))
             ok &= ~bad_t
         bad_v = ok & ~np.isfinite(vals).all(axis=1)
         for i in np.flatnonzero(bad_v):
-            rejects.append(_reject(source, "not_finite", raws[i], received, "a value is nan or inf"))
+            rejects.append(_reject(source, "not_finite", raws[i], received, "a value is nan or inf", seq=_at(seqs, i)))
         ok &= ~bad_v
         if ok.all():
             segs.append(_Segment(chan, vals, arr[:, ti] if ti >= 0 else None, seqs))
@@ -282,6 +287,22 @@ def parse_text_line(line: bytes, source: str, received: float, *, max_line: int 
 # ----------------------------------------------------------------------------- JSON frames
 
 _JSON = json.JSONDecoder(parse_constant=refuse_constant)
+
+
+class _DuplicateKey(ValueError):
+    pass
+
+
+def _no_duplicates(pairs: list[tuple[str, object]]) -> dict[str, object]:
+    out = dict(pairs)
+    if len(out) != len(pairs):
+        seen: set[str] = set()
+        dup = next(k for k, _ in pairs if k in seen or seen.add(k))  # type: ignore[func-returns-value]
+        raise _DuplicateKey(f"key {dup[:40]!r} appears twice")
+    return out
+
+
+_JSON_STRICT = json.JSONDecoder(parse_constant=refuse_constant, object_pairs_hook=_no_duplicates)
 _json_keys: dict[tuple[str, ...], tuple[str, ...] | None] = {}
 
 
@@ -302,7 +323,7 @@ def _json_fast(obj: dict) -> tuple[tuple[str, ...], list[float], float | None, i
     try:
         if not all((type(v) is float or type(v) is int) and math.isfinite(v) for v in vals):
             return None
-        if t is not None and not ((type(t) is float or type(t) is int) and math.isfinite(t)):
+        if t is not None and not ((type(t) is float or type(t) is int) and abs(t) <= T_LIMIT):
             return None
     except OverflowError:
         return None
@@ -311,20 +332,43 @@ def _json_fast(obj: dict) -> tuple[tuple[str, ...], list[float], float | None, i
     return chan, vals, (None if t is None else float(t)), seq
 
 
-def _json_row(frame: bytes, max_frame: int) -> tuple[str, str] | tuple[tuple[str, ...], list[float], float | None, int | None]:
+_Row = tuple[tuple[str, ...], list[float], float | None, int | None]
+
+
+def _json_row(frame: bytes, max_frame: int) -> tuple[str, str, int | None] | _Row:
+    """A frame's reading (keys, values, t, seq), or (reason, detail, the seq it showed)."""
     if len(frame) > max_frame:
-        return "oversized", f"frame longer than {max_frame} bytes"
+        return "oversized", f"frame longer than {max_frame} bytes", None
     try:
-        obj = _JSON.decode(bytes(frame).decode("utf-8"))
+        text = bytes(frame).decode("utf-8")
+        obj = _JSON.decode(text)
     except ValueError as exc:                      # JSONDecodeError, UnicodeDecodeError, NaN/Infinity
         reason = "not_finite" if "non-finite" in str(exc) else "bad_json"
-        return reason, str(exc)[:120]
+        return reason, str(exc)[:120], None
     except RecursionError:
-        return "bad_json", "nested too deeply"
+        return "bad_json", "nested too deeply", None
     if type(obj) is dict:
-        fast = _json_fast(obj)
-        if fast is not None:
-            return fast
+        # a flat object of numbers has one comma fewer than keys; anything else is checked key by key
+        if frame.count(b",") + 1 == len(obj):
+            fast = _json_fast(obj)
+            if fast is not None:
+                return fast
+        try:
+            _JSON_STRICT.decode(text)
+        except _DuplicateKey as exc:
+            return "duplicate_key", str(exc), None
+        except (ValueError, RecursionError):
+            pass
+        res = _json_careful(obj)
+        if isinstance(res[0], str):
+            seq = obj.get("seq")
+            return res[0], str(res[1]), seq if type(seq) is int and 0 <= seq <= _SEQ_MAX else None
+        return res
+    return "bad_json", "a reading must be a JSON object", None
+
+
+def _json_careful(obj: dict) -> tuple[str, str] | _Row:
+    """One decoded object, key by key: the reading, or the first reason it is refused."""
     if not isinstance(obj, dict):
         return "bad_json", "a reading must be a JSON object"
     t: float | None = None
@@ -352,6 +396,8 @@ def _json_row(frame: bytes, max_frame: int) -> tuple[str, str] | tuple[tuple[str
         if not np.isfinite(f):
             return ("bad_time" if k == "t" else "not_finite"), f"{k}: not finite"
         if k == "t":
+            if abs(f) > T_LIMIT:
+                return "bad_time", f"t beyond {T_LIMIT:g} s"
             t = f
         else:
             keys.append(k)
@@ -386,7 +432,7 @@ def parse_json_frames(frames: Iterable[bytes], source: str, received: float, *, 
     for frame in frames:
         res = _json_row(frame, max_frame)
         if isinstance(res[0], str):
-            rejects.append(_reject(source, res[0], frame, received, str(res[1])))
+            rejects.append(_reject(source, res[0], frame, received, str(res[1]), seq=res[2]))  # type: ignore[misc]
             continue
         keys, vals, t, seq = res  # type: ignore[misc]
         sig = (keys, t is not None, seq is not None)
