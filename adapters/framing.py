@@ -84,9 +84,9 @@ def binary_span(header: object, payload_len: int, max_frame: int = MAX_FRAME) ->
     per = len(fields) * np.dtype(dtype).itemsize
     held = max(1, -(-payload_len // per))
     capacity = max(1, -(-max_frame // per))
-    n_ok = type(n) is int and 1 <= n <= capacity
-    count = min(held, n) if n_ok else held          # type: ignore[type-var]
-    count = max(1, int(count))
+    claimed = n if type(n) is int else 0
+    n_ok = 1 <= claimed <= capacity
+    count = max(1, min(held, claimed) if n_ok else held)
     if n_ok and type(seq) is int and 0 <= seq <= SEQ_MAX - count:
         return count, (seq, seq + count - 1)
     return count, None
@@ -171,8 +171,9 @@ def parse_binary_batch(header: bytes, payload: bytes, source: str, received: flo
 # ----------------------------------------------------------------------------- stream framing
 
 class LineFramer:
-    """Split a byte stream into lines at LF (a CR before it is dropped), keeping partial lines across feeds.
+    """Split a byte stream into lines at LF, CR or CRLF, keeping partial lines across feeds.
 
+    A CR that ends one feed and an LF that starts the next are one line end.
     A line longer than ``max_line`` is refused once (its first KEEP_RAW bytes
     kept); the rest of it is skipped up to its line end. ``flush()`` hands
     back a pending partial line (e.g. when the link drops mid-line).
@@ -182,6 +183,7 @@ class LineFramer:
         self.max_line = max_line
         self._buf = b""
         self._discarding = False
+        self._after_cr = False                  # the last feed ended in CR: an LF first in the next is its pair
         self.discarded_bytes = 0
 
     @property
@@ -197,22 +199,27 @@ class LineFramer:
     def feed(self, data: bytes) -> tuple[list[bytes], list[bytes]]:
         """Return (complete lines, oversized lines) found so far."""
         over: list[bytes] = []
+        if not data:
+            return [], over
+        if self._after_cr and data[:1] == b"\n":
+            data = data[1:]
+        self._after_cr = data[-1:] == b"\r"
         if self._discarding:
-            cut = data.find(b"\n")
-            if cut < 0:
+            m = _LINE_END.search(data)
+            if m is None:
                 self.discarded_bytes += len(data)
                 return [], over
-            self.discarded_bytes += cut
-            data = data[cut + 1:]
+            self.discarded_bytes += m.start()
+            data = data[m.end():]
             self._discarding = False
         buf = self._buf + data if self._buf else data
-        parts = buf.split(b"\n")
+        parts = _LINE_END.split(buf) if b"\r" in buf else buf.split(b"\n")
         rest = parts.pop()
-        lines = [p[:-1] if p.endswith(b"\r") else p for p in parts]
+        lines = parts
         if lines and max(map(len, lines)) > self.max_line:
             over = [p[:KEEP_RAW] for p in lines if len(p) > self.max_line]
             lines = [p for p in lines if len(p) <= self.max_line]
-        if len(rest) > self.max_line + 1:          # +1: room for a CR still to be followed by LF
+        if len(rest) > self.max_line:
             over.append(rest[:KEEP_RAW])
             self.discarded_bytes += len(rest)
             self._discarding = True
@@ -224,4 +231,5 @@ class LineFramer:
         """Return and forget the partial line waiting for its line end."""
         rest, self._buf = self._buf, b""
         self._discarding = False
+        self._after_cr = False
         return rest

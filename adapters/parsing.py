@@ -229,19 +229,19 @@ def parse_text_lines(lines: Iterable[bytes], source: str, received: float, *, ma
                         seqs[i] = res[1]
         if seqs is not None:
             bad_seq = ok & (seqs < 0)
-            for i in np.flatnonzero(bad_seq):
+            for i in np.flatnonzero(bad_seq).tolist():
                 rejects.append(_reject(source, "bad_seq", raws[i], received, "seq is negative"))
             ok &= ~bad_seq
         chan_idx = [i for i in range(k) if i != ti and i != si]
         vals = arr[:, chan_idx]
         if ti >= 0:
             bad_t = ok & ~(np.abs(arr[:, ti]) <= T_LIMIT)          # NaN fails too
-            for i in np.flatnonzero(bad_t):
+            for i in np.flatnonzero(bad_t).tolist():
                 rejects.append(_reject(source, "bad_time", raws[i], received,
                                        f"t is not finite or beyond {T_LIMIT:g} s", seq=_at(seqs, i)))
             ok &= ~bad_t
         bad_v = ok & ~np.isfinite(vals).all(axis=1)
-        for i in np.flatnonzero(bad_v):
+        for i in np.flatnonzero(bad_v).tolist():
             rejects.append(_reject(source, "not_finite", raws[i], received, "a value is nan or inf", seq=_at(seqs, i)))
         ok &= ~bad_v
         if ok.all():
