@@ -90,7 +90,7 @@ def open_source(spec: str, config: Config | None = None) -> Source:
     path = Path(spec)
     if path.is_file():
         CsvSource = _adapter("adapters.csv_file", "CsvSource", spec)
-        kwargs: dict[str, Any] = {"speed": None}
+        kwargs: dict[str, Any] = {"speed": None, "numeric": tuple(config.channels.channels)}
         tcol = next((c for c in config.channels.channels.values() if c.quantity == "t"), None)
         if tcol is not None:
             kwargs.update(time_column=tcol.key, time_scale=tcol.scale)
