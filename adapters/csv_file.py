@@ -80,8 +80,10 @@ class CsvSource:
     def open(self) -> None:
         if self._fh is not None:
             return                  # already open (the session opens what a command opened)
-        if not self.path.is_file():
+        if not self.path.exists():
             raise FatalSourceError(f"{self.path}: no such file")
+        if not self.path.is_file():
+            raise FatalSourceError(f"{self.path}: not a regular file (a recording or CSV file is needed)")
         try:
             self.header = read_header(self.path)
         except OSError as exc:
