@@ -72,22 +72,20 @@ def binary_span(header: object, payload_len: int, max_frame: int = MAX_FRAME) ->
     """How many readings a refused binary batch stands for, and the (first, last) seq it covered.
 
     The rule: a refused binary batch counts as the readings its payload holds (payload bytes over
-    fields x item size, rounded up, at most the header's n when n is a count the frame can hold,
-    at least 1); it counts as 1 when its header does not name its fields and item size. Its seq range
-    runs on from the header's seq only when that seq and n can be trusted (n from 1 to what a frame
-    of ``max_frame`` bytes can hold)."""
+    fields x item size, rounded up, at most the header's n, at least 1); it counts as 1 when its header
+    does not name its fields and item size. Its seq range runs on from the header's seq only when that
+    seq and n can be trusted (n from 1 to what a frame of ``max_frame`` bytes can hold)."""
     if not isinstance(header, dict):
         return 1, None
     fields, n, seq, dtype = header.get("fields"), header.get("n"), header.get("seq"), header.get("dtype", "<f8")
     if not isinstance(fields, list) or not fields or not isinstance(dtype, str) or dtype not in DTYPES:
         return 1, None
     per = len(fields) * np.dtype(dtype).itemsize
-    held = max(1, -(-payload_len // per))
+    held = -(-payload_len // per)
+    claimed = n if type(n) is int and n >= 0 else None
+    count = max(1, held if claimed is None else min(held, claimed))
     capacity = max(1, -(-max_frame // per))
-    claimed = n if type(n) is int else 0
-    n_ok = 1 <= claimed <= capacity
-    count = max(1, min(held, claimed) if n_ok else held)
-    if n_ok and type(seq) is int and 0 <= seq <= SEQ_MAX - count:
+    if claimed is not None and 1 <= claimed <= capacity and type(seq) is int and 0 <= seq <= SEQ_MAX - count:
         return count, (seq, seq + count - 1)
     return count, None
 

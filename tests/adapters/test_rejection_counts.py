@@ -110,6 +110,8 @@ def test_binary_bad_time_refuses_the_batch_whole_with_its_range() -> None:
 def test_binary_span_rule() -> None:
     assert binary_span(None, 100) == (1, None)
     assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 0) == (1, None)
+    assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 80) == (1, None)     # never more than n, never 0
+    assert binary_span({"fields": ["ne"], "n": "5", "seq": 3}, 80) == (10, None)  # no n to trust: the payload
     assert binary_span({"fields": ["t", "ne"], "n": 4, "seq": 3, "dtype": "<f4"}, 33) == (4, (3, 6))
     assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8, "seq": 0}, 16) == (2, (0, 1))
     assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8 + 1, "seq": 0}, 16) == (2, None)
