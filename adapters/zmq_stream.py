@@ -46,6 +46,7 @@ __all__ = ["ZmqSource", "DEFAULT_RCVHWM", "is_loopback_endpoint"]
 DEFAULT_RCVHWM = 200_000
 _DRAIN_MESSAGES = 50_000          # most messages handled in one poll
 _DRAIN_SECONDS = 0.1              # most time spent receiving in one poll
+RECEIVE_BYTES = 64 << 20          # ZeroMQ's receive queue is held to about this many bytes (RCVHWM from message size)
 _DRAIN_BYTES = 32 << 20           # most bytes taken off the socket in one poll (bounds this adapter's own queue)
 _DEAD_AFTER = 0.5                 # a disconnect with no retry scheduled within this long: libzmq gave up
 _UNSHAKEN_REFUSED = 2             # connections closed during the handshake, in a row, before "refused"
@@ -104,6 +105,7 @@ class ZmqSource:
         self._dropped_at: float | None = None     # a session ended; waiting for libzmq to schedule a retry
         self._pending: list[Rejection] = []       # rejections made outside a poll's messages
         self.dropped_connections = 0              # sockets recreated after libzmq gave the connection up
+        self.hwm_now = rcvhwm                     # RCVHWM in force: lowered for large messages (RECEIVE_BYTES)
         self.messages = 0                         # messages received (any shape)
 
     @property
@@ -140,6 +142,7 @@ class ZmqSource:
         sock = self._ctx.socket(zmq.SUB)
         try:
             sock.setsockopt(zmq.RCVHWM, self.rcvhwm)
+            self.hwm_now = self.rcvhwm
             sock.setsockopt(zmq.LINGER, 0)
             sock.setsockopt(zmq.RCVBUF, 4 * 1024 * 1024)
             # a hard cap well above max_frame: frames between the two are rejected with a reason here;
@@ -310,6 +313,7 @@ class ZmqSource:
             self._revive()
             events = {}
         msgs: list[tuple[float, list[bytes]]] = []
+        size = 0
         if self._sock in events:
             first = time.monotonic()
             hard_stop = first + _DRAIN_SECONDS
@@ -317,7 +321,6 @@ class ZmqSource:
             sock = self._sock
             recv = sock.recv_multipart
             now = time.time()
-            size = 0
             while len(msgs) < _DRAIN_MESSAGES and size < _DRAIN_BYTES:
                 try:
                     parts = recv(zmq.NOBLOCK)
@@ -334,6 +337,7 @@ class ZmqSource:
                         break
                     now = time.time()
         if msgs:
+            self._fit_queue(size / len(msgs))
             self.messages += len(msgs)
             if self._state is not LinkState.CONNECTED:    # data flowing proves the link (monitor may lag)
                 self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
@@ -351,6 +355,17 @@ class ZmqSource:
             self._mon.close(0)
             self._sock.close(0)
             self._sock = None
+
+    def _fit_queue(self, mean_bytes: float) -> None:
+        """Hold ZeroMQ's receive queue near RECEIVE_BYTES: RCVHWM counts messages, so large messages (binary
+        batches) get a lower one (never below 1,000, never above ``rcvhwm``). libzmq applies a changed
+        RCVHWM to the connection it has."""
+        import zmq
+
+        want = int(min(self.rcvhwm, max(1000, RECEIVE_BYTES // max(mean_bytes, 1.0))))
+        if want < self.hwm_now // 2 or (want > 2 * self.hwm_now and self.hwm_now < self.rcvhwm):
+            self._sock.setsockopt(zmq.RCVHWM, want)
+            self.hwm_now = want
 
     def close(self) -> None:
         self._close_socket()

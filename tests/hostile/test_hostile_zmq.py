@@ -130,3 +130,34 @@ def test_client_with_an_unknown_key_is_refused_once(ctx: zmq.Context, short_tmp:
         src.close()
         pub.close(0)
         auth.stop()
+
+
+# point 6: ZeroMQ's receive queue counts messages; large messages get a lower RCVHWM (a byte bound)
+def test_receive_queue_is_held_to_a_byte_budget_for_large_messages(ctx: zmq.Context) -> None:
+    import numpy as np
+
+    from adapters.zmq_stream import RECEIVE_BYTES
+
+    ep = f"tcp://127.0.0.1:{free_port()}"
+    src = ZmqSource(ep, context=ctx)
+    src.open()
+    pub = _pub(ctx, ep)
+    d = Drained()
+    try:
+        _await_subscriber(pub, src, d)
+        assert src.hwm_now == 200_000
+        m = 2000                                              # 32 kB binary batches of t and ne
+        sizes = []
+        for i in range(20):
+            t = np.arange(i * m, (i + 1) * m, dtype="<f8")
+            msg = [b'{"fields": ["t", "ne"], "n": %d, "seq": %d}' % (m, i * m),
+                   np.stack([t, np.full(m, 1e17)]).astype("<f8").tobytes()]
+            sizes.append(len(msg[0]) + len(msg[1]))
+            pub.send_multipart(msg)
+        drain(src, lambda d: d.readings >= 20 * m, timeout=10, into=d)
+        size = min(sizes)                                     # hwm x mean size <= the budget
+        assert RECEIVE_BYTES // 2 <= src.hwm_now * size <= RECEIVE_BYTES, src.hwm_now
+        assert src._sock.getsockopt(zmq.RCVHWM) == src.hwm_now    # the socket's own setting
+    finally:
+        pub.close(0)
+        src.close()
