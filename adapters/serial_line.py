@@ -13,6 +13,8 @@ pyserial refuses outright (unknown scheme, impossible baud rate) is fatal.
 
 from __future__ import annotations
 
+import errno
+import os
 import queue
 import threading
 import time
@@ -91,6 +93,11 @@ class SerialSource:
             return serial.serial_for_url(self.url, baudrate=self.baud, timeout=self._read_timeout)
         except ValueError as exc:                       # unknown URL scheme, bad setting: never works
             raise FatalSourceError(f"{self.url}: {exc}") from exc
+        except serial.SerialException as exc:
+            # a file that is there but is no terminal (/dev/zero, a directory) never becomes a port
+            if exc.errno in (errno.ENOTTY, errno.EISDIR) or os.strerror(errno.ENOTTY) in str(exc):
+                raise FatalSourceError(f"{self.url}: not a serial port ({exc})") from exc
+            raise
 
     def _run(self) -> None:
         import serial

@@ -57,3 +57,23 @@ def test_oversized_and_cut_lines_carry_count_and_seq(pty: tuple[int, Path]) -> N
         assert [(r.reason, r.count, r.seq_first, r.seq_last) for r in d.rejections] == [("oversized", 1, 2, 2)]
     finally:
         src.close()
+
+
+# "no input tried can make the tool hang": a path that is no terminal is not retried for ever
+@pytest.mark.parametrize("path", ["/dev/zero", "/dev/null"])
+def test_a_device_that_is_no_serial_port_fails_at_once(path: str) -> None:
+    import time
+
+    from adapters.base import FatalSourceError, LinkState
+
+    src = SerialSource(path)
+    src.open()
+    try:
+        deadline = time.monotonic() + 5
+        while src.status().state is not LinkState.FAILED and time.monotonic() < deadline:
+            time.sleep(0.02)
+        assert src.status().state is LinkState.FAILED and "not a serial port" in src.status().message
+        with pytest.raises(FatalSourceError):
+            src.poll(0.01)
+    finally:
+        src.close()
