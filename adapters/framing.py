@@ -9,13 +9,14 @@ import numpy as np
 
 from adapters.batch import Batch, Rejection
 
-__all__ = ["MAX_LINE", "MAX_FRAME", "MAX_HEADER", "MAX_FIELDS", "KEEP_RAW", "DTYPES", "REASONS", "T_LIMIT",
+__all__ = ["MAX_LINE", "MAX_FRAME", "MAX_HEADER", "MAX_JSON", "MAX_FIELDS", "KEEP_RAW", "DTYPES", "REASONS", "T_LIMIT",
            "LineFramer", "parse_binary_batch", "reject", "refuse_constant", "KEY", "RESERVED", "SEQ_MAX",
            "seq_in_text", "binary_span", "shown", "split_lines"]
 
 MAX_LINE = 4096                 # bytes in one text line (without the line end)
 MAX_FRAME = 16 * 1024 * 1024    # bytes in one ZeroMQ frame or binary payload
 MAX_HEADER = 64 * 1024          # bytes in a binary batch's JSON header
+MAX_JSON = 1 << 20              # bytes in one JSON reading (one object of a few keys; bounds the decoder's memory)
 MAX_FIELDS = 256                # columns in one binary batch
 KEEP_RAW = 4096                 # bytes kept of an oversized input in its Rejection
 DTYPES = frozenset({"<f8", ">f8", "<f4", ">f4", "<i4", ">i4", "<i8", ">i8"})

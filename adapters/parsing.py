@@ -11,7 +11,7 @@ from typing import Iterable, Sequence
 import numpy as np
 
 from adapters.batch import Batch, Rejection
-from adapters.framing import (DTYPES, KEEP_RAW, KEY, MAX_FRAME, MAX_HEADER, MAX_LINE, REASONS, RESERVED, SEQ_MAX,
+from adapters.framing import (DTYPES, KEEP_RAW, KEY, MAX_FRAME, MAX_HEADER, MAX_JSON, MAX_LINE, REASONS, RESERVED, SEQ_MAX,
                               T_LIMIT, LineFramer, refuse_constant, parse_binary_batch, text_reject)
 
 __all__ = [
@@ -337,8 +337,8 @@ _Row = tuple[tuple[str, ...], list[float], float | None, int | None]
 
 def _json_row(frame: bytes, max_frame: int) -> tuple[str, str, int | None] | _Row:
     """A frame's reading (keys, values, t, seq), or (reason, detail, the seq it showed)."""
-    if len(frame) > max_frame:
-        return "oversized", f"frame longer than {max_frame} bytes", None
+    if len(frame) > min(max_frame, MAX_JSON):
+        return "oversized", f"JSON reading longer than {min(max_frame, MAX_JSON)} bytes", None
     try:
         text = bytes(frame).decode("utf-8")
         obj = _JSON.decode(text)

@@ -124,3 +124,11 @@ def test_seq_in_text() -> None:
     assert seq_in_text(b"xseq=5 ne=1") is None and seq_in_text(b"seq=5x") is None
     assert seq_in_text(b"seq=99999999999999999999 ne=1") is None
     assert seq_in_text(b'{"seq": 5.5}') is None
+
+
+def test_json_reading_over_its_bound_is_oversized_before_it_is_decoded() -> None:
+    from adapters.framing import MAX_JSON
+
+    big = b'{"seq": 3, "ne": [' + b"1.5," * (MAX_JSON // 4) + b"1]}"
+    (r,) = parse_json_frames([big], SRC, NOW).rejections
+    assert _fields(r) == ("oversized", 1, 3, 3) and len(r.raw) <= 4096
