@@ -13,8 +13,8 @@ import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
-from adapters.csv_blocks import (BLOCK_BYTES, MAGIC, BlockReader, CsvHeader, last_time, read_header, rows_to_batch,
-                                 text_columns)
+from adapters.csv_blocks import BLOCK_BYTES, MAGIC, BlockReader, CsvHeader, last_time, read_header, rows_to_batch
+from adapters.csv_header import columns_to_parse
 from adapters.csv_damage import DamageRecord
 from adapters.framing import shown
 
@@ -32,12 +32,9 @@ class CsvSource:
     either way the line is a Rejection and the status names the line number and the reason. ``damage``
     is the first damaged line (number, reason); in skip mode ``skipped`` counts the skipped lines and
     ``skipped_lines`` holds the first ``KEEP_SKIPPED_LINES`` (csv_damage) of their numbers. A damaged line's
-    rejection carries the seq its seq column still shows (``seq_first``/``seq_last``, and ``(seq=N)``
-    at the end of its detail), so that the pipeline counts it as rejected and not once more as lost.
-    ``numeric`` names the columns to parse as numbers besides ``t``, ``seq``, the canonical keys and
-    ``sigma_X`` (the channel map's keys); any other column whose first value is not a number holds text
-    and is ignored (named once in the status, listed in ``ignored_columns``). Lines end in LF, CR or CRLF;
-    a UTF-8 byte-order mark is skipped; a header naming a column twice is refused.
+    rejection carries the seq its seq column still shows (``seq_first``/``seq_last``; ``(seq=N)`` in its
+    detail). ``numeric``: the channel map's keys, always parsed as numbers (csv_header.text_columns: other
+    columns holding text are ignored, named in the status and in ``ignored_columns``).
     """
 
     def __init__(self, path: str | os.PathLike[str], *, speed: float | None = None, start: float | None = None,
@@ -89,16 +86,11 @@ class CsvSource:
         except OSError as exc:
             raise FatalSourceError(f"{self.path}: cannot read: {exc}") from exc
         cols = self.header.columns
-        if self._time_column not in cols:
-            raise FatalSourceError(f"{self.path}: no time column {shown(self._time_column)!r} among "
-                                   f"{', '.join(shown(c) for c in cols)} "
-                                   f"(map one with a channel map entry of quantity 't')")
+        self.ignored_columns, use = columns_to_parse(self.header, self._time_column, self._numeric, self.path)
         if self._explicit_name is None:
             self.name = self.header.first("source") or self.path.name
         ftcol = cols.index(self._time_column)
         fseq = cols.index("seq") if "seq" in cols else None
-        self.ignored_columns = tuple(c for c in text_columns(self.header, self._numeric) if c != self._time_column)
-        use = tuple(j for j, c in enumerate(cols) if c not in self.ignored_columns)
         self._names = tuple(cols[j] for j in use)
         self._tcol = use.index(ftcol)
         self._seqcol = use.index(fseq) if fseq is not None else None
@@ -118,10 +110,8 @@ class CsvSource:
             self._message = f"replaying {self.path.name}" + self._ignored_note()
 
     def _ignored_note(self) -> str:
-        if not self.ignored_columns:
-            return ""
-        names = ", ".join(shown(c) for c in self.ignored_columns)
-        return f"; ignoring text column{'s' if len(self.ignored_columns) > 1 else ''} {names}"
+        n = len(self.ignored_columns)
+        return f"; ignoring text column{'s' * (n > 1)} {', '.join(map(shown, self.ignored_columns))}" if n else ""
 
     @property
     def _rd(self) -> BlockReader:
