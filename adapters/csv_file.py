@@ -15,13 +15,13 @@ from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
 from adapters.csv_blocks import BLOCK_BYTES, MAGIC, BlockReader, CsvHeader, last_time, read_header, rows_to_batch
 from adapters.csv_header import columns_to_parse
-from adapters.csv_damage import DamageRecord
+from adapters.csv_damage import DamageAccess, DamageRecord
 from adapters.framing import shown
 
 __all__ = ["CsvHeader", "CsvSource", "read_header", "MAGIC"]
 
 
-class CsvSource:
+class CsvSource(DamageAccess):
     """A CSV file as a Source. ``speed`` None plays as fast as possible, a number plays at that
     multiple of data time. ``start``/``stop`` bound the data time played (s, after ``time_scale``).
     ``time_column`` names the time column (scaled by ``time_scale`` to seconds). Columns named like
@@ -166,30 +166,6 @@ class CsvSource:
             return
         self._message = (f"{self.path.name}: damaged at line {number} ({why}); skipping, "
                          f"{self.skipped} skipped so far")
-
-    @property
-    def damage(self) -> tuple[int, str] | None:
-        """(line number, reason) of the first damaged line; None while there is none."""
-        return self._damage.first
-
-    @property
-    def skipped(self) -> int:
-        """Damaged lines skipped (skip mode), each once."""
-        return self._damage.skipped
-
-    @property
-    def skipped_lines(self) -> list[int]:
-        """Line numbers of the skipped lines, the first ``KEEP_SKIPPED_LINES`` (csv_damage)."""
-        return self._damage.lines
-
-    def end_message(self, end: str | None = None) -> str:
-        """What the replay's end says about damage (without the file name): in stop mode where it
-        stopped and why; in skip mode how many lines were skipped, which, and that they were kept."""
-        return self._damage.end_message(end or self._end_label)
-
-    def damage_summary(self) -> dict[str, object] | None:
-        """The summary's ``damage`` object (csv_damage.DamageRecord.summary); None without damage."""
-        return self._damage.summary()
 
     # -- the Source protocol ---------------------------------------------------------------------------
     def poll(self, timeout: float) -> Polled:
