@@ -105,3 +105,17 @@ def test_specs_that_can_never_work_are_usage_errors(spec: str, words: str) -> No
 
 def test_serial_url_with_at_sign_is_left_alone() -> None:
     assert open_source("serial:socket://127.0.0.1:7001", None).url == "socket://127.0.0.1:7001"
+
+
+# issue 12 point 4: the channel map's keys are always numbers; other text columns are ignored and named
+def test_csv_source_parses_the_mapped_columns_as_numbers(tmp_path: Path) -> None:
+    path = tmp_path / "log.csv"
+    path.write_text("t,dens,note\n0.0,bad,ok\n0.1,1e17,fine\n")
+    cfg = parse_config({"channels": {"dens": {"quantity": "ne", "unit": "m^-3"}}}, None)
+    src = open_source(str(path), cfg)
+    src.open()
+    try:
+        assert src.ignored_columns == ("note",)           # "dens" is mapped: read as numbers, line 2 damaged
+        assert src.damage is not None and src.damage[0] == 2
+    finally:
+        src.close()
