@@ -146,7 +146,8 @@ class ZmqSource:
             sock.setsockopt(zmq.LINGER, 0)
             sock.setsockopt(zmq.RCVBUF, 4 * 1024 * 1024)
             # a hard cap well above max_frame: frames between the two are rejected with a reason here;
-            # beyond it libzmq drops the connection before buffering it (memory defence; seq shows the gap)
+            # beyond it libzmq drops the connection before buffering it (memory defence) and never retries:
+            # _event/_revive notice that, count the frame and recreate the socket
             sock.setsockopt(zmq.MAXMSGSIZE, self.hard_cap)
             sock.setsockopt(zmq.RECONNECT_IVL, 100)
             sock.setsockopt(zmq.RECONNECT_IVL_MAX, 2000)
@@ -340,7 +341,7 @@ class ZmqSource:
             self._fit_queue(size / len(msgs))
             self.messages += len(msgs)
             if self._state is not LinkState.CONNECTED:    # data flowing proves the link (monitor may lag)
-                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
+                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}" + self._drop_note()
         batches, rejects = self._decode(msgs)
         if self._pending:
             rejects, self._pending = self._pending + rejects, []
