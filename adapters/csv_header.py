@@ -46,7 +46,8 @@ def _raw_lines(fh: io.BufferedReader, path: object) -> Iterator[tuple[bytes, int
         m = _LINE_END.search(buf)
         if m is None or (not eof and m.end() == len(buf) and m.group() == b"\r"):   # a CR last: CRLF may follow
             if len(buf) > MAX_CSV_LINE + 2:
-                raise FatalSourceError(f"{path}: a line before the data is longer than {MAX_CSV_LINE} bytes")
+                raise FatalSourceError(f"{path}: a line of the header (or the first data line) is longer than "
+                                       f"{MAX_CSV_LINE} bytes")
             if eof:
                 if buf:
                     yield buf, len(buf)
