@@ -17,6 +17,7 @@ class LinkState(str, enum.Enum):
     CONNECTING = "connecting"
     CONNECTED = "connected"
     DISCONNECTED = "disconnected"   # lost; being retried with backoff
+    REFUSED = "refused"             # the peer refuses us (e.g. a failed CURVE handshake); still retried
     ENDED = "ended"                 # a file or finite simulation reached its end
     FAILED = "failed"               # gave up; see message
 

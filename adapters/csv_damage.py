@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["DamageRecord", "KEEP_SKIPPED_LINES"]
+__all__ = ["DamageRecord", "DamageAccess", "KEEP_SKIPPED_LINES"]
 
 KEEP_SKIPPED_LINES = 100            # line numbers of skipped damaged lines kept for the summary
 _SHOW_SKIPPED_LINES = 5             # ... and named in the end message
@@ -63,3 +63,34 @@ class DamageRecord:
         if self.mode == "skip":
             out.update(skipped=self.skipped, lines=list(self.lines), lines_cap=KEEP_SKIPPED_LINES)
         return out
+
+
+class DamageAccess:
+    """What a CSV source says about its damaged lines (its ``_damage`` record and ``_end_label``)."""
+
+    _damage: DamageRecord
+    _end_label: str
+
+    @property
+    def damage(self) -> tuple[int, str] | None:
+        """(line number, reason) of the first damaged line; None while there is none."""
+        return self._damage.first
+
+    @property
+    def skipped(self) -> int:
+        """Damaged lines skipped (skip mode), each once."""
+        return self._damage.skipped
+
+    @property
+    def skipped_lines(self) -> list[int]:
+        """Line numbers of the skipped lines, the first ``KEEP_SKIPPED_LINES`` (csv_damage)."""
+        return self._damage.lines
+
+    def end_message(self, end: str | None = None) -> str:
+        """What the replay's end says about damage (without the file name): in stop mode where it
+        stopped and why; in skip mode how many lines were skipped, which, and that they were kept."""
+        return self._damage.end_message(end or self._end_label)
+
+    def damage_summary(self) -> dict[str, object] | None:
+        """The summary's ``damage`` object (csv_damage.DamageRecord.summary); None without damage."""
+        return self._damage.summary()

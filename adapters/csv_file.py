@@ -7,19 +7,21 @@ import os
 import threading
 import time
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Collection
 
 import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
 from adapters.csv_blocks import BLOCK_BYTES, MAGIC, BlockReader, CsvHeader, last_time, read_header, rows_to_batch
-from adapters.csv_damage import DamageRecord
+from adapters.csv_header import columns_to_parse
+from adapters.csv_damage import DamageAccess, DamageRecord
+from adapters.framing import shown
 
 __all__ = ["CsvHeader", "CsvSource", "read_header", "MAGIC"]
 
 
-class CsvSource:
+class CsvSource(DamageAccess):
     """A CSV file as a Source. ``speed`` None plays as fast as possible, a number plays at that
     multiple of data time. ``start``/``stop`` bound the data time played (s, after ``time_scale``).
     ``time_column`` names the time column (scaled by ``time_scale`` to seconds). Columns named like
@@ -30,15 +32,16 @@ class CsvSource:
     either way the line is a Rejection and the status names the line number and the reason. ``damage``
     is the first damaged line (number, reason); in skip mode ``skipped`` counts the skipped lines and
     ``skipped_lines`` holds the first ``KEEP_SKIPPED_LINES`` (csv_damage) of their numbers. A damaged line's
-    rejection detail ends with ``(seq=N)`` where its seq column still reads, so that the pipeline
-    counts it as rejected and not once more as lost.
+    rejection carries the seq its seq column still shows (``seq_first``/``seq_last``; ``(seq=N)`` in its
+    detail). ``numeric``: the channel map's keys, always parsed as numbers (csv_header.text_columns: other
+    columns holding text are ignored, named in the status and in ``ignored_columns``).
     """
 
     def __init__(self, path: str | os.PathLike[str], *, speed: float | None = None, start: float | None = None,
                  stop: float | None = None, chunk: int = BLOCK_BYTES, name: str | None = None,
                  time_column: str = "t", time_scale: float = 1.0, on_damage: str = "stop",
                  step_seconds: float = 0.1, batch_rows: int = 16384,
-                 clock: Callable[[], float] = time.monotonic) -> None:
+                 clock: Callable[[], float] = time.monotonic, numeric: Collection[str] | None = None) -> None:
         self.path = Path(path)
         if speed is not None and not speed > 0:
             raise ValueError("speed must be positive, or None for as fast as possible")
@@ -55,6 +58,9 @@ class CsvSource:
         self._batch_rows = max(1, int(batch_rows))      # rows per batch: bounds the pipeline's temporaries
         self._clock = clock
         self._explicit_name = name
+        self._numeric = numeric
+        self.ignored_columns: tuple[str, ...] = ()      # text columns, never parsed
+        self._names: tuple[str, ...] = ()               # the columns parsed, in row order
         self.name = name or self.path.name
         self.header: CsvHeader | None = None
         self._damage = DamageRecord(on_damage)         # the damaged lines met (csv_damage)
@@ -71,33 +77,46 @@ class CsvSource:
     def open(self) -> None:
         if self._fh is not None:
             return                  # already open (the session opens what a command opened)
-        if not self.path.is_file():
+        if not self.path.exists():
             raise FatalSourceError(f"{self.path}: no such file")
+        if not self.path.is_file():
+            raise FatalSourceError(f"{self.path}: not a regular file (a recording or CSV file is needed)")
         try:
             self.header = read_header(self.path)
         except OSError as exc:
             raise FatalSourceError(f"{self.path}: cannot read: {exc}") from exc
         cols = self.header.columns
-        if self._time_column not in cols:
-            raise FatalSourceError(f"{self.path}: no time column {self._time_column!r} among {', '.join(cols)} "
-                                   f"(map one with a channel map entry of quantity 't')")
+        self.ignored_columns, use = columns_to_parse(self.header, self._time_column, self._numeric, self.path)
         if self._explicit_name is None:
             self.name = self.header.first("source") or self.path.name
-        self._tcol = cols.index(self._time_column)
-        self._seqcol = cols.index("seq") if "seq" in cols else None
-        self._end = last_time(self.path, self.header, self._tcol, self._time_scale)
+        ftcol = cols.index(self._time_column)
+        fseq = cols.index("seq") if "seq" in cols else None
+        self._names = tuple(cols[j] for j in use)
+        self._tcol = use.index(ftcol)
+        self._seqcol = use.index(fseq) if fseq is not None else None
+        self._end = last_time(self.path, self.header, ftcol, self._time_scale)
         self._fh = open(self.path, "rb")
-        self._reader = BlockReader(self._fh, self.header, tcol=self._tcol, seqcol=self._seqcol,
+        self._reader = BlockReader(self._fh, self.header, tcol=ftcol, seqcol=fseq,
                                    time_scale=self._time_scale, block=self._block,
-                                   stop_on_damage=self._on_damage == "stop", on_damaged=self._damaged)
+                                   stop_on_damage=self._on_damage == "stop", on_damaged=self._damaged,
+                                   usecols=use)
         self._rewind(self.header.data_offset, self.header.data_line)
-        while not self._reader.eof and len(self._rows) == 0:     # prime: the start time is known at once
+        while not self._rd.eof and len(self._rows) == 0:     # prime: the start time is known at once
             if not self._read_block():
                 break
         self._skip_before_start()
         self._state = LinkState.CONNECTED
         if self.damage is None:                        # damage in the first block stays the status
-            self._message = f"replaying {self.path.name}"
+            self._message = f"replaying {self.path.name}" + self._ignored_note()
+
+    def _ignored_note(self) -> str:
+        n = len(self.ignored_columns)
+        return f"; ignoring text column{'s' * (n > 1)} {', '.join(map(shown, self.ignored_columns))}" if n else ""
+
+    @property
+    def _rd(self) -> BlockReader:
+        assert self._reader is not None, "open() first"
+        return self._reader
 
     def _reset_stream(self) -> None:
         self._rows: np.ndarray = np.empty((0, 0))
@@ -114,7 +133,7 @@ class CsvSource:
         self._pending_rejections: list[Rejection] = []
 
     def _rewind(self, offset: int, line: int) -> None:
-        self._reader.rewind(offset, line)
+        self._rd.rewind(offset, line)
         self._rows = np.empty((0, len(self.header.columns) if self.header else 0))
         self._row_lines = np.empty(0, dtype=np.int64)
         self._pos = 0
@@ -124,7 +143,7 @@ class CsvSource:
     # -- reading ------------------------------------------------------------------------------------
     def _read_block(self) -> bool:
         """The next block of whole lines (csv_blocks.BlockReader) as self._rows; False at the end of the file."""
-        got = self._reader.read()
+        got = self._rd.read()
         if got is None:
             return False
         self._rows, self._row_lines = got
@@ -139,37 +158,14 @@ class CsvSource:
     def _damaged(self, number: int, reason: str, why: str, raw: bytes, seq: int | None) -> None:
         """One damaged line: a Rejection (with the seq it shows), the first damage, the skip count, the status."""
         detail = f"line {number}: {why}" + ("" if seq is None else f" (seq={seq})")
-        self._pending_rejections.append(Rejection(self.name, reason, raw, time.time(), detail))
+        self._pending_rejections.append(Rejection(self.name, reason, raw[:4096], time.time(), detail,
+                                                  seq_first=seq, seq_last=seq))
         self._damage.note(number, reason, why)
         if self._on_damage == "stop":
             self._message = f"{self.path.name}: damaged at line {number}: {why}"
             return
         self._message = (f"{self.path.name}: damaged at line {number} ({why}); skipping, "
                          f"{self.skipped} skipped so far")
-
-    @property
-    def damage(self) -> tuple[int, str] | None:
-        """(line number, reason) of the first damaged line; None while there is none."""
-        return self._damage.first
-
-    @property
-    def skipped(self) -> int:
-        """Damaged lines skipped (skip mode), each once."""
-        return self._damage.skipped
-
-    @property
-    def skipped_lines(self) -> list[int]:
-        """Line numbers of the skipped lines, the first ``KEEP_SKIPPED_LINES`` (csv_damage)."""
-        return self._damage.lines
-
-    def end_message(self, end: str | None = None) -> str:
-        """What the replay's end says about damage (without the file name): in stop mode where it
-        stopped and why; in skip mode how many lines were skipped, which, and that they were kept."""
-        return self._damage.end_message(end or self._end_label)
-
-    def damage_summary(self) -> dict[str, object] | None:
-        """The summary's ``damage`` object (csv_damage.DamageRecord.summary); None without damage."""
-        return self._damage.summary()
 
     # -- the Source protocol ---------------------------------------------------------------------------
     def poll(self, timeout: float) -> Polled:
@@ -201,7 +197,7 @@ class CsvSource:
     def _collect(self) -> tuple[list[Batch], float]:
         """Rows now due (by speed, step, start/stop) as one batch, or how long until the next is due."""
         while self._pos >= len(self._rows):
-            if self._reader.eof or not self._read_block():
+            if self._rd.eof or not self._read_block():
                 self._finish()
                 return [], 0.0
             self._skip_before_start()
@@ -242,7 +238,7 @@ class CsvSource:
         self.released += n
         self._current = self._played = float(taken[-1, self._tcol])
         assert self.header is not None
-        return rows_to_batch(taken, self.header, self._tcol, self._seqcol, self.name)
+        return rows_to_batch(taken, self.header, self._tcol, self._seqcol, self.name, self._names)
 
     def _due_limit(self, next_t: float) -> float | None:
         if self._step_budget is not None:
@@ -270,6 +266,9 @@ class CsvSource:
         self._state = LinkState.ENDED
         self._end_label = end
         self._message = f"{self.path.name}: {self.end_message(end)}"
+        if self.released == 0 and self.damage is None and end == "end of file":
+            self._message += "; no data line after the header"
+        self._message += self._ignored_note()
 
     def status(self) -> SourceStatus:
         return SourceStatus(self.name, self._state, self._message)
@@ -349,7 +348,7 @@ class CsvSource:
                     self._skip_before_start()
                     if self._pos < len(self._rows):
                         break
-                if self._reader.eof or not self._read_block():
+                if self._rd.eof or not self._read_block():
                     break
             self._start = old_start
             self._current = t
@@ -360,7 +359,7 @@ class CsvSource:
     def _next_time(self) -> float | None:
         """Data time of the next row to play (reading on if the block is used up); None at the end."""
         while self._pos >= len(self._rows):
-            if self._reader.eof or not self._read_block():
+            if self._rd.eof or not self._read_block():
                 return None
             self._skip_before_start()
         return float(self._rows[self._pos, self._tcol])

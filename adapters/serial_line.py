@@ -13,6 +13,8 @@ pyserial refuses outright (unknown scheme, impossible baud rate) is fatal.
 
 from __future__ import annotations
 
+import errno
+import os
 import queue
 import threading
 import time
@@ -20,11 +22,15 @@ from typing import Any
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
-from adapters.parsing import KEEP_RAW, MAX_LINE, LineFramer, merge_batches, parse_text_lines
+from adapters.framing import text_reject
+from adapters.parsing import MAX_LINE, LineFramer, merge_batches, parse_text_lines
 
 __all__ = ["SerialSource", "parse_serial_spec", "DEFAULT_BAUD"]
 
 DEFAULT_BAUD = 115200
+READ_MAX = 16384                # bytes taken from the port in one read
+QUEUE_CHUNKS = 4096             # chunks waiting for poll(): at most QUEUE_CHUNKS x READ_MAX = 64 MiB; when full the
+                                # reader waits and the port's own buffer fills (a stalled consumer, not a leak)
 _URL_SCHEMES = ("loop://", "socket://", "rfc2217://", "spy://", "alt://", "hwgrep://", "cp2110://")
 
 
@@ -47,7 +53,7 @@ class SerialSource:
 
     def __init__(self, url: str, baud: int = DEFAULT_BAUD, *, name: str | None = None,
                  max_line: int = MAX_LINE, read_timeout: float = 0.05,
-                 backoff: tuple[float, float] = (0.1, 2.0), queue_chunks: int = 100_000,
+                 backoff: tuple[float, float] = (0.1, 2.0), queue_chunks: int = QUEUE_CHUNKS,
                  coalesce: float = 0.05) -> None:
         if url.startswith("serial:"):
             url, baud = parse_serial_spec(url)
@@ -87,6 +93,11 @@ class SerialSource:
             return serial.serial_for_url(self.url, baudrate=self.baud, timeout=self._read_timeout)
         except ValueError as exc:                       # unknown URL scheme, bad setting: never works
             raise FatalSourceError(f"{self.url}: {exc}") from exc
+        except serial.SerialException as exc:
+            # a file that is there but is no terminal (/dev/zero, a directory) never becomes a port
+            if exc.errno in (errno.ENOTTY, errno.EISDIR) or os.strerror(errno.ENOTTY) in str(exc):
+                raise FatalSourceError(f"{self.url}: not a serial port ({exc})") from exc
+            raise
 
     def _run(self) -> None:
         import serial
@@ -112,10 +123,10 @@ class SerialSource:
             self.connected.set()
             try:
                 while not self._stop.is_set():
-                    data = port.read(port.in_waiting or 1)
+                    data = port.read(min(port.in_waiting or 1, READ_MAX))
                     if data:
                         self.bytes_read += len(data)
-                        self._q.put(("data", time.time(), data))
+                        self._put(("data", time.time(), data))
             except (serial.SerialException, OSError, TypeError, AttributeError) as exc:
                 # TypeError/AttributeError: pyserial internals after the fd vanished under it
                 if not self._stop.is_set():
@@ -124,11 +135,20 @@ class SerialSource:
             finally:
                 self.connected.clear()
                 self._port = None
-                self._q.put(("lost", time.time(), b""))
+                self._put(("lost", time.time(), b""))
                 try:
                     port.close()
                 except Exception:  # noqa: BLE001 - closing a dead port may fail in many ways; it is gone either way
                     pass
+
+    def _put(self, item: tuple[str, float, bytes]) -> None:
+        """Queue a chunk for poll(); while the queue is full, wait (until close)."""
+        while not self._stop.is_set():
+            try:
+                self._q.put(item, timeout=0.1)
+                return
+            except queue.Full:
+                continue
 
     # -- the Source protocol ----------------------------------------------------------------
 
@@ -168,13 +188,13 @@ class SerialSource:
             if kind == "lost":
                 rest = self._framer.flush()
                 if rest:
-                    rejections.append(Rejection(self.name, "truncated", rest[:KEEP_RAW], received,
-                                                "line cut off when the link was lost"))
+                    rejections.append(text_reject(self.name, "truncated", rest, received,
+                                                  "line cut off when the link was lost"))
                 continue
             lines, over = self._framer.feed(data)
             for raw in over:
-                rejections.append(Rejection(self.name, "oversized", raw, received,
-                                            f"line longer than {self._max_line} bytes (first {len(raw)} kept)"))
+                rejections.append(text_reject(self.name, "oversized", raw, received,
+                                              f"line longer than {self._max_line} bytes (first {len(raw)} kept)"))
             if lines:
                 parsed = parse_text_lines(lines, self.name, received, max_line=self._max_line)
                 batches.extend(parsed.batches)

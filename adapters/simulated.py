@@ -28,8 +28,10 @@ from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch
 from adapters.scenarios import B, CHANNEL_RATES, P0, SCENARIOS, TE_GARBAGE, Scenario
 
-__all__ = ["SCENARIOS", "generate", "generate_samples", "SimSource", "scenario_length"]
+__all__ = ["SCENARIOS", "generate", "generate_samples", "SimSource", "scenario_length", "MAX_RATE", "MAX_CHUNK"]
 
+MAX_RATE = 1e7          # samples per second: the ceiling of a simulated source (one core makes ~1e7/s at best)
+MAX_CHUNK = 262_144     # samples in one batch, whatever the rate (bounds the memory of one poll)
 _BLOCK = 8192
 _CHANNEL_ID = {"ne": 1, "Te": 2, "p0": 3, "B": 4}
 
@@ -156,6 +158,8 @@ class SimSource:
         sc = _scenario(scenario)
         if not rate > 0 or not math.isfinite(rate):
             raise FatalSourceError(f"sim: rate must be positive, got {rate}")
+        if rate > MAX_RATE:
+            raise FatalSourceError(f"sim: rate {rate:g} Hz is over the simulator's ceiling of {MAX_RATE:g} Hz")
         if speed is not None and not (speed > 0 and math.isfinite(speed)):
             raise FatalSourceError(f"sim: speed must be positive or max, got {speed}")
         self.name = name or f"sim:{scenario}"
@@ -164,7 +168,7 @@ class SimSource:
         self._total: int | None = None if length is None else int(round(length * rate))
         self._epoch_arg = epoch
         self._epoch = 0.0
-        self._chunk = chunk or max(1000, int(rate * 0.05))
+        self._chunk = min(chunk or max(1000, int(rate * 0.05)), MAX_CHUNK)
         self._k = 0
         self._wall0 = 0.0
         self._closed = threading.Event()
@@ -194,7 +198,7 @@ class SimSource:
                 if self._closed.wait(max(0.0, min(timeout, wait))):
                     return Polled(status=self.status())
                 due = int((time.monotonic() - self._wall0) * self.speed * self.rate)
-            k1 = min(due, end, self._k + max(self._chunk, int(self.rate)))
+            k1 = min(due, end, self._k + min(max(self._chunk, int(self.rate)), MAX_CHUNK))   # bounded catch-up
         batches: list[Batch] = []
         if k1 > self._k:
             b = generate_samples(self.scenario, self.seed, self.rate, self._k, k1, loop=self.loop, source=self.name)

@@ -6,7 +6,12 @@ single-part message is JSON when it starts with ``{``, else text lines; a
 two-part message is a binary batch (JSON header + payload). Messages of any
 other shape, and frames over ``max_frame`` bytes, are rejected with a
 reason. A socket monitor turns connect/disconnect/handshake events into
-status. Nothing is ever unpickled.
+status. A frame over the hard cap (``MAXMSGSIZE``) makes libzmq drop the
+connection and never retry it: the monitor sees a disconnect with no retry
+after it, and the socket is recreated (the frame counts as one ``oversized``
+rejection and the status says so). A peer that refuses the handshake is
+reported once, as state ``refused``, not as connected/disconnected flips.
+Nothing is ever unpickled.
 
 Security defaults: only loopback tcp addresses (127.0.0.0/8, ::1,
 localhost) and ipc:// are accepted unless ``allow_remote=True`` or CURVE is
@@ -24,6 +29,7 @@ from typing import Any
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch, Rejection
+from adapters.framing import reject, split_lines, text_reject
 from adapters.parsing import (KEEP_RAW, MAX_FRAME, MAX_LINE, merge_batches, parse_binary_batch,
                               parse_json_frames, parse_text_lines)
 
@@ -40,6 +46,10 @@ __all__ = ["ZmqSource", "DEFAULT_RCVHWM", "is_loopback_endpoint"]
 DEFAULT_RCVHWM = 200_000
 _DRAIN_MESSAGES = 50_000          # most messages handled in one poll
 _DRAIN_SECONDS = 0.1              # most time spent receiving in one poll
+RECEIVE_BYTES = 64 << 20          # ZeroMQ's receive queue is held to about this many bytes (RCVHWM from message size)
+_DRAIN_BYTES = 32 << 20           # most bytes taken off the socket in one poll (bounds this adapter's own queue)
+_DEAD_AFTER = 0.5                 # a disconnect with no retry scheduled within this long: libzmq gave up
+_UNSHAKEN_REFUSED = 2             # connections closed during the handshake, in a row, before "refused"
 COALESCE = 0.02                   # after the first message, gather for up to this long (fewer, larger batches)
 
 
@@ -90,7 +100,18 @@ class ZmqSource:
         self._message = f"connecting to {endpoint}"
         self._retries = 0
         self._auth_failed = False
+        self._handshaken = False                  # the current connection completed its handshake
+        self._unshaken = 0                        # connections closed during the handshake, in a row
+        self._dropped_at: float | None = None     # a session ended; waiting for libzmq to schedule a retry
+        self._pending: list[Rejection] = []       # rejections made outside a poll's messages
+        self.dropped_connections = 0              # sockets recreated after libzmq gave the connection up
+        self.hwm_now = rcvhwm                     # RCVHWM in force: lowered for large messages (RECEIVE_BYTES)
         self.messages = 0                         # messages received (any shape)
+
+    @property
+    def hard_cap(self) -> int:
+        """ZeroMQ's own message size limit (MAXMSGSIZE): a bigger frame is never buffered."""
+        return max(4 * self.max_frame, 1 << 20)
 
     # -- setup -----------------------------------------------------------------------------
 
@@ -121,11 +142,13 @@ class ZmqSource:
         sock = self._ctx.socket(zmq.SUB)
         try:
             sock.setsockopt(zmq.RCVHWM, self.rcvhwm)
+            self.hwm_now = self.rcvhwm
             sock.setsockopt(zmq.LINGER, 0)
             sock.setsockopt(zmq.RCVBUF, 4 * 1024 * 1024)
             # a hard cap well above max_frame: frames between the two are rejected with a reason here;
-            # beyond it libzmq drops the connection before buffering it (memory defence; seq shows the gap)
-            sock.setsockopt(zmq.MAXMSGSIZE, max(4 * self.max_frame, 1 << 20))
+            # beyond it libzmq drops the connection before buffering it (memory defence) and never retries:
+            # _event/_revive notice that, count the frame and recreate the socket
+            sock.setsockopt(zmq.MAXMSGSIZE, self.hard_cap)
             sock.setsockopt(zmq.RECONNECT_IVL, 100)
             sock.setsockopt(zmq.RECONNECT_IVL_MAX, 2000)
             if self.curve is not None:
@@ -157,26 +180,68 @@ class ZmqSource:
                 return
             except zmq.ZMQError:
                 return
-            e = ev["event"]
-            if e == zmq.EVENT_CONNECTED and self.curve is None:
-                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
-            elif e == zmq.EVENT_HANDSHAKE_SUCCEEDED:
-                self._auth_failed = False
-                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}" + (
-                    " (CURVE)" if self.curve is not None else "")
-            elif e == zmq.EVENT_DISCONNECTED:
-                if self._state is LinkState.CONNECTED:
-                    self._retries += 1
-                    self._state, self._message = LinkState.DISCONNECTED, f"publisher at {self.endpoint} went away; reconnecting"
-                elif not self._auth_failed:
-                    self._state, self._message = LinkState.DISCONNECTED, f"no session with {self.endpoint}; reconnecting"
-            elif e in (getattr(zmq, "EVENT_HANDSHAKE_FAILED_AUTH", -1), getattr(zmq, "EVENT_HANDSHAKE_FAILED_PROTOCOL", -1),
-                       getattr(zmq, "EVENT_HANDSHAKE_FAILED_NO_DETAIL", -1)):
-                self._state, self._auth_failed = LinkState.DISCONNECTED, True
-                self._message = f"handshake with {self.endpoint} failed (CURVE keys refused or mismatched); retrying"
-            elif e == zmq.EVENT_CONNECT_RETRIED and self._state is not LinkState.CONNECTED:
-                if self._state is LinkState.CONNECTING:
-                    self._message = f"waiting for a publisher at {self.endpoint}"
+            self._event(ev["event"])
+
+    def _event(self, e: int) -> None:
+        """One socket-monitor event into the link state (see the module docstring)."""
+        import zmq
+
+        refused = LinkState.REFUSED
+        if e == zmq.EVENT_CONNECTED:
+            self._handshaken = False
+            if self._state is LinkState.CONNECTING:
+                self._message = f"connected to {self.endpoint}; handshaking"
+        elif e == zmq.EVENT_HANDSHAKE_SUCCEEDED:
+            self._auth_failed, self._handshaken, self._unshaken = False, True, 0
+            self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}" + (
+                " (CURVE)" if self.curve is not None else "") + self._drop_note()
+        elif e == zmq.EVENT_DISCONNECTED:
+            if self._handshaken:
+                self._handshaken = False
+                self._dropped_at = time.monotonic()
+                self._retries += 1
+                self._state, self._message = LinkState.DISCONNECTED, f"publisher at {self.endpoint} went away; reconnecting"
+                return
+            self._unshaken += 1
+            if self._state is refused:
+                return                                # said once; stays so until a handshake succeeds
+            if self._unshaken >= _UNSHAKEN_REFUSED:
+                self._refused("the publisher closes every connection during the handshake "
+                              "(it may require CURVE keys, or refuse this one)")
+            elif self._state is not LinkState.CONNECTING:
+                self._state, self._message = LinkState.DISCONNECTED, f"no session with {self.endpoint}; reconnecting"
+        elif e in (getattr(zmq, "EVENT_HANDSHAKE_FAILED_AUTH", -1), getattr(zmq, "EVENT_HANDSHAKE_FAILED_PROTOCOL", -1),
+                   getattr(zmq, "EVENT_HANDSHAKE_FAILED_NO_DETAIL", -1)):
+            self._auth_failed = True
+            if self._state is not refused:
+                self._refused("handshake failed (CURVE keys refused or mismatched)")
+        elif e in (zmq.EVENT_CONNECT_RETRIED, zmq.EVENT_CONNECT_DELAYED, zmq.EVENT_CLOSED):
+            self._dropped_at = None                   # libzmq is still trying: the link is alive
+            if e == zmq.EVENT_CONNECT_RETRIED and self._state is LinkState.CONNECTING:
+                self._message = f"waiting for a publisher at {self.endpoint}"
+
+    def _refused(self, why: str) -> None:
+        self._state = LinkState.REFUSED
+        self._message = f"{self.endpoint}: {why}; still retrying"
+
+    def _drop_note(self) -> str:
+        n = self.dropped_connections
+        return "" if not n else (f" (socket recreated {n} time{'s' if n != 1 else ''} after a frame over "
+                                 f"{self.hard_cap} B dropped the connection)")
+
+    def _revive(self) -> None:
+        """libzmq dropped the connection and will not retry (a frame over MAXMSGSIZE): count that frame
+        as one oversized rejection and recreate the socket, so that the publisher is picked up again."""
+        self._dropped_at = None
+        self.dropped_connections += 1
+        self._pending.append(reject(self.name, "oversized", b"", time.time(),
+                                    f"a frame over {self.hard_cap} B (ZeroMQ's cap) dropped the connection; "
+                                    "the socket was recreated"))
+        self._close_socket()
+        self.open()
+        self._state = LinkState.DISCONNECTED
+        self._message = (f"a frame over {self.hard_cap} B made ZeroMQ drop {self.endpoint} for good; socket "
+                         f"recreated ({self.dropped_connections} so far), reconnecting")
 
     def status(self) -> SourceStatus:
         return SourceStatus(self.name, self._state, self._message, self._retries)
@@ -211,14 +276,14 @@ class ZmqSource:
             if len(parts) != 1:
                 flush()
                 raw = b"\n".join(p[:KEEP_RAW] for p in parts[:4])
-                rejects.append(Rejection(self.name, "bad_frame_count", raw[:KEEP_RAW], received,
-                                         f"{len(parts)}-part message; expected 1 (text/JSON) or 2 (binary)"))
+                rejects.append(reject(self.name, "bad_frame_count", raw[:KEEP_RAW], received,
+                                      f"{len(parts)}-part message; expected 1 (text/JSON) or 2 (binary)"))
                 continue
             frame = parts[0]
             if len(frame) > self.max_frame:
                 flush()
-                rejects.append(Rejection(self.name, "oversized", frame[:KEEP_RAW], received,
-                                         f"frame of {len(frame)} bytes over {self.max_frame}"))
+                rejects.append(text_reject(self.name, "oversized", frame[:KEEP_RAW], received,
+                                           f"frame of {len(frame)} bytes over {self.max_frame}"))
                 continue
             kind = "json" if frame.lstrip()[:1] == b"{" else "text"
             if kind != run_kind:
@@ -228,10 +293,7 @@ class ZmqSource:
             if kind == "json":
                 run.append(frame)
             else:
-                lines = frame.split(b"\n")
-                if lines and lines[-1] == b"":
-                    lines.pop()
-                run.extend(ln[:-1] if ln.endswith(b"\r") else ln for ln in lines)
+                run.extend(split_lines(frame))           # LF, CR or CRLF line ends
         flush()
         return batches, rejects
 
@@ -243,10 +305,16 @@ class ZmqSource:
                 return Polled(status=self.status())
             self.open()
         start = time.monotonic()
+        if self._dropped_at is not None:
+            timeout = min(timeout, _DEAD_AFTER)
         events = dict(self._poller.poll(max(0, int(timeout * 1000))))
         if self._mon in events:
             self._drain_monitor()
+        if self._dropped_at is not None and time.monotonic() - self._dropped_at > _DEAD_AFTER:
+            self._revive()
+            events = {}
         msgs: list[tuple[float, list[bytes]]] = []
+        size = 0
         if self._sock in events:
             first = time.monotonic()
             hard_stop = first + _DRAIN_SECONDS
@@ -254,9 +322,11 @@ class ZmqSource:
             sock = self._sock
             recv = sock.recv_multipart
             now = time.time()
-            while len(msgs) < _DRAIN_MESSAGES:
+            while len(msgs) < _DRAIN_MESSAGES and size < _DRAIN_BYTES:
                 try:
-                    msgs.append((now, recv(zmq.NOBLOCK)))
+                    parts = recv(zmq.NOBLOCK)
+                    msgs.append((now, parts))
+                    size += sum(map(len, parts))
                 except zmq.Again:
                     left = gather_until - time.monotonic()
                     if left <= 0 or not sock.poll(max(1, int(left * 1000)), zmq.POLLIN):
@@ -268,13 +338,16 @@ class ZmqSource:
                         break
                     now = time.time()
         if msgs:
+            self._fit_queue(size / len(msgs))
             self.messages += len(msgs)
             if self._state is not LinkState.CONNECTED:    # data flowing proves the link (monitor may lag)
-                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}"
+                self._state, self._message = LinkState.CONNECTED, f"connected to {self.endpoint}" + self._drop_note()
         batches, rejects = self._decode(msgs)
+        if self._pending:
+            rejects, self._pending = self._pending + rejects, []
         return Polled(batches=merge_batches(batches, max_len=self.max_batch), rejections=rejects, status=self.status())
 
-    def close(self) -> None:
+    def _close_socket(self) -> None:
         if self._sock is not None:
             try:
                 self._sock.disable_monitor()
@@ -283,4 +356,18 @@ class ZmqSource:
             self._mon.close(0)
             self._sock.close(0)
             self._sock = None
+
+    def _fit_queue(self, mean_bytes: float) -> None:
+        """Hold ZeroMQ's receive queue near RECEIVE_BYTES: RCVHWM counts messages, so large messages (binary
+        batches) get a lower one (never below 1,000, never above ``rcvhwm``). libzmq applies a changed
+        RCVHWM to the connection it has."""
+        import zmq
+
+        want = int(min(self.rcvhwm, max(1000, RECEIVE_BYTES // max(mean_bytes, 1.0))))
+        if want < self.hwm_now // 2 or (want > 2 * self.hwm_now and self.hwm_now < self.rcvhwm):
+            self._sock.setsockopt(zmq.RCVHWM, want)
+            self.hwm_now = want
+
+    def close(self) -> None:
+        self._close_socket()
         self._state, self._message = LinkState.ENDED, "closed"

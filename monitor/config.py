@@ -32,6 +32,19 @@ _DEVICE_KEYS: dict[str, tuple[str, str]] = {
     "wave_frequency": ("wave_frequency", "frequency"),
     "sigma_en": ("sigma_en", "area"),
 }
+# [device] key -> (lowest, highest) plausible value in canonical units, the unit, whole numbers only.
+# Wide on purpose: they stop typing slips (1e308, a charge of 1.5), not unusual devices.
+_DEVICE_RANGES: dict[str, tuple[float, float, str, bool]] = {
+    "length": (1e-7, 1e4, "m", False),               # a microplasma to a large linear device
+    "ion_mass": (1.0, 1000.0, "u", False),           # a proton (1.007 u) to heavy cluster ions
+    "A": (1.0, 1000.0, "u", False),
+    "Z": (1.0, 118.0, "", True),                     # a charge state: a whole number up to the heaviest element
+    "gas_temperature": (1.0, 1e5, "K", False),
+    "wave_frequency": (1.0, 1e18, "Hz", False),      # audio to beyond ultraviolet lasers
+    "sigma_en": (1e-25, 1e-15, "m^2", False),        # momentum-transfer cross sections are ~1e-21 to 1e-18 m^2
+}
+MAX_CONFIG_BYTES = 1 << 20                           # a config file is read up to this size, never more
+_TIME_MAX = 1e6                                      # s: the longest stale_after, max_age, window, ... (11.6 days)
 _SOURCES_KEYS = {"stale_after", "max_age", "curve_server_key", "curve_client_key", "allow_remote", "receive_queue"}
 _PIPELINE_KEYS = {"window", "bins", "trail_seconds", "trail_points", "keep_rejected", "clock_restart"}
 
@@ -97,9 +110,15 @@ def load_config(path: str | Path | None) -> Config:
         return parse_config({}, None)
     p = Path(path)
     try:
-        text = p.read_bytes()
+        if p.is_dir():
+            raise ConfigError(p, "(file)", "is a directory, not a config file")
+        with open(p, "rb") as fh:
+            text = fh.read(MAX_CONFIG_BYTES + 1)       # bounded: /dev/zero or a huge file cannot fill memory
     except OSError as exc:
         raise ConfigError(p, "(file)", f"cannot read: {exc.strerror or exc}") from None
+    if len(text) > MAX_CONFIG_BYTES:
+        raise ConfigError(p, "(file)", f"larger than {MAX_CONFIG_BYTES} bytes; a config file is a few kilobytes "
+                                       "of TOML")
     try:
         raw = tomllib.loads(text.decode("utf-8"))
     except UnicodeDecodeError as exc:
@@ -171,6 +190,10 @@ def _number(table: Mapping[str, Any], key: str, dimension: str, default: float |
     value = _value(table[key], dimension, path, f"{where}.{key}")
     if positive and not value > 0:
         raise ConfigError(path, f"{where}.{key}", f"must be positive, got {table[key]!r}")
+    high = _TIME_MAX if dimension == "time" else 1e33 if dimension == "density" else math.inf
+    if value > high:
+        raise ConfigError(path, f"{where}.{key}", f"{table[key]!r} is beyond the accepted {high:g} "
+                                                  f"{'s' if dimension == 'time' else 'm^-3'}")
     return value
 
 
@@ -209,6 +232,12 @@ def _parse_device(table: Mapping[str, Any], path: str | Path | None) -> Device:
             value = _value(table[key], dimension, path, f"device.{key}")
             if not value > 0:
                 raise ConfigError(path, f"device.{key}", f"must be positive, got {table[key]!r}")
+            lo, hi, unit, whole = _DEVICE_RANGES[key]
+            if whole and value != round(value):
+                raise ConfigError(path, f"device.{key}", f"must be a whole number, got {table[key]!r}")
+            if not lo <= value <= hi:
+                raise ConfigError(path, f"device.{key}", f"{table[key]!r} is outside the accepted range "
+                                                         f"{lo:g} to {hi:g}{' ' + unit if unit else ''}")
             kwargs[attr] = value
     return Device(**kwargs)
 
@@ -217,18 +246,13 @@ def _parse_max_age(raw: Any, path: str | Path | None) -> tuple[float, dict[str, 
     if raw is None:
         return 0.25, {}
     if not isinstance(raw, Mapping):
-        value = _value(raw, "time", path, "sources.max_age")
-        if not value > 0:
-            raise ConfigError(path, "sources.max_age", f"must be positive, got {raw!r}")
-        return value, {}
+        return _number({"max_age": raw}, "max_age", "time", None, path, "sources", positive=True), {}
     allowed = {"default", *BASE_KEYS}
     _only(raw, allowed, "sources.max_age", path)
     default = 0.25
     by_key: dict[str, float] = {}
     for key, item in raw.items():
-        value = _value(item, "time", path, f"sources.max_age.{key}")
-        if not value > 0:
-            raise ConfigError(path, f"sources.max_age.{key}", f"must be positive, got {item!r}")
+        value = _number(raw, key, "time", None, path, "sources.max_age", positive=True)
         if key == "default":
             default = value
         else:

@@ -52,20 +52,25 @@ def open_source(spec: str, config: Config | None = None) -> Source:
     if not spec:
         raise UsageError(f"empty SOURCE; give {SPEC_HELP}")
     if spec.startswith(("tcp://", "ipc://")):
+        _check_endpoint(spec)
         ZmqSource = _adapter("adapters.zmq_stream", "ZmqSource", spec)
         curve = None
         if config.curve_server_key and config.curve_client_key:
             curve = (config.curve_server_key, config.curve_client_key)
-        kwargs = {"curve": curve}
+        zkw: dict[str, Any] = {"curve": curve}
         if config.allow_remote:
-            kwargs["allow_remote"] = True
+            zkw["allow_remote"] = True
         if config.receive_queue is not None:
-            kwargs["rcvhwm"] = config.receive_queue      # [sources] receive_queue
-        return _construct(ZmqSource, spec, spec, **kwargs)
+            zkw["rcvhwm"] = config.receive_queue      # [sources] receive_queue
+        return _construct(ZmqSource, spec, spec, **zkw)
     if spec.startswith("serial:"):
         rest = spec[len("serial:"):]
         m = _BAUD.match(rest)
         port, baud = (m.group("port"), int(m.group("baud"))) if m else (rest, None)
+        if m is None and "@" in rest and not rest.startswith(("loop://", "socket://", "rfc2217://", "spy://")):
+            bad = rest.rpartition("@")[2]
+            raise UsageError(f"{spec}: baud rate {bad!r} is not a whole number; write serial:PORT@BAUD, "
+                             "e.g. serial:/dev/ttyUSB0@115200")
         if not port:
             raise UsageError(f"{spec}: serial: needs a port, e.g. serial:/dev/ttyUSB0@115200")
         return _serial(spec, port, baud)
@@ -73,6 +78,9 @@ def open_source(spec: str, config: Config | None = None) -> Source:
         m = _BAUD.match(spec) if spec.startswith("/dev/") else None
         if m:
             return _serial(spec, m.group("port"), int(m.group("baud")))
+        if spec.startswith("/dev/") and "@" in spec:
+            raise UsageError(f"{spec}: baud rate {spec.rpartition('@')[2]!r} is not a whole number; "
+                             "write /dev/PORT@BAUD, e.g. /dev/ttyUSB0@115200")
         return _serial(spec, spec, None)
     if spec.startswith("sim:"):
         return _sim(spec)
@@ -82,7 +90,7 @@ def open_source(spec: str, config: Config | None = None) -> Source:
     path = Path(spec)
     if path.is_file():
         CsvSource = _adapter("adapters.csv_file", "CsvSource", spec)
-        kwargs: dict[str, Any] = {"speed": None}
+        kwargs: dict[str, Any] = {"speed": None, "numeric": tuple(config.channels.channels)}
         tcol = next((c for c in config.channels.channels.values() if c.quantity == "t"), None)
         if tcol is not None:
             kwargs.update(time_column=tcol.key, time_scale=tcol.scale)
@@ -90,6 +98,22 @@ def open_source(spec: str, config: Config | None = None) -> Source:
     if path.exists():
         raise UsageError(f"{spec}: not a regular file")
     raise UsageError(f"{spec}: no such file, and not a source spec; give {SPEC_HELP}")
+
+
+def _check_endpoint(spec: str) -> None:
+    """A ZeroMQ endpoint that can never connect is a usage error: tcp:// needs HOST:PORT with PORT 1-65535,
+    ipc:// a path."""
+    scheme, _, rest = spec.partition("://")
+    if scheme == "ipc":
+        if not rest:
+            raise UsageError(f"{spec}: ipc:// needs a path, e.g. ipc:///tmp/feed.ipc")
+        return
+    target = rest.split(";", 1)[1] if ";" in rest else rest      # source-address syntax: SRC;HOST:PORT
+    host, sep, port = target.rpartition(":")
+    if not sep or not host.strip("[]"):
+        raise UsageError(f"{spec}: tcp:// needs HOST:PORT, e.g. tcp://127.0.0.1:5556")
+    if not port.isdigit() or not 1 <= int(port) <= 65535:
+        raise UsageError(f"{spec}: port {port!r} is not a port number (1-65535)")
 
 
 def _construct(cls: Any, spec: str, *args: Any, **kwargs: Any) -> Source:

@@ -23,11 +23,35 @@ def register(parser: argparse.ArgumentParser) -> None:
                         help="take the alarm timeline from the engine even when a journal is beside the file")
 
 
+def _unreadable(name: str) -> str:
+    """Why FILE cannot be a recording before anything reads it ("" when it may be one)."""
+    import os
+    import stat
+
+    try:
+        st = os.stat(name)
+    except FileNotFoundError:
+        return "no such file"
+    except OSError as exc:
+        return f"cannot read: {exc.strerror or exc}"
+    if stat.S_ISDIR(st.st_mode):
+        return "is a directory; give a recording's .csv file"
+    if not stat.S_ISREG(st.st_mode):
+        return "not a regular file (a device or a pipe); give a recording's .csv file"
+    if st.st_size == 0:
+        return "is empty; a recording has a header row and data lines"
+    return ""
+
+
 def run(args: argparse.Namespace) -> int:
     from adapters.base import FatalSourceError
     from monitor.headless import jsonable
     from monitor.report import build_report, to_json, to_markdown
 
+    problem = _unreadable(args.file)
+    if problem:
+        print(f"regime report: {args.file}: {problem}", file=sys.stderr)
+        return EXIT_SOURCE
     try:
         report = build_report(args.file, config_path=args.config, map_path=args.map,
                               use_journal=not args.rerun_alarms)

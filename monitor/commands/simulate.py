@@ -20,10 +20,10 @@ _FIELDS = ("ne", "Te", "p0", "B")
 
 # ----------------------------------------------------------------------------- encoders (our wire formats)
 
-def _rows(batch: Any) -> tuple[list[float], list[int], list[list[tuple[str, float]]]]:
+def _rows(batch: Any) -> tuple[list[float], list[int | None], list[list[tuple[str, float]]]]:
     """Per reading: the (key, value) pairs it carries (NaN columns left out)."""
-    t = batch.t.tolist()
-    seq = batch.seq.tolist() if batch.seq is not None else [None] * len(t)
+    t: list[float] = batch.t.tolist()
+    seq: list[int | None] = batch.seq.tolist() if batch.seq is not None else [None] * len(t)
     keys = [k for k in batch.columns]
     cols = [batch.columns[k].tolist() for k in keys]
     pairs = [[(k, v) for k, v in zip(keys, vals) if v == v] for vals in zip(*cols)] if cols else [[] for _ in t]
@@ -136,12 +136,18 @@ def _wait_subscribers(sock: Any, want: int, timeout: float, stop: threading.Even
 def run(args: argparse.Namespace) -> int:
     import zmq
 
-    from adapters.simulated import generate_samples, scenario_length
+    from adapters.simulated import MAX_RATE, generate_samples, scenario_length
 
     endpoint = check_bind_endpoint(args.endpoint, args.allow_remote)
     speed = _speed(args.speed)
     if not (args.rate > 0 and math.isfinite(args.rate)):
         raise UsageError(f"--rate {args.rate}: must be positive")
+    if args.rate > MAX_RATE:
+        raise UsageError(f"--rate {args.rate:g}: over the simulator's ceiling of {MAX_RATE:g} per second")
+    if args.sndhwm < 0:
+        raise UsageError(f"--sndhwm {args.sndhwm}: a number of messages, 0 (no limit) or more")
+    if not (args.wait_timeout >= 0 and math.isfinite(args.wait_timeout)) or args.wait_subscribers < 0:
+        raise UsageError("--wait-subscribers and --wait-timeout must be 0 or more")
     batch_k = args.batch if args.batch is not None else (1000 if args.format == "binary" else 1)
     if batch_k < 1 or (args.count is not None and args.count < 0):
         raise UsageError("--batch must be >= 1 and --count >= 0")
@@ -181,7 +187,8 @@ def run(args: argparse.Namespace) -> int:
         except zmq.ZMQError as exc:
             print(f"regime simulate: cannot bind {endpoint}: {exc}", file=sys.stderr)
             return EXIT_SOURCE
-        bound = sock.getsockopt(zmq.LAST_ENDPOINT).decode()
+        last = sock.getsockopt(zmq.LAST_ENDPOINT)
+        bound = last.decode() if isinstance(last, bytes) else str(last)
         if not args.quiet:
             print(f"regime simulate: {args.scenario} at {args.rate:g} Hz as {args.format} on {bound}", file=sys.stderr, flush=True)
         if args.wait_subscribers and not _wait_subscribers(sock, args.wait_subscribers, args.wait_timeout, stop):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -232,8 +233,10 @@ def test_framer_lf_crlf_and_partial_lines() -> None:
     assert f.feed(b"ne=1\r\nne=2\nne") == ([b"ne=1", b"ne=2"], [])
     assert f.pending == 2
     assert f.feed(b"=3") == ([], [])
-    assert f.feed(b"\r") == ([], [])
-    assert f.feed(b"\n") == ([b"ne=3"], [])
+    # a CR ends the line at once (instruments that end lines with CR only); an LF right after it is its pair
+    assert f.feed(b"\r") == ([b"ne=3"], [])
+    assert f.feed(b"\n") == ([], [])
+    assert f.feed(b"ne=4\rne=5\r\rne=6\n") == ([b"ne=4", b"ne=5", b"", b"ne=6"], [])
     assert f.flush() == b""
 
 
@@ -300,7 +303,7 @@ def test_fuzz_binary_never_raises(header: bytes, payload: bytes) -> None:
 
 
 @settings(max_examples=3000)
-@given(st.lists(st.binary(max_size=60) | st.sampled_from([b"\n", b"\r\n", b"ne=1\n"]), max_size=12),
+@given(st.lists(st.binary(max_size=60) | st.sampled_from([b"\n", b"\r\n", b"\r", b"ne=1\n", b"ne=2\r"]), max_size=12),
        st.integers(4, 40))
 def test_fuzz_framer_every_line_end_accounted(chunks: list[bytes], max_line: int) -> None:
     f = LineFramer(max_line=max_line)
@@ -312,10 +315,12 @@ def test_fuzz_framer_every_line_end_accounted(chunks: list[bytes], max_line: int
         over += bad
     data = b"".join(chunks)
     assert all(len(ln) <= max_line for ln in lines)
-    assert all(b"\n" not in ln for ln in lines)
-    # each LF ends exactly one line: delivered, or refused as oversized (refused lines may still be open)
+    assert all(b"\n" not in ln and b"\r" not in ln for ln in lines)
+    # each line end (LF, CR or CRLF) ends exactly one line: delivered, or refused as oversized
+    # (refused lines may still be open)
     ended_over = len(over) - (1 if f.discarding else 0)
-    assert len(lines) + ended_over == data.count(b"\n")
+    ends = re.findall(rb"\r\n|\r|\n", data)
+    assert len(lines) + ended_over == len(ends)
     # what was delivered is exactly the short lines of the stream
-    expected = [p[:-1] if p.endswith(b"\r") else p for p in data.split(b"\n")[:-1]]
+    expected = re.split(rb"\r\n|\r|\n", data)[:-1]
     assert lines == [p for p in expected if len(p) <= max_line]

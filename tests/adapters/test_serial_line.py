@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import re
 import socket
 import threading
 from pathlib import Path
@@ -188,7 +189,7 @@ def test_serial_spec() -> None:
     assert (s.url, s.baud) == ("/dev/ttyS9", 9600)
 
 
-_chunk = st.one_of(st.binary(max_size=50), st.sampled_from([b"\n", b"\r\n", b"ne=1\n", b"seq=2 ne=", b"# c\n", b"=\n"]))
+_chunk = st.one_of(st.binary(max_size=50), st.sampled_from([b"\n", b"\r\n", b"\r", b"ne=3\r", b"ne=1\n", b"seq=2 ne=", b"# c\n", b"=\n"]))
 
 
 @settings(max_examples=150, suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
@@ -205,5 +206,5 @@ def test_fuzz_bytes_through_loop_url_are_all_accounted(opened, chunks: list[byte
         src.port.write(c)
     d = drain(src, lambda d: any("zz_sentinel" in b.columns for b in d.batches), timeout=10)
     assert any("zz_sentinel" in b.columns for b in d.batches)
-    lines = data.count(b"\n")
+    lines = len(re.findall(rb"\r\n|\r|\n", data))         # LF, CR and CRLF each end one line
     assert d.readings + len(d.rejections) + (src.skipped - skipped0) == lines

@@ -280,10 +280,9 @@ def _expected(parts: list[bytes]) -> int:
     if f.lstrip()[:1] == b"{":
         p = parse_json_frames([f], "x", 0.0, max_frame=4096)
     else:
-        lines = f.split(b"\n")
-        if lines and lines[-1] == b"":
-            lines.pop()
-        p = parse_text_lines([ln[:-1] if ln.endswith(b"\r") else ln for ln in lines], "x", 0.0)
+        from adapters.framing import split_lines
+
+        p = parse_text_lines(split_lines(f), "x", 0.0)      # LF, CR or CRLF line ends
     return p.readings + len(p.rejections)
 
 

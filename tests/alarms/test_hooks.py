@@ -100,3 +100,72 @@ def test_placeholders_and_hook_config_errors() -> None:
         parse_alarm_options({"hooks": {"loud": ["x"]}}, "t.toml")
     with pytest.raises(ConfigError, match="alarms.hooks.urgent.timeout"):
         parse_alarm_options({"hooks": {"urgent": {"command": ["x"], "timeout": 0}}}, "t.toml")
+
+
+# issue 12 point 10: a hook never outlives the run, not even one started at shutdown
+SPAWN = "/bin/sh"          # the hook runs a shell script as its command (the runner itself uses no shell)
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    try:                                         # a zombie waiting for its parent is dead too
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split(")")[-1].split()[0] != "Z"
+    except OSError:
+        return False
+
+
+def _sleeper(tmp_path: Path, timeout: str = "30 s") -> tuple[HookRunner, Path]:
+    pid_file = tmp_path / "pid"
+    script = f"sleep 30 & echo $! > {pid_file}.child; echo $$ > {pid_file}; wait"
+    opts = parse_alarm_options({"hooks": {"urgent": {"command": [SPAWN, "-c", script], "timeout": timeout}}}, "t.toml")
+    return HookRunner(opts.hooks), pid_file
+
+
+def test_hook_running_at_close_is_ended_with_what_it_started(tmp_path: Path) -> None:
+    runner, pid_file = _sleeper(tmp_path)
+    runner.on_alarm(_raise_event())
+    assert _wait_for(lambda: Path(f"{pid_file}.child").exists() and pid_file.exists())
+    pid, child = int(pid_file.read_text()), int(Path(f"{pid_file}.child").read_text())
+    runner.close(timeout=0.2)
+    assert _wait_for(lambda: not _alive(pid) and not _alive(child), timeout=5)
+    assert runner.results and runner.results[-1].returncode is None
+
+
+def test_hook_timeout_ends_its_whole_process_group(tmp_path: Path) -> None:
+    runner, pid_file = _sleeper(tmp_path, timeout="0.5 s")
+    runner.on_alarm(_raise_event())
+    assert runner.wait(1, 10.0)
+    child = int(Path(f"{pid_file}.child").read_text())
+    assert _wait_for(lambda: not _alive(child), timeout=5)
+    assert "timeout" in runner.results[0].error
+    runner.close()
+
+
+def test_hook_left_running_is_ended_when_the_interpreter_exits(tmp_path: Path) -> None:
+    pid_file = tmp_path / "pid"
+    code = (
+        "import sys, time; sys.path.insert(0, sys.argv[2]); from pathlib import Path\n"
+        "from alarm_helpers import engine, frame\n"
+        "from monitor.alarms.envelope import parse_alarm_options\n"
+        "from monitor.alarms.hooks import HookRunner\n"
+        "p = Path(sys.argv[1])\n"
+        "opts = parse_alarm_options({'hooks': {'urgent': {'command': ['/bin/sh', '-c', 'echo $$ > ' + str(p) + '; exec sleep 30'],"
+        " 'timeout': '1 s'}}}, 't.toml')\n"
+        "eng = engine([{'name': 'hot', 'quantity': 'Te', 'high': 5.0, 'priority': 'urgent'}])\n"
+        "ev = [e for e in eng.process(frame([0.0, 1.0], Te=[3.0, 9.0])) if e.state.value == 'unacknowledged'][0]\n"
+        "r = HookRunner(opts.hooks); r.on_alarm(ev)\n"
+        "t = time.monotonic()\n"
+        "while not p.exists() and time.monotonic() - t < 10: time.sleep(0.02)\n"
+        "time.sleep(0.1)\n"                      # exit while the hook runs, without close()
+    )
+    import subprocess
+
+    root = Path(__file__).resolve().parents[2]
+    subprocess.run([sys.executable, "-c", code, str(pid_file), str(Path(__file__).parent)], check=True, timeout=30,
+                   env={**os.environ, "PYTHONPATH": str(root)})
+    pid = int(pid_file.read_text())
+    assert _wait_for(lambda: not _alive(pid), timeout=5), "the hook outlived the run"

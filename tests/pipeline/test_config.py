@@ -137,3 +137,47 @@ def test_cli_exits_2_naming_file_and_key(tmp_path: Path) -> None:
     assert out.returncode == 2, out.stderr
     assert str(p) in out.stderr and "channels.temp.unit" in out.stderr
     assert out.stdout == ""
+
+
+# issue 12 point 9: device constants outside a physical range are refused with the file and the key named
+@pytest.mark.parametrize("toml, key", [
+    ("[device]\nZ = 1.5\n", "device.Z"),
+    ("[device]\nZ = 99999999999999999999\n", "device.Z"),
+    ("[device]\nlength = 1e308\n", "device.length"),
+    ("[device]\nlength = \"1e-12 m\"\n", "device.length"),
+    ("[device]\nA = 1e-30\n", "device.A"),
+    ("[device]\ngas_temperature = \"1e9 K\"\n", "device.gas_temperature"),
+    ("[device]\nsigma_en = 1.0\n", "device.sigma_en"),
+    ("[device]\nwave_frequency = \"1e30 Hz\"\n", "device.wave_frequency"),
+    ("[sources]\nstale_after = \"1e300 s\"\n", "sources.stale_after"),
+    ("[sources.max_age]\nne = 1e300\n", "sources.max_age.ne"),
+    ("[pipeline]\nwindow = 1e300\n", "pipeline.window"),
+    ("[discharge]\non_above = 1e300\n", "discharge.on_above"),
+])
+def test_implausible_values_are_refused_naming_file_and_key(tmp_path: Path, toml: str, key: str) -> None:
+    path = tmp_path / "bad.toml"
+    path.write_text(toml)
+    with pytest.raises(ConfigError) as err:
+        load_config(path)
+    assert err.value.key == key and str(path) in str(err.value)
+
+
+def test_plausible_device_values_are_kept(tmp_path: Path) -> None:
+    path = tmp_path / "ok.toml"
+    path.write_text("[device]\nZ = 2\nA = 1.007\nlength = \"2 mm\"\nsigma_en = 3e-20\n")
+    d = load_config(path).device
+    assert (d.ion_charge, d.ion_mass_u, d.length, d.sigma_en) == (2, 1.007, 0.002, 3e-20)
+
+
+# issue 12 point 6: a config file is read with a stated bound (/dev/zero returns at once)
+def test_config_read_is_bounded(tmp_path: Path) -> None:
+    from monitor.config import MAX_CONFIG_BYTES
+
+    with pytest.raises(ConfigError, match="larger than"):
+        load_config("/dev/zero")
+    big = tmp_path / "big.toml"
+    big.write_text("# padding\n" * (MAX_CONFIG_BYTES // 10 + 1))
+    with pytest.raises(ConfigError, match="larger than"):
+        load_config(big)
+    with pytest.raises(ConfigError, match="directory"):
+        load_config(tmp_path)

@@ -84,3 +84,38 @@ def test_the_zeromq_receive_queue_is_a_sources_setting(tmp_path) -> None:
     for bad in (0, -1, 2.5, "many", True):
         with pytest.raises(ConfigError, match="receive_queue"):
             parse_config({"sources": {"receive_queue": bad}}, None)
+
+
+# issue 12 point 9: specs that could never work are usage errors at once (exit 2), not endless retries
+@pytest.mark.parametrize("spec, words", [
+    ("tcp://127.0.0.1:99999", "port '99999'"),
+    ("tcp://127.0.0.1:0", "port '0'"),
+    ("tcp://127.0.0.1", "HOST:PORT"),
+    ("tcp://:5555", "HOST:PORT"),
+    ("ipc://", "path"),
+    ("serial:/dev/x@abc", "baud rate 'abc'"),
+    ("serial:/dev/x@", "baud rate ''"),
+    ("/dev/ttyUSB0@fast", "baud rate 'fast'"),
+    ("sim:demo?rate=1e12", "ceiling"),
+])
+def test_specs_that_can_never_work_are_usage_errors(spec: str, words: str) -> None:
+    with pytest.raises(UsageError, match=words.replace("(", r"\(")):
+        open_source(spec, None)
+
+
+def test_serial_url_with_at_sign_is_left_alone() -> None:
+    assert open_source("serial:socket://127.0.0.1:7001", None).url == "socket://127.0.0.1:7001"
+
+
+# issue 12 point 4: the channel map's keys are always numbers; other text columns are ignored and named
+def test_csv_source_parses_the_mapped_columns_as_numbers(tmp_path: Path) -> None:
+    path = tmp_path / "log.csv"
+    path.write_text("t,dens,note\n0.0,bad,ok\n0.1,1e17,fine\n")
+    cfg = parse_config({"channels": {"dens": {"quantity": "ne", "unit": "m^-3"}}}, None)
+    src = open_source(str(path), cfg)
+    src.open()
+    try:
+        assert src.ignored_columns == ("note",)           # "dens" is mapped: read as numbers, line 2 damaged
+        assert src.damage is not None and src.damage[0] == 2
+    finally:
+        src.close()
