@@ -72,21 +72,25 @@ def text_reject(source: str, reason: str, raw: bytes, received: float, detail: s
 def binary_span(header: object, payload_len: int, max_frame: int = MAX_FRAME) -> tuple[int, tuple[int, int] | None]:
     """How many readings a refused binary batch stands for, and the (first, last) seq it covered.
 
-    The rule: a refused binary batch counts as the readings its payload holds (payload bytes over
-    fields x item size, rounded up, at most the header's n, at least 1); it counts as 1 when its header
-    does not name its fields and item size. Its seq range runs on from the header's seq only when that
-    seq and n can be trusted (n from 1 to what a frame of ``max_frame`` bytes can hold)."""
+    The rule, one sentence for the README: a refused binary batch whose header's n can be trusted (a
+    whole number from 1 to what one frame can hold) counts as the readings its payload held (rounded
+    up, at most n; n itself when its dtype is not one of ours) with the seq numbers from its header's
+    seq on; any other refused batch counts as one reading, standing for its header's seq if it has one,
+    and the gap its other readings leave in the seq counts them as lost. So each seq number counts once."""
     if not isinstance(header, dict):
         return 1, None
     fields, n, seq, dtype = header.get("fields"), header.get("n"), header.get("seq"), header.get("dtype", "<f8")
-    if not isinstance(fields, list) or not fields or not isinstance(dtype, str) or dtype not in DTYPES:
-        return 1, None
-    per = len(fields) * np.dtype(dtype).itemsize
-    held = -(-payload_len // per)
-    claimed = n if type(n) is int and n >= 0 else None
-    count = max(1, held if claimed is None else min(held, claimed))
-    capacity = max(1, -(-max_frame // per))
-    if claimed is not None and 1 <= claimed <= capacity and type(seq) is int and 0 <= seq <= SEQ_MAX - count:
+    seq_ok = type(seq) is int and 0 <= seq <= SEQ_MAX
+    one = (1, (seq, seq) if seq_ok else None)
+    if not isinstance(fields, list) or not fields:
+        return one
+    known = isinstance(dtype, str) and dtype in DTYPES
+    size = np.dtype(dtype).itemsize if known else min(np.dtype(d).itemsize for d in DTYPES)
+    per = len(fields) * size
+    if type(n) is not int or not 1 <= n <= max(1, max_frame // per):
+        return one
+    count = max(1, min(n, -(-payload_len // per))) if known else n
+    if seq_ok and seq <= SEQ_MAX - count:
         return count, (seq, seq + count - 1)
     return count, None
 

@@ -83,7 +83,7 @@ def test_binary_payload_longer_than_n_counts_n() -> None:
 def test_binary_oversized_counts_its_payload_without_an_untrusted_seq() -> None:
     payload = b"\0" * (64 * 8 + 8)
     r = _one(parse_binary_batch(_hdr(fields=["ne"], n=65, seq=7), payload, SRC, NOW, max_frame=64 * 8))
-    assert _fields(r) == ("oversized", 65, None, None)         # n beyond what a frame can hold: no seq
+    assert _fields(r) == ("oversized", 1, 7, 7)          # n beyond what a frame can hold: one, at its seq
     r = _one(parse_binary_batch(_hdr(fields=["ne"], n=60, seq=7), payload, SRC, NOW, max_frame=64 * 8))
     assert _fields(r) == ("oversized", 60, 7, 66)
 
@@ -91,14 +91,14 @@ def test_binary_oversized_counts_its_payload_without_an_untrusted_seq() -> None:
 def test_binary_unreadable_header_counts_one_without_seq() -> None:
     assert _fields(_one(parse_binary_batch(b"{nope", b"\0" * 800, SRC, NOW))) == ("bad_binary_header", 1, None, None)
     assert _fields(_one(parse_binary_batch(_hdr(n=3, seq=1), b"\0" * 24, SRC, NOW))) == \
-        ("bad_binary_header", 1, None, None)
+        ("bad_binary_header", 1, None, None)            # not a header at all: nothing in it is trusted
     r = _one(parse_binary_batch(_hdr(fields=["ne"], n=3, seq=1, dtype="|O"), b"\0" * 24, SRC, NOW))
-    assert _fields(r) == ("bad_dtype", 1, None, None)
+    assert _fields(r) == ("bad_dtype", 3, 1, 3)         # a dtype not ours: its n, still trusted
 
 
 def test_binary_claiming_more_than_a_frame_holds_counts_its_payload() -> None:
     r = _one(parse_binary_batch(_hdr(fields=["ne"], n=10**12, seq=5), b"\0" * 80, SRC, NOW))
-    assert _fields(r) == ("size_mismatch", 10, None, None)
+    assert _fields(r) == ("size_mismatch", 1, 5, 5)     # its n cannot be trusted: one, at its seq
 
 
 def test_binary_bad_time_refuses_the_batch_whole_with_its_range() -> None:
@@ -109,12 +109,12 @@ def test_binary_bad_time_refuses_the_batch_whole_with_its_range() -> None:
 
 def test_binary_span_rule() -> None:
     assert binary_span(None, 100) == (1, None)
-    assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 0) == (1, None)
-    assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 80) == (1, None)     # never more than n, never 0
-    assert binary_span({"fields": ["ne"], "n": "5", "seq": 3}, 80) == (10, None)  # no n to trust: the payload
+    assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 0) == (1, (3, 3))      # no reading in it: one, at its seq
+    assert binary_span({"fields": ["ne"], "n": 0, "seq": 3}, 80) == (1, (3, 3))
+    assert binary_span({"fields": ["ne"], "n": "5", "seq": 3}, 80) == (1, (3, 3))   # no n to trust: one
     assert binary_span({"fields": ["t", "ne"], "n": 4, "seq": 3, "dtype": "<f4"}, 33) == (4, (3, 6))
-    assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8, "seq": 0}, 16) == (2, (0, 1))
-    assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8 + 1, "seq": 0}, 16) == (2, None)
+    assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8, "seq": 0}, 16) == (2, (0, 1))   # what the payload held
+    assert binary_span({"fields": ["ne"], "n": MAX_FRAME // 8 + 1, "seq": 0}, 16) == (1, (0, 0))
     assert binary_span({"fields": ["ne"], "n": 4, "seq": 2**63 - 2}, 32) == (4, None)
 
 
