@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Callable, Mapping
+from typing import Any, Callable, Iterable, Mapping
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -13,10 +13,15 @@ from monitor.model import Device
 from monitor.physics import constants as C
 from monitor.physics.collisions import NU_EI_COEFFICIENT
 from monitor.physics.speeds import MEAN_FACTOR, MOST_PROBABLE_FACTOR, RMS_FACTOR
+from monitor.physics.nonlinear import (GATE_RELATIVE, NONLINEAR, RHO_MAX, branch_straddle, input_r2,
+                                      nonlinear_warnings)
 from monitor.physics.uncertainty import SIGMA_KEYS, propagate, relative_squares
-from monitor.physics.validity import DeviceConsts, device_consts, validate_scalar, validate_vector
+from monitor.physics.validity import (DEGENERATE_ND2_PER_NE, ION_COUPLING_PER_NE, RELATIVISTIC_EV,
+                                      SPEED_OF_LIGHT_EV, STRONG_COUPLING_ND, DeviceConsts, device_consts,
+                                      validate_scalar, validate_vector)
 
-__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS"]
+__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS", "AFFECTS", "WITHHELD",
+           "warning_text", "flags_of", "core_values"]
 
 INPUT_KEYS = ("ne", "Te", "Ti", "B", "p0")
 # What each derived quantity needs: input keys plus device constants L and f
@@ -38,13 +43,68 @@ SCALAR_MAX = 8
 # Above this many samples the batch is derived block by block (temporaries stay in cache).
 CHUNK = 16384
 
-# Warning codes derive() may raise, with what they mean for the operator.
+# Warning codes derive() may raise, with what they mean for the operator. Each
+# criterion's source is named beside its test in monitor/physics/validity.py.
 WARNINGS: dict[str, str] = {
-    "coulomb_logarithm_small": "lnLambda < 2: Coulomb logarithm and collision rates outside their validity",
+    "coulomb_logarithm_small": "lnLambda < 2: the Coulomb logarithm is outside its validity; collision rates "
+                               "and what is built on them are withheld (strongly coupled)",
     "coulomb_logarithm_cold_electrons": "Te < Ti me/mi: below the range of the Coulomb logarithm formula",
-    "relativistic_electrons": "Te > 50 keV: relativistic electrons, non-relativistic formulas are off",
+    "electrons_strongly_coupled": "electron coupling parameter Gamma_e >= 1 (strongly coupled electrons: "
+                                  "Debye shielding and the collision formulas do not hold)",
+    "ions_strongly_coupled": "ion coupling parameter Gamma_i = Z^2 e^2/(4 pi eps0 a_i k Ti) >= 1 "
+                             "(strongly coupled ions)",
+    "electrons_degenerate": "Te below the electron Fermi energy: degenerate electrons, Maxwellian formulas "
+                            "(speeds, Debye length, collision rates, pressure) do not hold",
+    "relativistic_electrons": "kTe >= 1 % of me c^2 (~5.1 keV): relativistic electrons, non-relativistic "
+                              "formulas are off by a percent or more",
+    "speed_above_light": "kTe >= me c^2 / 3 (~170 keV): the non-relativistic Maxwellian speeds reach c; "
+                         "speeds and what is built on them are withheld",
     "plasma_beta_electrons_only": "plasma_beta counts the electron pressure only (Ti not given)",
+    NONLINEAR: f"linear uncertainty not trustworthy: the second-order term exceeds {RHO_MAX:g} of the "
+               "first-order sigma (use a Monte Carlo interval)",
 }
+# The quantities each warning concerns (for per-quantity flags; NONLINEAR codes carry their own name).
+_COLLISIONAL = ("electron_ion_collision_frequency", "electron_mean_free_path", "knudsen_number",
+                "collectivity", "hall_parameter")
+_SPEEDS = ("electron_most_probable_speed", "electron_mean_speed", "electron_rms_speed", "electron_thermal_speed")
+_ON_SPEEDS = (*_SPEEDS, "electron_gyroradius", "electron_neutral_collision_frequency",
+              "electron_mean_free_path", "knudsen_number", "collectivity", "hall_parameter")
+AFFECTS: dict[str, tuple[str, ...]] = {
+    "coulomb_logarithm_small": ("coulomb_logarithm", *_COLLISIONAL),
+    "coulomb_logarithm_cold_electrons": ("coulomb_logarithm", *_COLLISIONAL),
+    "electrons_strongly_coupled": ("coulomb_logarithm", "debye_length", "debye_number", "debye_ratio",
+                                   *_COLLISIONAL),
+    "ions_strongly_coupled": (),
+    "electrons_degenerate": ("debye_length", "debye_number", "debye_ratio", "coulomb_logarithm", *_ON_SPEEDS,
+                             "plasma_beta"),
+    "relativistic_electrons": ("electron_plasma_frequency", "electron_cyclotron_frequency", *_ON_SPEEDS,
+                               "electron_ion_collision_frequency"),
+    "speed_above_light": _ON_SPEEDS,
+    "plasma_beta_electrons_only": ("plasma_beta",),
+}
+# Warnings under which derive() withholds (NaN) the values it names in AFFECTS, with the
+# short reason the criteria print ("not judged: ...").
+WITHHELD: dict[str, tuple[tuple[str, ...], str]] = {
+    "coulomb_logarithm_small": (_COLLISIONAL, "strongly coupled (lnLambda < 2)"),
+    "speed_above_light": (_ON_SPEEDS, "relativistic electrons (Maxwellian speeds reach c)"),
+}
+
+
+def warning_text(code: str) -> str:
+    """The operator's sentence for a warning code (per-quantity NONLINEAR codes included)."""
+    base, _, name = code.partition(":")
+    text = WARNINGS.get(base, code)
+    return f"{name}: {text}" if name else text
+
+
+def flags_of(name: str, codes: Iterable[str]) -> list[str]:
+    """The warning codes among ``codes`` that concern quantity ``name`` (NONLINEAR shortened to its base)."""
+    out = []
+    for code in codes:
+        base, _, q = code.partition(":")
+        if (q == name) if q else name in AFFECTS.get(code, ()):
+            out.append(base)
+    return out
 
 # Fused constants (see the per-kind modules for the formulas and sources).
 _K_LAMBDA = math.sqrt(C.EPSILON_0 / C.ELEMENTARY_CHARGE)                   # lambda_D = K sqrt(Te/ne)
@@ -53,7 +113,6 @@ _K_WPE = math.sqrt(C.ELEMENTARY_CHARGE**2 / (C.EPSILON_0 * C.ELECTRON_MASS))
 _K_VT = math.sqrt(C.ELEMENTARY_CHARGE / C.ELECTRON_MASS)                   # v_T = K sqrt(Te)
 _K_WCE = C.ELEMENTARY_CHARGE / C.ELECTRON_MASS
 _K_BETA = 2.0 * C.MU_0 * C.ELEMENTARY_CHARGE
-_RELATIVISTIC_EV = 50.0e3
 
 
 @dataclass(frozen=True, eq=False)
@@ -112,11 +171,15 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
     if te is not None:
         st = M.sqrt(te)
         vt = _K_VT * st
+        W["relativistic_electrons"] = te >= RELATIVISTIC_EV
+        fast = te >= SPEED_OF_LIGHT_EV
+        if M.any(fast):                      # withheld, never printed as a multiple of c
+            W["speed_above_light"] = fast
+            vt = M.where(fast, math.nan, vt)
         V["electron_most_probable_speed"] = vt * MOST_PROBABLE_FACTOR
         V["electron_mean_speed"] = vmean = vt * MEAN_FACTOR
         V["electron_rms_speed"] = vt * RMS_FACTOR
         V["electron_thermal_speed"] = vt
-        W["relativistic_electrons"] = te > _RELATIVISTIC_EV
     if ne is not None and te is not None:
         lam = st / sne
         lam *= _K_LAMBDA
@@ -124,6 +187,10 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
         nd = te * lam
         nd *= _K_DEBYE_NUMBER
         V["debye_number"] = nd
+        W["electrons_strongly_coupled"] = nd <= STRONG_COUPLING_ND
+        W["electrons_degenerate"] = nd * nd < ne * DEGENERATE_ND2_PER_NE
+        if ti is not None:
+            W["ions_strongly_coupled"] = ne * dc.ion_coupling_per_ne >= ti * ti * ti
         if dc.length is not None:
             V["debye_ratio"] = dc.length / lam
         t15 = te * st
@@ -136,12 +203,14 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
         else:
             aux["branch_slope"] = 1.5
         V["coulomb_logarithm"] = lnl
-        W["coulomb_logarithm_small"] = lnl < 2.0
+        W["coulomb_logarithm_small"] = small = lnl < 2.0
         if ti is not None:
             W["coulomb_logarithm_cold_electrons"] = te < ti * dc.mass_ratio
         nu = ne * lnl
         nu /= t15
         nu *= NU_EI_COEFFICIENT
+        if M.any(small):                     # withheld: NaN flows into everything built on the rate
+            nu = M.where(small, math.nan, nu)
         V["electron_ion_collision_frequency"] = nu
     if p0 is not None:
         n0 = p0 * dc.n0_factor
@@ -193,6 +262,12 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
     return V, S, W
 
 
+def core_values(x: Mapping[str, np.ndarray], dc: DeviceConsts) -> dict[str, np.ndarray]:
+    """Values only (no sigmas) of validated float64 arrays ``x``; for the nonlinearity check and Monte Carlo."""
+    with np.errstate(all="ignore"):
+        return _core(_VECTOR, x, dc, None)[0]
+
+
 def _column(value: ArrayLike) -> np.ndarray:
     return np.asarray(value, dtype=np.float64).reshape(-1)
 
@@ -235,15 +310,16 @@ def derive(
                 sig[k] = float(np.asarray(s, dtype=np.float64).reshape(-1)[0])
     if n < SCALAR_MAX:
         try:
-            return _derive_scalar(cols, sig, dc, n)
+            return _derive_scalar(cols, sig, dc, n, device)
         except (ArithmeticError, ValueError):
             pass                                  # e.g. a zero field: numpy gives inf, math raises
     if n > CHUNK:
-        return _derive_chunked(cols, sig, dc, n)
-    return _derive_vector(cols, sig, dc, n)
+        return _derive_chunked(cols, sig, dc, n, device)
+    return _derive_vector(cols, sig, dc, n, device)
 
 
-def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                    device: Device) -> Derived:
     """Large batches in blocks of CHUNK samples so the temporaries stay in cache; same results."""
     values: dict[str, np.ndarray] = {}
     sigma: dict[str, np.ndarray] = {}
@@ -252,7 +328,8 @@ def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: Device
     for a in range(0, n, CHUNK):
         b = min(a + CHUNK, n)
         part = _derive_vector({k: c[a:b] for k, c in cols.items()},
-                              {k: (s[a:b] if isinstance(s, np.ndarray) else s) for k, s in sig.items()}, dc, b - a)
+                              {k: (s[a:b] if isinstance(s, np.ndarray) else s) for k, s in sig.items()}, dc, b - a,
+                              device)
         for out, got in ((values, part.values), (sigma, part.sigma)):
             for k, v in got.items():
                 if k not in out:
@@ -304,12 +381,17 @@ def _warm_allocator() -> None:
     _ALLOCATOR_WARM = True
 
 
-def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                   device: Device) -> Derived:
     if not _ALLOCATOR_WARM and n >= 256:
         _warm_allocator()
     with np.errstate(all="ignore"):
         x, invalid = validate_vector(cols, n)
-        V, S, W = _core(_VECTOR, x, dc, _squares(sig, x, dc, True))
+        Q = _squares(sig, x, dc, True)
+        V, S, W = _core(_VECTOR, x, dc, Q)
+    if Q:
+        W.update(nonlinear_warnings(core_values, x, input_r2(Q, x.get("p0")), device, dc, V, list(S), n))
+        _flag_branch(W, x, sig, dc)
     if "plasma_beta" in V and "Ti" not in x:
         W["plasma_beta_electrons_only"] = True
     invalid.update(_device_invalid(dc, n))
@@ -325,7 +407,34 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     return Derived(values=values, sigma=sigma, invalid=invalid, warnings=warnings)
 
 
-def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _flag_branch(W: dict[str, Any], x: Mapping[str, Any], sig: Mapping[str, Any], dc: DeviceConsts) -> None:
+    """Add the Coulomb-logarithm branch rule (monitor.physics.nonlinear) to the warnings ``W``."""
+    te, s_te = x.get("Te"), sig.get("Te")
+    if te is None or s_te is None or x.get("ne") is None:
+        return
+    mask = branch_straddle(np.asarray(te, dtype=np.float64).reshape(-1),
+                           np.asarray(s_te, dtype=np.float64).reshape(-1), dc.coulomb_branch)
+    if mask is not None:
+        code = f"{NONLINEAR}:coulomb_logarithm"
+        W[code] = mask | W[code] if code in W else mask
+
+
+def _scalar_wide(Q: Mapping[str, float] | None, p0: float | None) -> bool:
+    """Whether one sample's relative input sigmas open the nonlinearity check (see nonlinear.GATE_RELATIVE)."""
+    if not Q:
+        return False
+    limit = GATE_RELATIVE * GATE_RELATIVE
+    for key, q in Q.items():
+        if key == "p0_abs2":
+            if p0 and q > limit * p0 * p0:
+                return True
+        elif q > limit:
+            return True
+    return False
+
+
+def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                   device: Device) -> Derived:
     """The same computation on Python floats, one sample at a time (small N only)."""
     lists = {k: c.tolist() for k, c in cols.items()}
     slists = {k: (s.tolist() if isinstance(s, np.ndarray) else [s] * n) for k, s in sig.items()}
@@ -335,11 +444,14 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     flags: dict[str, list[int]] = {}
     vnames: list[str] = []
     snames: list[str] = []
+    wide = False
     for i in range(n):
         x = {k: v[i] for k, v in lists.items()}
         for reason in validate_scalar(x):
             reasons.setdefault(reason, []).append(i)
-        V, S, W = _core(_SCALAR, x, dc, _squares({k: v[i] for k, v in slists.items()}, x, dc, False))
+        Q = _squares({k: v[i] for k, v in slists.items()}, x, dc, False)
+        V, S, W = _core(_SCALAR, x, dc, Q)
+        wide = wide or _scalar_wide(Q, x.get("p0"))
         if i == 0:
             vnames, snames = list(V), list(S)
         vrows.append([V[k] for k in vnames])
@@ -362,5 +474,14 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         mask = np.zeros(n, dtype=bool)
         mask[rows] = True
         warnings[code] = mask
-    return Derived(values=dict(zip(vnames, varr)), sigma=dict(zip(snames, sarr)),
-                   invalid=invalid, warnings=warnings)
+    values = dict(zip(vnames, varr))
+    if wide:                                # rare on this path: the vector check on the few samples
+        with np.errstate(all="ignore"):
+            x_arr, _ = validate_vector(cols, n)
+            Q_arr = _squares(sig, x_arr, dc, True)
+        if Q_arr:
+            warnings.update(nonlinear_warnings(core_values, x_arr, input_r2(Q_arr, x_arr.get("p0")), device, dc,
+                                               values, snames, n))
+    if "Te" in sig and "coulomb_logarithm" in values:
+        _flag_branch(warnings, cols, sig, dc)
+    return Derived(values=values, sigma=dict(zip(snames, sarr)), invalid=invalid, warnings=warnings)

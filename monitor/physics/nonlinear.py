@@ -1,0 +1,163 @@
+"""Where first-order uncertainties stop holding: the second-order term of each derived quantity, per sample.
+
+The rule (stated in the README). Near a sample every derived quantity q is, to
+the order that matters here, a product of powers of its inputs,
+ln q = ln q0 + sum_j (a_j u_j + c_j u_j^2 / 2), u_j = ln(x_j / x0_j), with
+a_j = d ln q / d ln x_j the local log-derivatives and c_j their curvature
+(zero for the power laws; the Coulomb logarithm and the sums nu_ei + nu_en,
+ne + n0 bend). With independent Gaussian inputs of relative standard
+uncertainties r_j, the Taylor expansion of q to second order in the relative
+deviations gives a first-order relative sigma
+
+    s^2 = sum_j a_j^2 r_j^2
+
+and a second-order term whose standard deviation over s is rho, with
+
+    rho^2 = (s^4 + sum_j (d_j^2 + 2 a_j^2 d_j) r_j^4) / (2 s^2),   d_j = c_j - a_j
+
+(for one power-law input rho = |a - 1| r / sqrt(2): zero for a linear
+dependence, 3 r / sqrt(2) for B^-2). Cross-curvatures of ln q are neglected. A quantity's linear sigma is flagged as not
+trustworthy where rho > RHO_MAX. This is the GUM's own criterion (JCGM
+100:2008, 5.1.2: include the second-order terms when the nonlinearity is
+significant) with a stated threshold; tests/physics/test_nonlinear.py checks
+against our own Monte Carlo that an unflagged sigma matches the Monte Carlo's
+16th-84th percentile half-width.
+
+A second rule covers the one place where a formula jumps: the NRL Coulomb
+logarithm changes branch at Te = 10 Z^2 eV with a step of 0.5 ln 10 - 1 =
+0.15 (comparable to its own sigma). Where Te +- BRANCH_SIGMAS sigma_Te
+straddles the branch, the Coulomb logarithm's sigma is flagged too.
+
+Cost. a_j and c_j are taken numerically (central differences, two extra
+value passes per input that has a sigma) and only on the samples that can fail the rule: with
+|a_j| <= 2.2 for every quantity, rho <= 2.4 max_j r_j, so a batch whose
+relative input sigmas all stay under GATE_RELATIVE = RHO_MAX / 2.5 costs
+one maximum per input and nothing else.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Callable, Mapping
+
+import numpy as np
+
+from monitor.model import Device
+from monitor.physics.validity import DeviceConsts, device_consts
+
+__all__ = ["NONLINEAR", "RHO_MAX", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
+           "input_r2", "branch_straddle", "BRANCH_SIGMAS"]
+
+NONLINEAR = "nonlinear_sigma"
+# The second-order term may be at most this fraction of the first-order sigma.
+RHO_MAX = 0.15
+GATE_RELATIVE = RHO_MAX / 2.5
+_GATE_R2 = GATE_RELATIVE**2
+_LOG_STEP = 1e-3                          # step in ln x of the numerical log-derivatives (central)
+_UP, _DOWN = math.exp(_LOG_STEP), math.exp(-_LOG_STEP)
+_INPUTS = ("ne", "Te", "Ti", "B", "p0")
+# sigma key of a device constant -> monitor.model.Device field
+_DEVICE_FIELDS = {"L": "length", "f": "wave_frequency", "Tgas": "gas_temperature", "sigma_en": "sigma_en"}
+
+Evaluate = Callable[[Mapping[str, np.ndarray], DeviceConsts], Mapping[str, np.ndarray]]
+
+
+def input_r2(Q: Mapping[str, np.ndarray | float], p0: np.ndarray | float | None) -> dict[str, np.ndarray | float]:
+    """Relative squared sigmas per key from derive()'s squares ``Q`` (p0 there is absolute: made relative
+    here, a zero pressure counting as 0, since every quantity is linear in p0 near p0 = 0)."""
+    r2 = {k: v for k, v in Q.items() if k != "p0_abs2"}
+    if "p0_abs2" in Q and p0 is not None:
+        with np.errstate(all="ignore"):
+            r = np.asarray(Q["p0_abs2"], dtype=np.float64) / (np.asarray(p0, dtype=np.float64) ** 2)
+            r2["p0"] = np.where(np.isfinite(r), r, 0.0)
+    return r2
+
+
+def gate_open(r2: Mapping[str, np.ndarray | float]) -> bool:
+    """True when some relative input sigma exceeds GATE_RELATIVE (only then can rho exceed RHO_MAX)."""
+    return any(float(np.max(v)) > _GATE_R2 for v in r2.values() if np.size(v))
+
+
+def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
+                       device: Device, dc: DeviceConsts, base: Mapping[str, np.ndarray],
+                       names: list[str]) -> dict[str, np.ndarray]:
+    """rho (see the module docstring) for each quantity in ``names``; NaN where it cannot be told.
+
+    ``x`` validated inputs (arrays of one length), ``r2`` relative squared sigmas
+    (arrays for inputs, floats for device constants), ``base`` the values at ``x``.
+    """
+    m = len(next(iter(base.values()))) if base else 0
+    s2 = {q: np.zeros(m) for q in names}
+    s4 = {q: np.zeros(m) for q in names}
+    with np.errstate(all="ignore"):
+        ln0 = {q: np.log(np.abs(base[q])) for q in names}
+        for key, rr in r2.items():
+            got = [_nudged(evaluate, x, key, factor, device, dc) for factor in (_UP, _DOWN)]
+            for q in names:
+                lp, lm = np.log(np.abs(got[0][q])), np.log(np.abs(got[1][q]))
+                a = (lp - lm) / (2.0 * _LOG_STEP)               # d ln q / d ln x
+                c = (lp - 2.0 * ln0[q] + lm) / (_LOG_STEP * _LOG_STEP)   # d2 ln q / d (ln x)^2
+                d = c - a
+                term = a * a * rr
+                ok = np.isfinite(term) & np.isfinite(d)
+                s2[q] += np.where(ok, term, 0.0)
+                s4[q] += np.where(ok, rr * rr * (d * d + 2.0 * a * a * d), 0.0)
+        return {q: np.sqrt(0.5 * np.abs(s2[q] + s4[q] / s2[q])) for q in names}
+
+
+def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: float, device: Device,
+            dc: DeviceConsts) -> Mapping[str, np.ndarray]:
+    """The values with input or device constant ``key`` multiplied by ``factor``."""
+    if key in _INPUTS:
+        moved = dict(x)
+        moved[key] = x[key] * factor
+        return evaluate(moved, dc)
+    field = _DEVICE_FIELDS[key]
+    return evaluate(x, device_consts(dataclasses.replace(device, **{field: getattr(device, field) * factor})))
+
+
+def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
+                       device: Device, dc: DeviceConsts, values: Mapping[str, np.ndarray],
+                       names: list[str], n: int) -> dict[str, np.ndarray]:
+    """``{"nonlinear_sigma:<quantity>": mask}`` for the quantities whose linear sigma fails the rule somewhere.
+
+    ``r2`` from input_r2(); the numerical check runs only on the samples where some relative
+    input sigma exceeds GATE_RELATIVE.
+    """
+    if not r2 or not gate_open(r2):
+        return {}
+    wide = np.zeros(n, dtype=bool)
+    for v in r2.values():
+        wide |= np.asarray(v) > _GATE_R2
+    idx = np.flatnonzero(wide)
+    if len(idx) == 0:
+        return {}
+    sub_x = {k: v[idx] for k, v in x.items()}
+    sub_r2 = {k: (v[idx] if isinstance(v, np.ndarray) and v.ndim else v) for k, v in r2.items()}
+    base = {q: np.broadcast_to(values[q], (n,))[idx] for q in names}
+    rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, names)
+    out: dict[str, np.ndarray] = {}
+    for q, r in rho.items():
+        bad = r > RHO_MAX
+        if bad.any():
+            mask = np.zeros(n, dtype=bool)
+            mask[idx] = bad
+            out[f"{NONLINEAR}:{q}"] = mask
+    return out
+
+
+BRANCH_SIGMAS = 2.0
+
+
+def branch_straddle(te: np.ndarray, sigma_te: np.ndarray, branch: float) -> np.ndarray | None:
+    """Mask of samples whose Te +- BRANCH_SIGMAS sigma straddles the Coulomb-logarithm branch; None if none
+    can (decided from three reductions, so a batch far from the branch costs nothing more)."""
+    if len(te) == 0:
+        return None
+    reach = BRANCH_SIGMAS * float(np.fmax.reduce(np.abs(sigma_te)))     # fmax/fmin skip NaN silently
+    if not (float(np.fmin.reduce(te)) - reach < branch <= float(np.fmax.reduce(te)) + reach):
+        return None
+    with np.errstate(invalid="ignore"):
+        mask = np.abs(te - branch) < BRANCH_SIGMAS * np.abs(sigma_te)
+    return mask if mask.any() else None
