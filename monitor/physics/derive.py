@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Mapping
+from typing import Any, Callable, Mapping
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -13,9 +13,9 @@ from monitor.model import Device
 from monitor.physics import constants as C
 from monitor.physics.collisions import NU_EI_COEFFICIENT
 from monitor.physics.speeds import MEAN_FACTOR, MOST_PROBABLE_FACTOR, RMS_FACTOR
-from monitor.physics.nonlinear import (GATE_RELATIVE, NONLINEAR, RHO_MAX, branch_straddle, input_r2,
-                                      nonlinear_warnings)
-from monitor.physics.uncertainty import SIGMA_KEYS, propagate, relative_squares
+from monitor.physics.nonlinear import BRANCH_SIGMAS, GATE_RELATIVE, NONLINEAR, nonlinear_warnings
+from monitor.physics.tables import AFFECTS, INPUT_KEYS, REQUIRES, WARNINGS, WITHHELD, flags_of, warning_text
+from monitor.physics.uncertainty import SIGMA_KEYS, propagate, relative_squares, relative_squares_block
 from monitor.physics.validity import (DEGENERATE_ND2_PER_NE, ION_COUPLING_PER_NE, RELATIVISTIC_EV,
                                       SPEED_OF_LIGHT_EV, STRONG_COUPLING_ND, DeviceConsts, device_consts,
                                       validate_scalar, validate_vector)
@@ -23,88 +23,10 @@ from monitor.physics.validity import (DEGENERATE_ND2_PER_NE, ION_COUPLING_PER_NE
 __all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS", "AFFECTS", "WITHHELD",
            "warning_text", "flags_of", "core_values"]
 
-INPUT_KEYS = ("ne", "Te", "Ti", "B", "p0")
-# What each derived quantity needs: input keys plus device constants L and f
-# (A, Z, Tgas and sigma_en always have device defaults).
-REQUIRES: dict[str, tuple[str, ...]] = {
-    "debye_length": ("ne", "Te"), "debye_number": ("ne", "Te"), "debye_ratio": ("ne", "Te", "L"),
-    "electron_plasma_frequency": ("ne",), "ion_plasma_frequency": ("ne",),
-    "electron_most_probable_speed": ("Te",), "electron_mean_speed": ("Te",), "electron_rms_speed": ("Te",),
-    "electron_thermal_speed": ("Te",), "coulomb_logarithm": ("ne", "Te"),
-    "electron_ion_collision_frequency": ("ne", "Te"), "electron_neutral_collision_frequency": ("p0", "Te"),
-    "electron_mean_free_path": ("ne", "Te"), "knudsen_number": ("ne", "Te", "L"),
-    "neutral_density": ("p0",), "ionization_fraction": ("ne", "p0"), "collectivity": ("ne", "Te"),
-    "electron_cyclotron_frequency": ("B",), "ion_cyclotron_frequency": ("B",),
-    "electron_gyroradius": ("Te", "B"), "ion_gyroradius": ("Ti", "B"), "hall_parameter": ("ne", "Te", "B"),
-    "plasma_beta": ("ne", "Te", "B"), "cutoff_density": ("f",), "cutoff_ratio": ("ne", "f"),
-}
 # Below this many samples a per-sample pure-Python pass beats numpy's call overhead.
 SCALAR_MAX = 8
 # Above this many samples the batch is derived block by block (temporaries stay in cache).
 CHUNK = 16384
-
-# Warning codes derive() may raise, with what they mean for the operator. Each
-# criterion's source is named beside its test in monitor/physics/validity.py.
-WARNINGS: dict[str, str] = {
-    "coulomb_logarithm_small": "lnLambda < 2: the Coulomb logarithm is outside its validity; collision rates "
-                               "and what is built on them are withheld (strongly coupled)",
-    "coulomb_logarithm_cold_electrons": "Te < Ti me/mi: below the range of the Coulomb logarithm formula",
-    "electrons_strongly_coupled": "electron coupling parameter Gamma_e >= 1 (strongly coupled electrons: "
-                                  "Debye shielding and the collision formulas do not hold)",
-    "ions_strongly_coupled": "ion coupling parameter Gamma_i = Z^2 e^2/(4 pi eps0 a_i k Ti) >= 1 "
-                             "(strongly coupled ions)",
-    "electrons_degenerate": "Te below the electron Fermi energy: degenerate electrons, Maxwellian formulas "
-                            "(speeds, Debye length, collision rates, pressure) do not hold",
-    "relativistic_electrons": "kTe >= 1 % of me c^2 (~5.1 keV): relativistic electrons, non-relativistic "
-                              "formulas are off by a percent or more",
-    "speed_above_light": "kTe >= me c^2 / 3 (~170 keV): the non-relativistic Maxwellian speeds reach c; "
-                         "speeds and what is built on them are withheld",
-    "plasma_beta_electrons_only": "plasma_beta counts the electron pressure only (Ti not given)",
-    NONLINEAR: f"linear uncertainty not trustworthy: the second-order term exceeds {RHO_MAX:g} of the "
-               "first-order sigma (use a Monte Carlo interval)",
-}
-# The quantities each warning concerns (for per-quantity flags; NONLINEAR codes carry their own name).
-_COLLISIONAL = ("electron_ion_collision_frequency", "electron_mean_free_path", "knudsen_number",
-                "collectivity", "hall_parameter")
-_SPEEDS = ("electron_most_probable_speed", "electron_mean_speed", "electron_rms_speed", "electron_thermal_speed")
-_ON_SPEEDS = (*_SPEEDS, "electron_gyroradius", "electron_neutral_collision_frequency",
-              "electron_mean_free_path", "knudsen_number", "collectivity", "hall_parameter")
-AFFECTS: dict[str, tuple[str, ...]] = {
-    "coulomb_logarithm_small": ("coulomb_logarithm", *_COLLISIONAL),
-    "coulomb_logarithm_cold_electrons": ("coulomb_logarithm", *_COLLISIONAL),
-    "electrons_strongly_coupled": ("coulomb_logarithm", "debye_length", "debye_number", "debye_ratio",
-                                   *_COLLISIONAL),
-    "ions_strongly_coupled": (),
-    "electrons_degenerate": ("debye_length", "debye_number", "debye_ratio", "coulomb_logarithm", *_ON_SPEEDS,
-                             "plasma_beta"),
-    "relativistic_electrons": ("electron_plasma_frequency", "electron_cyclotron_frequency", *_ON_SPEEDS,
-                               "electron_ion_collision_frequency"),
-    "speed_above_light": _ON_SPEEDS,
-    "plasma_beta_electrons_only": ("plasma_beta",),
-}
-# Warnings under which derive() withholds (NaN) the values it names in AFFECTS, with the
-# short reason the criteria print ("not judged: ...").
-WITHHELD: dict[str, tuple[tuple[str, ...], str]] = {
-    "coulomb_logarithm_small": (_COLLISIONAL, "strongly coupled (lnLambda < 2)"),
-    "speed_above_light": (_ON_SPEEDS, "relativistic electrons (Maxwellian speeds reach c)"),
-}
-
-
-def warning_text(code: str) -> str:
-    """The operator's sentence for a warning code (per-quantity NONLINEAR codes included)."""
-    base, _, name = code.partition(":")
-    text = WARNINGS.get(base, code)
-    return f"{name}: {text}" if name else text
-
-
-def flags_of(name: str, codes: Iterable[str]) -> list[str]:
-    """The warning codes among ``codes`` that concern quantity ``name`` (NONLINEAR shortened to its base)."""
-    out = []
-    for code in codes:
-        base, _, q = code.partition(":")
-        if (q == name) if q else name in AFFECTS.get(code, ()):
-            out.append(base)
-    return out
 
 # Fused constants (see the per-kind modules for the formulas and sources).
 _K_LAMBDA = math.sqrt(C.EPSILON_0 / C.ELEMENTARY_CHARGE)                   # lambda_D = K sqrt(Te/ne)
@@ -146,14 +68,32 @@ class _Ops:
     where: Callable[[Any, Any, Any], Any]
     any: Callable[[Any], bool]
     abs: Callable[[Any], Any]
+    lo: Callable[[Any], Any]         # smallest non-NaN value (a float stays itself)
+    hi: Callable[[Any], Any]         # largest non-NaN value
     isqrt: Callable[[Any], Any]      # in place on a fresh array temporary
     ilog: Callable[[Any], Any]       # in place on a fresh array temporary
 
 
-_SCALAR = _Ops(math.sqrt, math.log, lambda c, a, b: a if c else b, bool, abs, math.sqrt, math.log)
-_VECTOR = _Ops(np.sqrt, np.log, np.where, np.any, np.abs,
+def _same(a: Any) -> Any:
+    return a
+
+
+_SCALAR = _Ops(math.sqrt, math.log, lambda c, a, b: a if c else b, bool, abs, _same, _same, math.sqrt, math.log)
+# The flags below are gated by one reduction each (fmin/fmax skip NaN), so the normal path pays a
+# reduction, not a comparison and a test, per rule.
+_VECTOR = _Ops(np.sqrt, np.log, np.where, lambda a: bool(a.any()), np.abs, np.fmin.reduce, np.fmax.reduce,
                lambda a: np.sqrt(a, out=a) if isinstance(a, np.ndarray) else np.sqrt(a),
                lambda a: np.log(a, out=a) if isinstance(a, np.ndarray) else np.log(a))
+
+
+def _branch_rule(M: _Ops, W: dict[str, Any], te: Any, te_lo: Any, te_hi: Any, q_te: Any, branch: float) -> None:
+    """monitor.physics.nonlinear's Coulomb-logarithm branch rule: flag where Te +- 2 sigma straddles the branch."""
+    reach = BRANCH_SIGMAS * M.sqrt(M.hi(q_te))          # largest relative reach
+    if te_lo * (1.0 - reach) < branch <= te_hi * (1.0 + reach):
+        r = M.sqrt(q_te)
+        mask = M.abs(te - branch) < BRANCH_SIGMAS * r * te
+        if M.any(mask):
+            W[f"{NONLINEAR}:coulomb_logarithm"] = mask
 
 
 def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] | None,
@@ -171,11 +111,13 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
     if te is not None:
         st = M.sqrt(te)
         vt = _K_VT * st
-        W["relativistic_electrons"] = te >= RELATIVISTIC_EV
-        fast = te >= SPEED_OF_LIGHT_EV
-        if M.any(fast):                      # withheld, never printed as a multiple of c
-            W["speed_above_light"] = fast
-            vt = M.where(fast, math.nan, vt)
+        te_lo, te_hi = M.lo(te), M.hi(te)
+        if te_hi >= RELATIVISTIC_EV:
+            W["relativistic_electrons"] = te >= RELATIVISTIC_EV
+            fast = te >= SPEED_OF_LIGHT_EV
+            if M.any(fast):                  # withheld, never printed as a multiple of c
+                W["speed_above_light"] = fast
+                vt = M.where(fast, math.nan, vt)
         V["electron_most_probable_speed"] = vt * MOST_PROBABLE_FACTOR
         V["electron_mean_speed"] = vmean = vt * MEAN_FACTOR
         V["electron_rms_speed"] = vt * RMS_FACTOR
@@ -187,10 +129,15 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
         nd = te * lam
         nd *= _K_DEBYE_NUMBER
         V["debye_number"] = nd
-        W["electrons_strongly_coupled"] = nd <= STRONG_COUPLING_ND
-        W["electrons_degenerate"] = nd * nd < ne * DEGENERATE_ND2_PER_NE
+        nd_lo, ne_hi = M.lo(nd), M.hi(ne)
+        if nd_lo <= STRONG_COUPLING_ND:
+            W["electrons_strongly_coupled"] = nd <= STRONG_COUPLING_ND
+        if nd_lo * nd_lo < ne_hi * DEGENERATE_ND2_PER_NE:
+            W["electrons_degenerate"] = nd * nd < ne * DEGENERATE_ND2_PER_NE
         if ti is not None:
-            W["ions_strongly_coupled"] = ne * dc.ion_coupling_per_ne >= ti * ti * ti
+            ti_lo = M.lo(ti)
+            if ne_hi * dc.ion_coupling_per_ne >= ti_lo * ti_lo * ti_lo:
+                W["ions_strongly_coupled"] = ne * dc.ion_coupling_per_ne >= ti * ti * ti
         if dc.length is not None:
             V["debye_ratio"] = dc.length / lam
         t15 = te * st
@@ -203,14 +150,16 @@ def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] 
         else:
             aux["branch_slope"] = 1.5
         V["coulomb_logarithm"] = lnl
-        W["coulomb_logarithm_small"] = small = lnl < 2.0
-        if ti is not None:
+        if ti is not None and te_lo < M.hi(ti) * dc.mass_ratio:
             W["coulomb_logarithm_cold_electrons"] = te < ti * dc.mass_ratio
         nu = ne * lnl
         nu /= t15
         nu *= NU_EI_COEFFICIENT
-        if M.any(small):                     # withheld: NaN flows into everything built on the rate
+        if M.lo(lnl) < 2.0:                  # withheld: NaN flows into everything built on the rate
+            W["coulomb_logarithm_small"] = small = lnl < 2.0
             nu = M.where(small, math.nan, nu)
+        if Q and "Te" in Q:
+            _branch_rule(M, W, te, te_lo, te_hi, Q["Te"], dc.coulomb_branch)
         V["electron_ion_collision_frequency"] = nu
     if p0 is not None:
         n0 = p0 * dc.n0_factor
@@ -359,6 +308,18 @@ def _squares(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts, iee
     return relative_squares(sig, values)
 
 
+def _squares_block(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts,
+                   n: int) -> tuple[dict[str, Any] | None, float]:
+    """_squares() for the vector pass, with the largest relative square of any input (the nonlinearity gate)."""
+    if not sig:
+        return None, 0.0
+    values = dict(x)
+    for key, v in (("L", dc.length), ("f", dc.frequency), ("Tgas", dc.gas_temperature), ("sigma_en", dc.sigma_en)):
+        if v is not None:
+            values[key] = np.float64(v)
+    return relative_squares_block(sig, values, n)
+
+
 def _device_invalid(dc: DeviceConsts, n: int) -> dict[str, np.ndarray]:
     return {reason: np.ones(n, dtype=bool) for reason in dc.invalid}
 
@@ -387,11 +348,10 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         _warm_allocator()
     with np.errstate(all="ignore"):
         x, invalid = validate_vector(cols, n)
-        Q = _squares(sig, x, dc, True)
+        Q, widest = _squares_block(sig, x, dc, n)
         V, S, W = _core(_VECTOR, x, dc, Q)
-    if Q:
-        W.update(nonlinear_warnings(core_values, x, input_r2(Q, x.get("p0")), device, dc, V, list(S), n))
-        _flag_branch(W, x, sig, dc)
+    if Q and widest > GATE_RELATIVE * GATE_RELATIVE:
+        _add_nonlinear(W, nonlinear_warnings(core_values, x, Q, device, dc, V, list(S), n))
     if "plasma_beta" in V and "Ti" not in x:
         W["plasma_beta_electrons_only"] = True
     invalid.update(_device_invalid(dc, n))
@@ -407,15 +367,9 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     return Derived(values=values, sigma=sigma, invalid=invalid, warnings=warnings)
 
 
-def _flag_branch(W: dict[str, Any], x: Mapping[str, Any], sig: Mapping[str, Any], dc: DeviceConsts) -> None:
-    """Add the Coulomb-logarithm branch rule (monitor.physics.nonlinear) to the warnings ``W``."""
-    te, s_te = x.get("Te"), sig.get("Te")
-    if te is None or s_te is None or x.get("ne") is None:
-        return
-    mask = branch_straddle(np.asarray(te, dtype=np.float64).reshape(-1),
-                           np.asarray(s_te, dtype=np.float64).reshape(-1), dc.coulomb_branch)
-    if mask is not None:
-        code = f"{NONLINEAR}:coulomb_logarithm"
+def _add_nonlinear(W: dict[str, Any], found: Mapping[str, np.ndarray]) -> None:
+    """Merge nonlinear-sigma masks into ``W`` (the branch rule may already have set one)."""
+    for code, mask in found.items():
         W[code] = mask | W[code] if code in W else mask
 
 
@@ -480,8 +434,5 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
             x_arr, _ = validate_vector(cols, n)
             Q_arr = _squares(sig, x_arr, dc, True)
         if Q_arr:
-            warnings.update(nonlinear_warnings(core_values, x_arr, input_r2(Q_arr, x_arr.get("p0")), device, dc,
-                                               values, snames, n))
-    if "Te" in sig and "coulomb_logarithm" in values:
-        _flag_branch(warnings, cols, sig, dc)
+            _add_nonlinear(warnings, nonlinear_warnings(core_values, x_arr, Q_arr, device, dc, values, snames, n))
     return Derived(values=values, sigma=dict(zip(snames, sarr)), invalid=invalid, warnings=warnings)

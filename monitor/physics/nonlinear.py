@@ -16,10 +16,11 @@ and a second-order term whose standard deviation over s is rho, with
     rho^2 = (s^4 + sum_j (d_j^2 + 2 a_j^2 d_j) r_j^4) / (2 s^2),   d_j = c_j - a_j
 
 (for one power-law input rho = |a - 1| r / sqrt(2): zero for a linear
-dependence, 3 r / sqrt(2) for B^-2). Cross-curvatures of ln q are neglected. A quantity's linear sigma is flagged as not
-trustworthy where rho > RHO_MAX. This is the GUM's own criterion (JCGM
+dependence, 3 r / sqrt(2) for B^-2). Cross-curvatures of ln q are neglected. A linear
+sigma is flagged where rho > RHO_MAX and the second-order term rho s is
+above FLOOR (0.5 % of the value). This is the GUM's own criterion (JCGM
 100:2008, 5.1.2: include the second-order terms when the nonlinearity is
-significant) with a stated threshold; tests/physics/test_nonlinear.py checks
+significant) with stated thresholds; tests/physics/test_nonlinear.py checks
 against our own Monte Carlo that an unflagged sigma matches the Monte Carlo's
 16th-84th percentile half-width.
 
@@ -46,14 +47,17 @@ import numpy as np
 from monitor.model import Device
 from monitor.physics.validity import DeviceConsts, device_consts
 
-__all__ = ["NONLINEAR", "RHO_MAX", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
-           "input_r2", "branch_straddle", "BRANCH_SIGMAS"]
+__all__ = ["NONLINEAR", "RHO_MAX", "FLOOR", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
+           "input_r2", "BRANCH_SIGMAS"]
 
 NONLINEAR = "nonlinear_sigma"
 # The second-order term may be at most this fraction of the first-order sigma.
 RHO_MAX = 0.15
 GATE_RELATIVE = RHO_MAX / 2.5
 _GATE_R2 = GATE_RELATIVE**2
+# ... and the second-order term must exceed this fraction of the value itself (a 0.1 % sigma
+# whose second-order term is of the same size is not worth a warning).
+FLOOR = 0.005
 _LOG_STEP = 1e-3                          # step in ln x of the numerical log-derivatives (central)
 _UP, _DOWN = math.exp(_LOG_STEP), math.exp(-_LOG_STEP)
 _INPUTS = ("ne", "Te", "Ti", "B", "p0")
@@ -66,8 +70,10 @@ Evaluate = Callable[[Mapping[str, np.ndarray], DeviceConsts], Mapping[str, np.nd
 def input_r2(Q: Mapping[str, np.ndarray | float], p0: np.ndarray | float | None) -> dict[str, np.ndarray | float]:
     """Relative squared sigmas per key from derive()'s squares ``Q`` (p0 there is absolute: made relative
     here, a zero pressure counting as 0, since every quantity is linear in p0 near p0 = 0)."""
-    r2 = {k: v for k, v in Q.items() if k != "p0_abs2"}
-    if "p0_abs2" in Q and p0 is not None:
+    r2 = {k: v for k, v in Q.items() if k not in ("p0_abs2", "p0_rel2")}
+    if "p0_rel2" in Q:
+        r2["p0"] = np.where(np.isfinite(Q["p0_rel2"]), Q["p0_rel2"], 0.0)
+    elif "p0_abs2" in Q and p0 is not None:
         with np.errstate(all="ignore"):
             r = np.asarray(Q["p0_abs2"], dtype=np.float64) / (np.asarray(p0, dtype=np.float64) ** 2)
             r2["p0"] = np.where(np.isfinite(r), r, 0.0)
@@ -81,8 +87,8 @@ def gate_open(r2: Mapping[str, np.ndarray | float]) -> bool:
 
 def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
                        device: Device, dc: DeviceConsts, base: Mapping[str, np.ndarray],
-                       names: list[str]) -> dict[str, np.ndarray]:
-    """rho (see the module docstring) for each quantity in ``names``; NaN where it cannot be told.
+                       names: list[str]) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """(rho, s) (see the module docstring) for each quantity in ``names``; NaN where it cannot be told.
 
     ``x`` validated inputs (arrays of one length), ``r2`` relative squared sigmas
     (arrays for inputs, floats for device constants), ``base`` the values at ``x``.
@@ -103,7 +109,7 @@ def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapp
                 ok = np.isfinite(term) & np.isfinite(d)
                 s2[q] += np.where(ok, term, 0.0)
                 s4[q] += np.where(ok, rr * rr * (d * d + 2.0 * a * a * d), 0.0)
-        return {q: np.sqrt(0.5 * np.abs(s2[q] + s4[q] / s2[q])) for q in names}
+        return {q: (np.sqrt(0.5 * np.abs(s2[q] + s4[q] / s2[q])), np.sqrt(s2[q])) for q in names}
 
 
 def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: float, device: Device,
@@ -117,16 +123,18 @@ def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: f
     return evaluate(x, device_consts(dataclasses.replace(device, **{field: getattr(device, field) * factor})))
 
 
-def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
+def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], Q: Mapping[str, np.ndarray | float],
                        device: Device, dc: DeviceConsts, values: Mapping[str, np.ndarray],
                        names: list[str], n: int) -> dict[str, np.ndarray]:
     """``{"nonlinear_sigma:<quantity>": mask}`` for the quantities whose linear sigma fails the rule somewhere.
 
-    ``r2`` from input_r2(); the numerical check runs only on the samples where some relative
-    input sigma exceeds GATE_RELATIVE.
+    ``Q`` derive()'s squared relative sigmas (p0's absolute as "p0_abs2", its relative as
+    "p0_rel2" where known). The numerical check runs only on the samples where some relative
+    input sigma exceeds GATE_RELATIVE (the caller tests the batch's largest first).
     """
-    if not r2 or not gate_open(r2):
+    if not Q:
         return {}
+    r2 = input_r2(Q, x.get("p0"))
     wide = np.zeros(n, dtype=bool)
     for v in r2.values():
         wide |= np.asarray(v) > _GATE_R2
@@ -138,8 +146,8 @@ def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapp
     base = {q: np.broadcast_to(values[q], (n,))[idx] for q in names}
     rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, names)
     out: dict[str, np.ndarray] = {}
-    for q, r in rho.items():
-        bad = r > RHO_MAX
+    for q, (r, s) in rho.items():
+        bad = (r > RHO_MAX) & (r * s > FLOOR)
         if bad.any():
             mask = np.zeros(n, dtype=bool)
             mask[idx] = bad
@@ -148,16 +156,3 @@ def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapp
 
 
 BRANCH_SIGMAS = 2.0
-
-
-def branch_straddle(te: np.ndarray, sigma_te: np.ndarray, branch: float) -> np.ndarray | None:
-    """Mask of samples whose Te +- BRANCH_SIGMAS sigma straddles the Coulomb-logarithm branch; None if none
-    can (decided from three reductions, so a batch far from the branch costs nothing more)."""
-    if len(te) == 0:
-        return None
-    reach = BRANCH_SIGMAS * float(np.fmax.reduce(np.abs(sigma_te)))     # fmax/fmin skip NaN silently
-    if not (float(np.fmin.reduce(te)) - reach < branch <= float(np.fmax.reduce(te)) + reach):
-        return None
-    with np.errstate(invalid="ignore"):
-        mask = np.abs(te - branch) < BRANCH_SIGMAS * np.abs(sigma_te)
-    return mask if mask.any() else None

@@ -25,7 +25,9 @@ from __future__ import annotations
 
 from typing import Any, Callable, Mapping
 
-__all__ = ["relative_squares", "propagate", "SIGMA_KEYS"]
+import numpy as np
+
+__all__ = ["relative_squares", "relative_squares_block", "propagate", "SIGMA_KEYS"]
 
 # Keys that may carry a standard uncertainty: the inputs and four device constants.
 SIGMA_KEYS = ("ne", "Te", "Ti", "B", "p0", "L", "f", "Tgas", "sigma_en")
@@ -46,6 +48,30 @@ def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dic
             r *= r                      # fresh: in place on arrays
             out[key] = r
     return out
+
+
+def relative_squares_block(sigma: Mapping[str, Num], values: Mapping[str, Num], n: int) -> tuple[dict[str, Num], float]:
+    """relative_squares() for arrays of ``n`` samples, and the largest relative square of any key
+    (p0 made relative: a zero pressure counts as infinite; NaN samples skipped): the nonlinearity
+    check's gate, one reduction per key."""
+    out: dict[str, Num] = {}
+    largest = 0.0
+    fmax = np.fmax.reduce
+    for key, s in sigma.items():
+        x = values.get(key)
+        if x is None or s is None:
+            continue
+        if key == "p0":                 # neutrals propagate in absolute terms (p0 may be 0)
+            out["p0_abs2"] = s * s
+            r = s / x
+            top = fmax(r) if isinstance(r, np.ndarray) else abs(r)
+            largest = max(largest, float(top * top))
+            continue
+        r = s / x
+        r *= r
+        out[key] = r
+        largest = max(largest, float(fmax(r) if isinstance(r, np.ndarray) else r))
+    return out, largest
 
 
 def _sum(*terms: Num | None) -> tuple[Num | None, bool]:
