@@ -282,6 +282,8 @@ def render(values: dict[str, float], sigmas: dict[str, float], device: Any, deri
         meaning = q.meaning + (" (electrons only: Ti not given)" if q.name == "plasma_beta" and electrons_only else "")
         if q.name in why:
             meaning += f" [{why[q.name]}]"
+        elif q.name == "coulomb_logarithm" and "coulomb_logarithm_small" in derived.warnings:
+            meaning += " [below 2: outside its validity]"
         sig_text = _fmt_sigma(v, s)
         if f"{NONLINEAR}:{q.name}" in derived.warnings:
             sig_text += " (!)"

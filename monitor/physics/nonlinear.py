@@ -147,7 +147,8 @@ def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], Q: Mappi
     rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, names)
     out: dict[str, np.ndarray] = {}
     for q, (r, s) in rho.items():
-        bad = (r > RHO_MAX) & (r * s > FLOOR)
+        with np.errstate(invalid="ignore"):
+            bad = (r > RHO_MAX) & (r * s > FLOOR)
         if bad.any():
             mask = np.zeros(n, dtype=bool)
             mask[idx] = bad
