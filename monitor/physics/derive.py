@@ -175,6 +175,13 @@ def _warm_allocator() -> None:
     _ALLOCATOR_WARM = True
 
 
+def _full(v: Any, n: int) -> np.ndarray:
+    """``v`` as an array of n samples (already one, or a constant such as the cutoff density)."""
+    if type(v) is np.ndarray and v.ndim == 1:       # type() over np.ndim(): this runs ~50 times a batch
+        return v
+    return np.full(n, v, dtype=np.float64)
+
+
 def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
                    device: Device) -> Derived:
     if not _ALLOCATOR_WARM and n >= 256:
@@ -184,15 +191,15 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         Q, widest = _squares_block(sig, x, dc, n)
         V, S, W = _core(_VECTOR, x, dc, Q)
     if Q and widest > GATE_RELATIVE * GATE_RELATIVE:
-        _add_nonlinear(W, nonlinear_warnings(core_values, x, Q, device, dc, V, list(S), n))
+        _add_nonlinear(W, nonlinear_warnings(core_values, x, Q, device, dc, V, S, n))
     if "plasma_beta" in V and "Ti" not in x:
         W["plasma_beta_electrons_only"] = True
     invalid.update(_device_invalid(dc, n))
-    values = {k: (v if np.ndim(v) == 1 else np.full(n, v, dtype=np.float64)) for k, v in V.items()}
-    sigma = {k: (v if np.ndim(v) == 1 else np.full(n, v, dtype=np.float64)) for k, v in S.items()}
+    values = {k: _full(v, n) for k, v in V.items()}
+    sigma = {k: _full(v, n) for k, v in S.items()}
     warnings: dict[str, np.ndarray] = {}
     for code, mask in W.items():
-        if np.ndim(mask) == 0:
+        if not isinstance(mask, np.ndarray) or mask.ndim == 0:
             if mask:
                 warnings[code] = np.ones(n, dtype=bool)
         elif mask.any():
@@ -267,5 +274,6 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
             x_arr, _ = validate_vector(cols, n)
             Q_arr = _squares(sig, x_arr, dc, True)
         if Q_arr:
-            _add_nonlinear(warnings, nonlinear_warnings(core_values, x_arr, Q_arr, device, dc, values, snames, n))
+            _add_nonlinear(warnings, nonlinear_warnings(core_values, x_arr, Q_arr, device, dc, values,
+                                                        dict(zip(snames, sarr)), n))
     return Derived(values=values, sigma=dict(zip(snames, sarr)), invalid=invalid, warnings=warnings)

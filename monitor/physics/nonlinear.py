@@ -29,8 +29,10 @@ logarithm changes branch at Te = 10 Z^2 eV with a step of 0.5 ln 10 - 1 =
 0.15 (comparable to its own sigma). Where Te +- BRANCH_SIGMAS sigma_Te
 straddles the branch, the Coulomb logarithm's sigma is flagged too.
 
-Cost. a_j and c_j are taken numerically (central differences, two extra
-value passes per input that has a sigma) and only on the samples that can fail the rule: with
+Cost. s is derive()'s own first-order sigma; a_j and c_j are taken
+numerically (central differences, two extra value passes per input whose
+relative sigma exceeds KEY_FLOOR = GATE_RELATIVE / 2 somewhere: the r_j^4
+terms of the others are negligible) and only on the samples that can fail the rule: with
 |a_j| <= 2.2 for every quantity, rho <= 2.4 max_j r_j, so a batch whose
 relative input sigmas all stay under GATE_RELATIVE = RHO_MAX / 2.5 costs
 one maximum per input and nothing else.
@@ -58,6 +60,9 @@ _GATE_R2 = GATE_RELATIVE**2
 # ... and the second-order term must exceed this fraction of the value itself (a 0.1 % sigma
 # whose second-order term is of the same size is not worth a warning).
 FLOOR = 0.005
+# Keys whose relative sigma stays under this are left out of the fourth-order sum.
+KEY_FLOOR = GATE_RELATIVE / 2.0
+_KEY_FLOOR2 = KEY_FLOOR**2
 _LOG_STEP = 1e-3                          # step in ln x of the numerical log-derivatives (central)
 _UP, _DOWN = math.exp(_LOG_STEP), math.exp(-_LOG_STEP)
 _INPUTS = ("ne", "Te", "Ti", "B", "p0")
@@ -87,29 +92,45 @@ def gate_open(r2: Mapping[str, np.ndarray | float]) -> bool:
 
 def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
                        device: Device, dc: DeviceConsts, base: Mapping[str, np.ndarray],
-                       names: list[str]) -> dict[str, tuple[np.ndarray, np.ndarray]]:
-    """(rho, s) (see the module docstring) for each quantity in ``names``; NaN where it cannot be told.
+                       s_rel: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """rho (see the module docstring) for each quantity of ``s_rel``; NaN where it cannot be told.
 
-    ``x`` validated inputs (arrays of one length), ``r2`` relative squared sigmas
-    (arrays for inputs, floats for device constants), ``base`` the values at ``x``.
+    ``x`` validated inputs (arrays of one length m), ``r2`` relative squared sigmas (arrays for
+    inputs, floats for device constants), ``base`` the values at ``x``, ``s_rel`` each quantity's
+    first-order relative sigma (derive()'s own). Only keys whose relative sigma exceeds
+    KEY_FLOOR somewhere enter the fourth-order sum (the others add under ~1e-5 to rho^2 s^2).
+    All quantities are stacked into one (quantities x m) array, so the cost is two value
+    passes per such key plus a dozen array operations.
     """
+    names = list(s_rel)
     m = len(next(iter(base.values()))) if base else 0
-    s2 = {q: np.zeros(m) for q in names}
-    s4 = {q: np.zeros(m) for q in names}
+    if not names or m == 0:
+        return {}
+
+    def stack(vals: Mapping[str, np.ndarray]) -> np.ndarray:
+        return np.log(np.abs(np.vstack([np.broadcast_to(vals[q], (m,)) for q in names])))
+
     with np.errstate(all="ignore"):
-        ln0 = {q: np.log(np.abs(base[q])) for q in names}
+        ln0 = stack(base)
+        s4 = np.zeros((len(names), m))
         for key, rr in r2.items():
-            got = [_nudged(evaluate, x, key, factor, device, dc) for factor in (_UP, _DOWN)]
-            for q in names:
-                lp, lm = np.log(np.abs(got[0][q])), np.log(np.abs(got[1][q]))
-                a = (lp - lm) / (2.0 * _LOG_STEP)               # d ln q / d ln x
-                c = (lp - 2.0 * ln0[q] + lm) / (_LOG_STEP * _LOG_STEP)   # d2 ln q / d (ln x)^2
-                d = c - a
-                term = a * a * rr
-                ok = np.isfinite(term) & np.isfinite(d)
-                s2[q] += np.where(ok, term, 0.0)
-                s4[q] += np.where(ok, rr * rr * (d * d + 2.0 * a * a * d), 0.0)
-        return {q: (np.sqrt(0.5 * np.abs(s2[q] + s4[q] / s2[q])), np.sqrt(s2[q])) for q in names}
+            if float(np.max(rr)) <= _KEY_FLOOR2:
+                continue
+            lp = stack(_nudged(evaluate, x, key, _UP, device, dc))
+            lm = stack(_nudged(evaluate, x, key, _DOWN, device, dc))
+            a = lp - lm
+            a *= 0.5 / _LOG_STEP                                  # d ln q / d ln x
+            d = lp + lm
+            d -= 2.0 * ln0
+            d *= 1.0 / (_LOG_STEP * _LOG_STEP)                    # c = d2 ln q / d (ln x)^2
+            d -= a                                                # d = c - a
+            term = d * d + 2.0 * a * a * d
+            term *= rr * rr
+            s4 += np.where(np.isfinite(term), term, 0.0)
+        s = np.vstack([np.broadcast_to(s_rel[q], (m,)) for q in names])
+        s2 = s * s
+        rho = np.sqrt(0.5 * np.abs(s2 + s4 / s2))
+    return {q: rho[i] for i, q in enumerate(names)}
 
 
 def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: float, device: Device,
@@ -125,7 +146,7 @@ def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: f
 
 def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], Q: Mapping[str, np.ndarray | float],
                        device: Device, dc: DeviceConsts, values: Mapping[str, np.ndarray],
-                       names: list[str], n: int) -> dict[str, np.ndarray]:
+                       sigmas: Mapping[str, np.ndarray], n: int) -> dict[str, np.ndarray]:
     """``{"nonlinear_sigma:<quantity>": mask}`` for the quantities whose linear sigma fails the rule somewhere.
 
     ``Q`` derive()'s squared relative sigmas (p0's absolute as "p0_abs2", its relative as
@@ -143,17 +164,22 @@ def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], Q: Mappi
         return {}
     sub_x = {k: v[idx] for k, v in x.items()}
     sub_r2 = {k: (v[idx] if isinstance(v, np.ndarray) and v.ndim else v) for k, v in r2.items()}
-    base = {q: np.broadcast_to(values[q], (n,))[idx] for q in names}
-    rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, names)
+    base: dict[str, np.ndarray] = {}
+    s_rel: dict[str, np.ndarray] = {}
+    with np.errstate(all="ignore"):
+        for q, sq in sigmas.items():
+            v = np.broadcast_to(values[q], (n,))[idx]
+            base[q] = v
+            s_rel[q] = np.abs(np.broadcast_to(sq, (n,))[idx] / v)
+    rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, s_rel)
     out: dict[str, np.ndarray] = {}
-    for q, (r, s) in rho.items():
+    for q, r in rho.items():
         with np.errstate(invalid="ignore"):
-            bad = (r > RHO_MAX) & (r * s > FLOOR)
+            bad = (r > RHO_MAX) & (r * s_rel[q] > FLOOR)
         if bad.any():
             mask = np.zeros(n, dtype=bool)
             mask[idx] = bad
             out[f"{NONLINEAR}:{q}"] = mask
     return out
-
 
 BRANCH_SIGMAS = 2.0

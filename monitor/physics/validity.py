@@ -170,12 +170,16 @@ def _mark(invalid: dict[str, np.ndarray], reason: str, mask: np.ndarray) -> None
 
 
 def validate_vector(cols: Mapping[str, np.ndarray], n: int) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
-    """Inputs with meaningless samples set to NaN (copies only when needed) and the reason masks."""
+    """Inputs with meaningless samples set to NaN (copies only when needed) and the reason masks.
+
+    Each key is first tested with its minimum and maximum (two reductions; a NaN anywhere fails
+    the test), and only a batch that fails is checked sample by sample.
+    """
     x: dict[str, Any] = dict(cols)
     invalid: dict[str, np.ndarray] = {}
     for key, limit in ABSURD.items():
         c = x.get(key)
-        if c is None:
+        if c is None or not len(c) or (c.min() > 0.0 and c.max() <= limit):   # NaN fails the test
             continue
         ok = (c > 0.0) & (c <= limit)
         if not ok.all():
@@ -185,13 +189,13 @@ def validate_vector(cols: Mapping[str, np.ndarray], n: int) -> tuple[dict[str, n
             _mark(invalid, f"{key}_absurd", fin & (c > limit))
             x[key] = np.where(ok, c, np.nan)
     b = x.get("B")
-    if b is not None:
+    if b is not None and len(b) and not (math.isfinite(float(b.min())) and math.isfinite(float(b.max()))):
         ok = np.isfinite(b)
         if not ok.all():
             invalid["B_not_finite"] = ~ok
             x["B"] = np.where(ok, b, np.nan)
     p = x.get("p0")
-    if p is not None:
+    if p is not None and len(p) and not (p.min() >= 0.0 and p.max() < np.inf):
         ok = (p >= 0.0) & (p < np.inf)
         if not ok.all():
             fin = np.isfinite(p)

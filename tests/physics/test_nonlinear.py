@@ -91,11 +91,12 @@ def test_below_the_gate_no_quantity_can_fail_the_rule() -> None:
     sig = {k: GATE_RELATIVE * v for k, v in x.items()}
     dc = device_consts(DEVICE)
     xv, _ = validate_vector(x, n)
-    base = core_values(xv, dc)
-    names = [q for q in base if np.ndim(base[q]) == 1]
+    d = derive(x, DEVICE, sig)
+    s_rel = {q: np.abs(d.sigma[q] / d.values[q]) for q in d.sigma}
     Q = relative_squares(sig, xv)
-    rho = second_order_ratio(core_values, xv, input_r2(Q, xv["p0"]), DEVICE, dc, base, names)
-    for name, (r, _s) in rho.items():
+    rho = second_order_ratio(core_values, xv, input_r2(Q, xv["p0"]), DEVICE, dc, d.values, s_rel)
+    assert len(rho) > 15
+    for name, r in rho.items():
         away = np.abs(x["Te"] - 10.0) > 0.2 * x["Te"]          # the branch has its own rule
         assert np.nanmax(r[away]) <= RHO_MAX, name
 
