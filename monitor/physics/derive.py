@@ -68,8 +68,12 @@ def derive(
     Bad numbers never raise: the sample's dependent values become NaN and
     ``invalid[reason]`` marks it (only reasons that occur are present);
     ``warnings[code]`` marks samples outside a formula's validity (only
-    codes that occur are present). Below SCALAR_MAX samples a pure-Python
-    pass is used; above, whole numpy arrays.
+    codes that occur are present; monitor.physics.tables.WARNINGS says what
+    each means). Values are kept under a warning, except under the codes of
+    tables.WITHHELD (lnLambda < 2, speeds reaching c), where the quantities
+    it names are NaN. ``nonlinear_sigma:<quantity>`` marks a sample whose
+    linear sigma of that quantity is not trustworthy (monitor.physics.nonlinear).
+    Below SCALAR_MAX samples a pure-Python pass is used; above, whole numpy arrays.
     """
     dc = device_consts(device)
     cols = {k: _column(inputs[k]) for k in INPUT_KEYS if k in inputs and inputs[k] is not None}
