@@ -49,7 +49,7 @@ import numpy as np
 from monitor.model import Device
 from monitor.physics.validity import DeviceConsts, device_consts
 
-__all__ = ["NONLINEAR", "RHO_MAX", "FLOOR", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
+__all__ = ["NONLINEAR", "RHO_MAX", "FLOOR", "POWER_LAWS", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
            "input_r2", "BRANCH_SIGMAS"]
 
 NONLINEAR = "nonlinear_sigma"
@@ -66,6 +66,27 @@ _KEY_FLOOR2 = KEY_FLOOR**2
 _LOG_STEP = 1e-3                          # step in ln x of the numerical log-derivatives (central)
 _UP, _DOWN = math.exp(_LOG_STEP), math.exp(-_LOG_STEP)
 _INPUTS = ("ne", "Te", "Ti", "B", "p0")
+# The quantities that are pure products of powers of their inputs, with the exponents (the
+# formulas of monitor/physics; |B| for B). tests/physics/test_nonlinear.py checks every entry
+# against the numerical log-derivatives of the value pass.
+_SPEED = {"Te": 0.5}
+POWER_LAWS: dict[str, dict[str, float]] = {
+    "debye_length": {"ne": -0.5, "Te": 0.5},
+    "debye_number": {"ne": -0.5, "Te": 1.5},
+    "debye_ratio": {"ne": 0.5, "Te": -0.5, "L": 1.0},
+    "electron_plasma_frequency": {"ne": 0.5},
+    "ion_plasma_frequency": {"ne": 0.5},
+    "electron_most_probable_speed": _SPEED, "electron_mean_speed": _SPEED,
+    "electron_rms_speed": _SPEED, "electron_thermal_speed": _SPEED,
+    "electron_cyclotron_frequency": {"B": 1.0},
+    "ion_cyclotron_frequency": {"B": 1.0},
+    "electron_gyroradius": {"Te": 0.5, "B": -1.0},
+    "ion_gyroradius": {"Ti": 0.5, "B": -1.0},
+    "neutral_density": {"p0": 1.0, "Tgas": -1.0},
+    "electron_neutral_collision_frequency": {"p0": 1.0, "Tgas": -1.0, "sigma_en": 1.0, "Te": 0.5},
+    "cutoff_density": {"f": 2.0},
+    "cutoff_ratio": {"ne": 1.0, "f": -2.0},
+}
 # sigma key of a device constant -> monitor.model.Device field
 _DEVICE_FIELDS = {"L": "length", "f": "wave_frequency", "Tgas": "gas_temperature", "sigma_en": "sigma_en"}
 
@@ -92,45 +113,72 @@ def gate_open(r2: Mapping[str, np.ndarray | float]) -> bool:
 
 def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],
                        device: Device, dc: DeviceConsts, base: Mapping[str, np.ndarray],
-                       s_rel: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+                       s_rel: Mapping[str, np.ndarray], analytic: bool = True) -> dict[str, np.ndarray]:
     """rho (see the module docstring) for each quantity of ``s_rel``; NaN where it cannot be told.
 
     ``x`` validated inputs (arrays of one length m), ``r2`` relative squared sigmas (arrays for
     inputs, floats for device constants), ``base`` the values at ``x``, ``s_rel`` each quantity's
     first-order relative sigma (derive()'s own). Only keys whose relative sigma exceeds
     KEY_FLOOR somewhere enter the fourth-order sum (the others add under ~1e-5 to rho^2 s^2).
-    All quantities are stacked into one (quantities x m) array, so the cost is two value
-    passes per such key plus a dozen array operations.
+    The pure power laws of POWER_LAWS take their exponents from the table (``analytic``);
+    the others are stacked into one (quantities x m) array and differentiated numerically:
+    two value passes per such key plus a dozen array operations.
     """
-    names = list(s_rel)
     m = len(next(iter(base.values()))) if base else 0
-    if not names or m == 0:
-        return {}
+    wide = {k: rr for k, rr in r2.items() if float(np.max(rr)) > _KEY_FLOOR2}
+    exact = {q: POWER_LAWS[q] for q in s_rel if analytic and q in POWER_LAWS}
+    names = [q for q in s_rel if q not in exact]
+    s4_of: dict[str, np.ndarray | float] = {}
+    with np.errstate(all="ignore"):
+        for q, powers in exact.items():                  # d_j = -a_j: d^2 + 2 a^2 d = a^2 (1 - 2 a)
+            total: np.ndarray | float = 0.0
+            for key, a in powers.items():
+                if key in wide:
+                    total = total + (a * a * (1.0 - 2.0 * a)) * (wide[key] * wide[key])
+            s4_of[q] = total
+        if names and m and wide:
+            s4 = _numerical_s4(evaluate, x, wide, device, dc, base, names, m)
+            for i, q in enumerate(names):
+                s4_of[q] = s4[i]
+        out: dict[str, np.ndarray] = {}
+        for q in s_rel:
+            s2 = s_rel[q] * s_rel[q]
+            out[q] = np.sqrt(0.5 * np.abs(s2 + s4_of.get(q, 0.0) / s2))
+    return out
+
+
+def _numerical_s4(evaluate: Evaluate, x: Mapping[str, np.ndarray], wide: Mapping[str, np.ndarray | float],
+                  device: Device, dc: DeviceConsts, base: Mapping[str, np.ndarray], names: list[str],
+                  m: int) -> np.ndarray:
+    """sum_j (d_j^2 + 2 a_j^2 d_j) r_j^4 for ``names`` (rows), a_j and c_j by central differences."""
 
     def stack(vals: Mapping[str, np.ndarray]) -> np.ndarray:
-        return np.log(np.abs(np.vstack([np.broadcast_to(vals[q], (m,)) for q in names])))
+        out = np.empty((len(names), m))
+        for i, q in enumerate(names):
+            out[i] = vals[q]                      # a constant (e.g. the cutoff density) fills its row
+        np.abs(out, out=out)
+        return np.log(out, out=out)
 
-    with np.errstate(all="ignore"):
-        ln0 = stack(base)
-        s4 = np.zeros((len(names), m))
-        for key, rr in r2.items():
-            if float(np.max(rr)) <= _KEY_FLOOR2:
-                continue
-            lp = stack(_nudged(evaluate, x, key, _UP, device, dc))
-            lm = stack(_nudged(evaluate, x, key, _DOWN, device, dc))
-            a = lp - lm
-            a *= 0.5 / _LOG_STEP                                  # d ln q / d ln x
-            d = lp + lm
-            d -= 2.0 * ln0
-            d *= 1.0 / (_LOG_STEP * _LOG_STEP)                    # c = d2 ln q / d (ln x)^2
-            d -= a                                                # d = c - a
-            term = d * d + 2.0 * a * a * d
-            term *= rr * rr
-            s4 += np.where(np.isfinite(term), term, 0.0)
-        s = np.vstack([np.broadcast_to(s_rel[q], (m,)) for q in names])
-        s2 = s * s
-        rho = np.sqrt(0.5 * np.abs(s2 + s4 / s2))
-    return {q: rho[i] for i, q in enumerate(names)}
+    ln0_2 = stack(base)
+    ln0_2 *= 2.0
+    s4 = np.zeros((len(names), m))
+    for key, rr in wide.items():
+        lp = stack(_nudged(evaluate, x, key, _UP, device, dc))
+        lm = stack(_nudged(evaluate, x, key, _DOWN, device, dc))
+        a = lp - lm
+        a *= 0.5 / _LOG_STEP                                  # d ln q / d ln x
+        d = lp
+        d += lm
+        d -= ln0_2
+        d *= 1.0 / (_LOG_STEP * _LOG_STEP)                    # c = d2 ln q / d (ln x)^2
+        d -= a                                                # d = c - a
+        a *= a
+        a *= 2.0
+        a += d
+        a *= d                                                # d^2 + 2 a^2 d
+        a *= rr * rr
+        s4 += np.nan_to_num(a, copy=False, nan=0.0, posinf=0.0, neginf=0.0)
+    return s4
 
 
 def _nudged(evaluate: Evaluate, x: Mapping[str, np.ndarray], key: str, factor: float, device: Device,
@@ -162,15 +210,22 @@ def nonlinear_warnings(evaluate: Evaluate, x: Mapping[str, np.ndarray], Q: Mappi
     idx = np.flatnonzero(wide)
     if len(idx) == 0:
         return {}
-    sub_x = {k: v[idx] for k, v in x.items()}
-    sub_r2 = {k: (v[idx] if isinstance(v, np.ndarray) and v.ndim else v) for k, v in r2.items()}
+    every = len(idx) == n                       # the usual case once sigmas are wide: no copies
+
+    def pick(v: np.ndarray | float) -> np.ndarray | float:
+        if type(v) is not np.ndarray or v.ndim == 0:
+            return v
+        return v if every else v[idx]
+
+    sub_x = {k: np.asarray(pick(v)) for k, v in x.items()}
+    sub_r2 = {k: pick(v) for k, v in r2.items()}
     base: dict[str, np.ndarray] = {}
     s_rel: dict[str, np.ndarray] = {}
     with np.errstate(all="ignore"):
         for q, sq in sigmas.items():
-            v = np.broadcast_to(values[q], (n,))[idx]
+            v = np.asarray(pick(values[q]))
             base[q] = v
-            s_rel[q] = np.abs(np.broadcast_to(sq, (n,))[idx] / v)
+            s_rel[q] = np.abs(np.asarray(pick(sq)) / v)
     rho = second_order_ratio(evaluate, sub_x, sub_r2, device, dc, base, s_rel)
     out: dict[str, np.ndarray] = {}
     for q, r in rho.items():

@@ -13,7 +13,8 @@ from monitor.model import Device
 from monitor.physics import Derived, derive
 from monitor.physics.derive import CHUNK, core_values
 from monitor.physics.montecarlo import monte_carlo
-from monitor.physics.nonlinear import GATE_RELATIVE, NONLINEAR, RHO_MAX, input_r2, second_order_ratio
+from monitor.physics.nonlinear import (GATE_RELATIVE, NONLINEAR, POWER_LAWS, RHO_MAX, input_r2,
+                                      second_order_ratio)
 from monitor.physics.uncertainty import relative_squares
 from monitor.physics.validity import device_consts, validate_vector
 
@@ -153,3 +154,22 @@ def test_monte_carlo_discards_unphysical_draws_and_says_so(capsys: pytest.Captur
     # P(ne <= 0) = P(z <= -2) = 2.28 % (standard normal, scipy.stats.norm)
     assert mc.discarded["ne"] / mc.draws == pytest.approx(norm.cdf(-2.0), abs=0.004)
     assert mc.kept == mc.draws - mc.discarded["ne"]
+
+
+def test_power_law_table_matches_the_value_pass() -> None:
+    # the analytic exponents of POWER_LAWS against the numerical log-derivatives of core_values
+    n = 50
+    rng = np.random.default_rng(8)
+    x = {"ne": 10 ** rng.uniform(15, 19, n), "Te": 10 ** rng.uniform(-0.5, 2.5, n), "Ti": 10 ** rng.uniform(-2, 0, n),
+         "B": 10 ** rng.uniform(-3, 0, n), "p0": 10 ** rng.uniform(-1, 1, n)}
+    sig = {k: 0.2 * v for k, v in x.items()} | {"L": 0.03, "f": 2.45e8, "Tgas": 30.0, "sigma_en": 3e-20}
+    d = derive(x, DEVICE, sig)
+    s_rel = {q: np.abs(d.sigma[q] / d.values[q]) for q in POWER_LAWS if q in d.sigma}
+    assert len(s_rel) == len(POWER_LAWS)
+    dc = device_consts(DEVICE)
+    xv, _ = validate_vector(x, n)
+    r2 = input_r2(relative_squares(sig, xv | {"L": 0.3, "f": 2.45e9, "Tgas": 300.0, "sigma_en": 1e-19}), xv["p0"])
+    table = second_order_ratio(core_values, xv, r2, DEVICE, dc, d.values, s_rel, analytic=True)
+    numeric = second_order_ratio(core_values, xv, r2, DEVICE, dc, d.values, s_rel, analytic=False)
+    for q in s_rel:
+        np.testing.assert_allclose(table[q], numeric[q], rtol=1e-4, atol=1e-5, err_msg=q)   # rho ~ 0.01-0.4
