@@ -53,9 +53,13 @@ VECTOR = Ops(np.sqrt, np.log, np.where, lambda a: bool(a.any()), np.abs, np.fmin
                lambda a: np.log(a, out=a) if isinstance(a, np.ndarray) else np.log(a))
 
 
-def _branch_rule(M: Ops, W: dict[str, Any], te: Any, te_lo: Any, te_hi: Any, q_te: Any, branch: float) -> None:
-    """monitor.physics.nonlinear's Coulomb-logarithm branch rule: flag where Te +- 2 sigma straddles the branch."""
-    reach = BRANCH_SIGMAS * M.sqrt(M.hi(q_te))          # largest relative reach
+def _branch_rule(M: Ops, W: dict[str, Any], te: Any, te_lo: Any, te_hi: Any, q_te: Any, branch: float,
+                 widest: float | None) -> None:
+    """monitor.physics.nonlinear's Coulomb-logarithm branch rule: flag where Te +- 2 sigma straddles the branch.
+
+    ``widest``: the largest relative square of any input if known (a bound on Te's: no reduction)."""
+    top = float(M.hi(q_te) if widest is None else widest)
+    reach = BRANCH_SIGMAS * math.sqrt(top)                # the largest relative reach
     if te_lo * (1.0 - reach) < branch <= te_hi * (1.0 + reach):
         r = M.sqrt(q_te)
         mask = M.abs(te - branch) < BRANCH_SIGMAS * r * te
@@ -64,7 +68,7 @@ def _branch_rule(M: Ops, W: dict[str, Any], te: Any, te_lo: Any, te_hi: Any, q_t
 
 
 def core_pass(M: Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] | None,
-          ) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
+              widest: float | None = None) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
     """Values, sigmas and warnings for floats (M=SCALAR) or arrays (M=VECTOR) alike."""
     ne, te, ti, b, p0 = x.get("ne"), x.get("Te"), x.get("Ti"), x.get("B"), x.get("p0")
     V: dict[str, Any] = {}
@@ -126,7 +130,7 @@ def core_pass(M: Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, An
             W["coulomb_logarithm_small"] = small = lnl < 2.0
             nu = M.where(small, math.nan, nu)
         if Q and "Te" in Q:
-            _branch_rule(M, W, te, te_lo, te_hi, Q["Te"], dc.coulomb_branch)
+            _branch_rule(M, W, te, te_lo, te_hi, Q["Te"], dc.coulomb_branch, widest)
         V["electron_ion_collision_frequency"] = nu
     if p0 is not None:
         n0 = p0 * dc.n0_factor

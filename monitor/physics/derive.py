@@ -193,7 +193,7 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     with np.errstate(all="ignore"):
         x, invalid = validate_vector(cols, n)
         Q, widest = _squares_block(sig, x, dc, n)
-        V, S, W = _core(_VECTOR, x, dc, Q)
+        V, S, W = _core(_VECTOR, x, dc, Q, widest)
     if Q and widest > GATE_RELATIVE * GATE_RELATIVE:
         _add_nonlinear(W, nonlinear_warnings(core_values, x, Q, device, dc, V, S, n))
     if "plasma_beta" in V and "Ti" not in x:

@@ -49,8 +49,8 @@ import numpy as np
 from monitor.model import Device
 from monitor.physics.validity import DeviceConsts, device_consts
 
-__all__ = ["NONLINEAR", "RHO_MAX", "FLOOR", "POWER_LAWS", "GATE_RELATIVE", "second_order_ratio", "nonlinear_warnings", "gate_open",
-           "input_r2", "BRANCH_SIGMAS"]
+__all__ = ["NONLINEAR", "RHO_MAX", "FLOOR", "POWER_LAWS", "GATE_RELATIVE", "KEY_FLOOR", "BRANCH_SIGMAS",
+           "second_order_ratio", "nonlinear_warnings", "input_r2"]
 
 NONLINEAR = "nonlinear_sigma"
 # The second-order term may be at most this fraction of the first-order sigma.
@@ -104,11 +104,6 @@ def input_r2(Q: Mapping[str, np.ndarray | float], p0: np.ndarray | float | None)
             r = np.asarray(Q["p0_abs2"], dtype=np.float64) / (np.asarray(p0, dtype=np.float64) ** 2)
             r2["p0"] = np.where(np.isfinite(r), r, 0.0)
     return r2
-
-
-def gate_open(r2: Mapping[str, np.ndarray | float]) -> bool:
-    """True when some relative input sigma exceeds GATE_RELATIVE (only then can rho exceed RHO_MAX)."""
-    return any(float(np.max(v)) > _GATE_R2 for v in r2.values() if np.size(v))
 
 
 def second_order_ratio(evaluate: Evaluate, x: Mapping[str, np.ndarray], r2: Mapping[str, np.ndarray | float],

@@ -50,7 +50,8 @@ def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dic
     return out
 
 
-def relative_squares_block(sigma: Mapping[str, Num], values: Mapping[str, Num], n: int) -> tuple[dict[str, Num], float]:
+def relative_squares_block(sigma: Mapping[str, Num], values: Mapping[str, Num],
+                           n: int) -> tuple[dict[str, Num], float]:
     """relative_squares() for arrays of ``n`` samples, and the largest relative square of any key
     (p0 made relative: a zero pressure counts as infinite; NaN samples skipped): the nonlinearity
     check's gate. Small batches take one reduction over all keys joined (call overhead dominates),

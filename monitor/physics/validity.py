@@ -1,4 +1,4 @@
-"""Input validation and regime validity for derive(): invalid reasons, the criteria where formulas stop holding, device constants."""
+"""Input validation and regime validity for derive(): invalid reasons, where formulas stop holding, device constants."""
 
 from __future__ import annotations
 

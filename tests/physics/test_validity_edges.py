@@ -40,7 +40,8 @@ def test_dense_cold_case_gives_no_negative_rate_but_a_reason(capsys: pytest.Capt
         assert data[name]["value"] is None and data[name]["sigma"] is None, name
         assert data[name]["reason"].startswith("withheld: strongly coupled (lnLambda < 2)"), name
     # every number printed is non-negative, but the flagged logarithm that explains the rest
-    numbers = [e["value"] for n, e in data.items() if n not in ("notes", "coulomb_logarithm") and e["value"] is not None]
+    numbers = [e["value"] for n, e in data.items()
+               if n not in ("notes", "coulomb_logarithm") and e["value"] is not None]
     assert numbers and all(v >= 0 for v in numbers)
     codes = {n["code"] for n in data["notes"]}
     assert {"coulomb_logarithm_small", "electrons_strongly_coupled", "electrons_degenerate"} <= codes
