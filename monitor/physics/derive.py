@@ -217,16 +217,18 @@ def _add_nonlinear(W: dict[str, Any], found: Mapping[str, np.ndarray]) -> None:
         W[code] = mask | W[code] if code in W else mask
 
 
-def _scalar_wide(Q: Mapping[str, float] | None, p0: float | None) -> bool:
+_GATE2 = GATE_RELATIVE * GATE_RELATIVE
+
+
+def _scalar_wide(Q: Mapping[str, float], p0: float | None) -> bool:
     """Whether one sample's relative input sigmas open the nonlinearity check (see nonlinear.GATE_RELATIVE)."""
-    if not Q:
+    if max(Q.values()) <= _GATE2:              # the usual answer, at C speed
         return False
-    limit = GATE_RELATIVE * GATE_RELATIVE
-    for key, q in Q.items():
+    for key, q in Q.items():                    # p0's entry is absolute: look closer
         if key == "p0_abs2":
-            if p0 and q > limit * p0 * p0:
+            if p0 and q > _GATE2 * p0 * p0:
                 return True
-        elif q > limit:
+        elif q > _GATE2:
             return True
     return False
 
@@ -249,7 +251,8 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
             reasons.setdefault(reason, []).append(i)
         Q = _squares({k: v[i] for k, v in slists.items()}, x, dc, False)
         V, S, W = _core(_SCALAR, x, dc, Q)
-        wide = wide or _scalar_wide(Q, x.get("p0"))
+        if Q and not wide:
+            wide = _scalar_wide(Q, x.get("p0"))
         if i == 0:
             vnames, snames = list(V), list(S)
         vrows.append([V[k] for k in vnames])
