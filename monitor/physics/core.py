@@ -39,18 +39,19 @@ class Ops:
     hi: Callable[[Any], Any]         # largest non-NaN value
     isqrt: Callable[[Any], Any]      # in place on a fresh array temporary
     ilog: Callable[[Any], Any]       # in place on a fresh array temporary
+    scalar: bool                     # floats: lo and hi are the value itself (no call)
 
 
 def _same(a: Any) -> Any:
     return a
 
 
-SCALAR = Ops(math.sqrt, math.log, lambda c, a, b: a if c else b, bool, abs, _same, _same, math.sqrt, math.log)
+SCALAR = Ops(math.sqrt, math.log, lambda c, a, b: a if c else b, bool, abs, _same, _same, math.sqrt, math.log, True)
 # The flags below are gated by one reduction each (fmin/fmax skip NaN), so the normal path pays a
 # reduction, not a comparison and a test, per rule.
 VECTOR = Ops(np.sqrt, np.log, np.where, lambda a: bool(a.any()), np.abs, np.fmin.reduce, np.fmax.reduce,
                lambda a: np.sqrt(a, out=a) if isinstance(a, np.ndarray) else np.sqrt(a),
-               lambda a: np.log(a, out=a) if isinstance(a, np.ndarray) else np.log(a))
+               lambda a: np.log(a, out=a) if isinstance(a, np.ndarray) else np.log(a), False)
 
 
 def _branch_rule(M: Ops, W: dict[str, Any], te: Any, te_lo: Any, te_hi: Any, q_te: Any, branch: float,
@@ -82,7 +83,7 @@ def core_pass(M: Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, An
     if te is not None:
         st = M.sqrt(te)
         vt = _K_VT * st
-        te_lo, te_hi = M.lo(te), M.hi(te)
+        te_lo, te_hi = (te, te) if M.scalar else (M.lo(te), M.hi(te))
         if te_hi >= RELATIVISTIC_EV:
             W["relativistic_electrons"] = te >= RELATIVISTIC_EV
             fast = te >= SPEED_OF_LIGHT_EV
@@ -100,13 +101,13 @@ def core_pass(M: Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, An
         nd = te * lam
         nd *= _K_DEBYE_NUMBER
         V["debye_number"] = nd
-        nd_lo, ne_hi = M.lo(nd), M.hi(ne)
+        nd_lo, ne_hi = (nd, ne) if M.scalar else (M.lo(nd), M.hi(ne))
         if nd_lo <= STRONG_COUPLING_ND:
             W["electrons_strongly_coupled"] = nd <= STRONG_COUPLING_ND
         if nd_lo * nd_lo < ne_hi * DEGENERATE_ND2_PER_NE:
             W["electrons_degenerate"] = nd * nd < ne * DEGENERATE_ND2_PER_NE
         if ti is not None:
-            ti_lo = M.lo(ti)
+            ti_lo = ti if M.scalar else M.lo(ti)
             if ne_hi * dc.ion_coupling_per_ne >= ti_lo * ti_lo * ti_lo:
                 W["ions_strongly_coupled"] = ne * dc.ion_coupling_per_ne >= ti * ti * ti
         if dc.length is not None:
@@ -121,12 +122,12 @@ def core_pass(M: Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, An
         else:
             aux["branch_slope"] = 1.5
         V["coulomb_logarithm"] = lnl
-        if ti is not None and te_lo < M.hi(ti) * dc.mass_ratio:
+        if ti is not None and te_lo < (ti if M.scalar else M.hi(ti)) * dc.mass_ratio:
             W["coulomb_logarithm_cold_electrons"] = te < ti * dc.mass_ratio
         nu = ne * lnl
         nu /= t15
         nu *= NU_EI_COEFFICIENT
-        if M.lo(lnl) < 2.0:                  # withheld: NaN flows into everything built on the rate
+        if (lnl if M.scalar else M.lo(lnl)) < 2.0:                  # withheld: NaN flows into everything built on the rate
             W["coulomb_logarithm_small"] = small = lnl < 2.0
             nu = M.where(small, math.nan, nu)
         if Q and "Te" in Q:

@@ -222,8 +222,12 @@ _GATE2 = GATE_RELATIVE * GATE_RELATIVE
 
 def _scalar_wide(Q: Mapping[str, float], p0: float | None) -> bool:
     """Whether one sample's relative input sigmas open the nonlinearity check (see nonlinear.GATE_RELATIVE)."""
-    if max(Q.values()) <= _GATE2:              # the usual answer, at C speed
+    top = max(Q.values())
+    if top <= _GATE2:                           # the usual answer, at C speed
         return False
+    a2 = Q.get("p0_abs2")
+    if a2 is None or top > a2:                  # the largest is a relative square
+        return True
     for key, q in Q.items():                    # p0's entry is absolute: look closer
         if key == "p0_abs2":
             if p0 and q > _GATE2 * p0 * p0:
