@@ -15,7 +15,7 @@ from monitor.physics.core import core_pass as _core
 from monitor.physics.core import core_values
 from monitor.physics.nonlinear import GATE_RELATIVE, nonlinear_warnings
 from monitor.physics.tables import AFFECTS, INPUT_KEYS, REQUIRES, WARNINGS, WITHHELD, flags_of, warning_text
-from monitor.physics.uncertainty import SIGMA_KEYS, relative_squares, relative_squares_block
+from monitor.physics.uncertainty import SIGMA_KEYS, relative_squares, relative_squares_block, relative_squares_top
 from monitor.physics.validity import DeviceConsts, device_consts, validate_scalar, validate_vector
 
 __all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS", "AFFECTS", "WITHHELD",
@@ -220,21 +220,16 @@ def _add_nonlinear(W: dict[str, Any], found: Mapping[str, np.ndarray]) -> None:
 _GATE2 = GATE_RELATIVE * GATE_RELATIVE
 
 
-def _scalar_wide(Q: Mapping[str, float], p0: float | None) -> bool:
-    """Whether one sample's relative input sigmas open the nonlinearity check (see nonlinear.GATE_RELATIVE)."""
-    top = max(Q.values())
-    if top <= _GATE2:                           # the usual answer, at C speed
-        return False
-    a2 = Q.get("p0_abs2")
-    if a2 is None or top > a2:                  # the largest is a relative square
-        return True
-    for key, q in Q.items():                    # p0's entry is absolute: look closer
-        if key == "p0_abs2":
-            if p0 and q > _GATE2 * p0 * p0:
-                return True
-        elif q > _GATE2:
-            return True
-    return False
+def _squares_top(sig: Mapping[str, float], x: Mapping[str, float],
+                 dc: DeviceConsts) -> tuple[dict[str, Any] | None, float]:
+    """_squares() for one sample of the scalar pass, with its largest relative square (the gate)."""
+    if not sig:
+        return None, 0.0
+    values: dict[str, Any] = dict(x)
+    for key, v in (("L", dc.length), ("f", dc.frequency), ("Tgas", dc.gas_temperature), ("sigma_en", dc.sigma_en)):
+        if v is not None:
+            values[key] = v
+    return relative_squares_top(sig, values)
 
 
 def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
@@ -253,10 +248,9 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         x = {k: v[i] for k, v in lists.items()}
         for reason in validate_scalar(x):
             reasons.setdefault(reason, []).append(i)
-        Q = _squares({k: v[i] for k, v in slists.items()}, x, dc, False)
-        V, S, W = _core(_SCALAR, x, dc, Q)
-        if Q and not wide:
-            wide = _scalar_wide(Q, x.get("p0"))
+        Q, top = _squares_top({k: v[i] for k, v in slists.items()}, x, dc)
+        V, S, W = _core(_SCALAR, x, dc, Q, top)
+        wide = wide or top > _GATE2
         if i == 0:
             vnames, snames = list(V), list(S)
         vrows.append([V[k] for k in vnames])

@@ -23,11 +23,12 @@ Works on Python floats (the scalar fast path) and on numpy arrays alike:
 
 from __future__ import annotations
 
+import math
 from typing import Any, Callable, Mapping
 
 import numpy as np
 
-__all__ = ["relative_squares", "relative_squares_block", "propagate", "SIGMA_KEYS"]
+__all__ = ["relative_squares", "relative_squares_top", "relative_squares_block", "propagate", "SIGMA_KEYS"]
 
 # Keys that may carry a standard uncertainty: the inputs and four device constants.
 SIGMA_KEYS = ("ne", "Te", "Ti", "B", "p0", "L", "f", "Tgas", "sigma_en")
@@ -48,6 +49,27 @@ def relative_squares(sigma: Mapping[str, Num], values: Mapping[str, Num]) -> dic
             r *= r                      # fresh: in place on arrays
             out[key] = r
     return out
+
+
+def relative_squares_top(sigma: Mapping[str, float], values: Mapping[str, float]) -> tuple[dict[str, float], float]:
+    """relative_squares() for one sample (Python floats), and the largest relative square of any key
+    (p0's made relative; a zero pressure counts as infinite): the nonlinearity check's gate."""
+    out: dict[str, float] = {}
+    top = 0.0
+    for key, s in sigma.items():
+        x = values.get(key)
+        if x is not None and s is not None:
+            if key == "p0":
+                out["p0_abs2"] = s * s
+                r = s / x if x else (math.inf if s else 0.0)
+            else:
+                r = s / x
+            r *= r
+            if key != "p0":
+                out[key] = r
+            if r > top:
+                top = r
+    return out, top
 
 
 def relative_squares_block(sigma: Mapping[str, Num], values: Mapping[str, Num],
