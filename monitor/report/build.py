@@ -175,7 +175,22 @@ def _read_jsonl(path: Path, kind: str) -> list[dict[str, Any]]:
     return out
 
 
-def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str, Any]]:
+def _not_judged(values: Mapping[str, np.ndarray], on: np.ndarray, shares: Mapping[str, float]) -> dict[str, str]:
+    """Quantity -> why its criterion is not judged: derive() withheld it on most discharge-on samples."""
+    from monitor.physics.tables import WITHHELD
+
+    out: dict[str, str] = {}
+    for code, (names, why) in WITHHELD.items():
+        if shares.get(code, 0.0) >= 0.5:
+            for name in names:
+                v = values.get(name)
+                if v is not None and len(v) == len(on) and not np.isfinite(v[on]).any():
+                    out.setdefault(name, why)
+    return out
+
+
+def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray,
+              not_judged: Mapping[str, str] | None = None) -> list[dict[str, Any]]:
     from monitor.criteria import evaluate
 
     medians: dict[str, float] = {}
@@ -194,7 +209,7 @@ def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str
             if verdict.holds is not None:
                 held.setdefault(verdict.name, []).append(bool(verdict.holds))
     out = []
-    for verdict in evaluate(medians):
+    for verdict in evaluate(medians, not_judged):
         h = held.get(verdict.name)
         out.append({"name": verdict.name, "holds": verdict.holds, "margin": verdict.margin, "text": verdict.text,
                     "held_fraction": (sum(h) / len(h)) if h else None})
@@ -309,6 +324,7 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
     traces = _decimate(t, values, ["ne", "Te", "debye_length", "debye_number", *limited])
     samples_by = {q.name: collector.readings[q.name] for q in BASE if q.name in collector.readings}
     uncertainty, point = _uncertainty(collector, values, on, config.device)
+    shares = _flag_shares(collector, on)
     return Report(
         file=str(path), shot=info.shot, source=info.source or opened.source.name, start=info.start,
         config_origin=opened.config_origin,
@@ -316,7 +332,7 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
         duration=float(t[-1] - t[0]) if len(t) else 0.0, discharge_on_s=float(dt[on].sum()),
         samples=int(len(t)), samples_by_quantity=samples_by, rejected=rejected, lost=lost, damage=damage,
         limits=limits, alarm_origin=alarm_origin, alarms=alarms, quantities=stats,
-        verdicts=tuple(_verdicts(values, on)), on_above=on_above, traces=traces,
+        verdicts=tuple(_verdicts(values, on, _not_judged(values, on, shares))), on_above=on_above, traces=traces,
         limit_specs=tuple(getattr(config, "limits", ())),
-        uncertainty=uncertainty, operating_point=point, flag_shares=_flag_shares(collector, on),
+        uncertainty=uncertainty, operating_point=point, flag_shares=shares,
     )

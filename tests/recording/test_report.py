@@ -237,3 +237,18 @@ def test_report_without_sigmas_says_nothing_to_propagate(tmp_path: Path) -> None
     r = build_report(csv, config_path=str(cfg))
     assert r.uncertainty == ()
     assert "No reading carried an uncertainty" in to_markdown(r)
+
+
+def test_report_does_not_judge_what_the_formulas_do_not_cover(tmp_path: Path) -> None:
+    # a dense cold shot (ne 1e28 m^-3, Te 1 eV): the NRL Coulomb logarithm is -2.3 there, below its
+    # validity, so the collision rates are withheld and "collective" is not judged (no negative rate)
+    t = np.arange(20) * 0.1
+    csv = tmp_path / "dense.csv"
+    csv.write_text("t,ne,Te\n" + "".join(f"{a!r},1e28,1.0\n" for a in t.tolist()))
+    r = build_report(csv)
+    verdicts = {v["name"]: v for v in r.verdicts}
+    assert verdicts["collective"]["holds"] is None
+    assert "not judged: strongly coupled (lnLambda < 2)" in verdicts["collective"]["text"]
+    assert r.flag_shares["coulomb_logarithm_small"] == pytest.approx(1.0)
+    assert r.flag_shares["electrons_strongly_coupled"] == pytest.approx(1.0)
+    assert "not judged: strongly coupled" in to_markdown(r)
