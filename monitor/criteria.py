@@ -69,14 +69,21 @@ def _ion_size_ratio(values: Mapping[str, float]) -> float | None:
     return float(length) / float(r_i) if r_i != 0 else math.inf
 
 
-def evaluate(values: Mapping[str, float]) -> list[Verdict]:
+def evaluate(values: Mapping[str, float], not_judged: Mapping[str, str] | None = None) -> list[Verdict]:
     """Verdicts for every criterion whose quantity is in ``values`` (floats, canonical units).
 
     ``values`` may also carry ``L`` (m) for the ion magnetisation criterion;
-    otherwise L is recovered from debye_ratio * debye_length.
+    otherwise L is recovered from debye_ratio * debye_length. ``not_judged``
+    maps a quantity to the reason its formula does not hold (e.g. "strongly
+    coupled (lnLambda < 2)", from derive()'s WITHHELD): its criterion is
+    not judged (holds None) and says why, instead of a number.
     """
     verdicts: list[Verdict] = []
+    skip = not_judged or {}
     for c in CRITERIA:
+        if c.quantity in skip:
+            verdicts.append(Verdict(c.name, None, math.nan, f"{c.yes}? not judged: {skip[c.quantity]} ({c.why})"))
+            continue
         raw = _ion_size_ratio(values) if c.quantity == "ion_size_ratio" else values.get(c.quantity)
         if raw is None:
             continue

@@ -9,6 +9,7 @@ from monitor.errors import UsageError
 
 __all__ = ["UnitError", "DIMENSIONS", "DIMENSION_OF", "unit_scale", "parse_value", "parse_uncertainty", "canonical_unit"]
 
+# The standard atmosphere is 101325 Pa exactly (CGPM 1954; NIST SP 811, B.8); Torr is 1/760 atm.
 # Boltzmann constant over elementary charge, eV per kelvin (CODATA 2018, exact
 # by the SI definitions): k / e = 1.380649e-23 / 1.602176634e-19.
 _EV_PER_K = 1.380649e-23 / 1.602176634e-19
@@ -20,7 +21,7 @@ DIMENSIONS: dict[str, tuple[str, dict[str, float]]] = {
     "temperature": ("eV", {"eV": 1.0, "keV": 1e3, "meV": 1e-3, "K": _EV_PER_K}),
     "field": ("T", {"T": 1.0, "mT": 1e-3, "G": 1e-4, "kG": 1e-1}),
     "pressure": ("Pa", {"Pa": 1.0, "mPa": 1e-3, "kPa": 1e3, "Torr": 101325.0 / 760.0,
-                        "mTorr": 101325.0 / 760.0 * 1e-3, "mbar": 100.0, "bar": 1e5}),
+                        "mTorr": 101325.0 / 760.0 * 1e-3, "mbar": 100.0, "bar": 1e5, "atm": 101325.0}),
     "length": ("m", {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6}),
     "frequency": ("Hz", {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6, "GHz": 1e9}),
     "area": ("m^2", {"m^2": 1.0, "m2": 1.0, "cm^2": 1e-4, "cm2": 1e-4}),

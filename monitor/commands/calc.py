@@ -10,7 +10,7 @@ from typing import Any
 
 from monitor.errors import UsageError
 
-__all__ = ["register", "run", "KEYS", "parse_assignments", "compute", "reasons"]
+__all__ = ["register", "run", "KEYS", "parse_assignments", "compute", "reasons", "notes", "to_json"]
 
 # key -> (what it is, default shown in help)
 KEYS: dict[str, str] = {
@@ -18,7 +18,7 @@ KEYS: dict[str, str] = {
     "Te": "electron temperature (eV, keV, K)",
     "Ti": "ion temperature (eV, keV, K)",
     "B": "magnetic field (T, mT, G, kG)",
-    "p0": "neutral pressure (Pa, mPa, Torr, mTorr, mbar)",
+    "p0": "neutral pressure (Pa, mPa, kPa, Torr, mTorr, mbar, bar, atm)",
     "L": "device length scale (m, cm, mm)",
     "f": "wave frequency, ordinary (Hz, kHz, MHz, GHz)",
     "Tgas": "gas temperature (K default, or eV), default 300 K",
@@ -40,7 +40,23 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("assignments", nargs="*", metavar="KEY=VALUE", help="readings and device constants")
     parser.add_argument("--json", action="store_true",
                         help='print one JSON object: name -> {"value", "unit", "sigma"}, plus "reason" '
-                             'where a value or sigma is null because it is not defined (e.g. at B = 0)')
+                             'where a value or sigma is null because it is not defined (e.g. at B = 0), '
+                             '"flags" where a validity warning concerns it, and a top-level "notes" list')
+    parser.add_argument("--mc", type=_draws, default=None, metavar="N",
+                        help="also give the 16th-84th percentile interval of each quantity from N Monte Carlo "
+                             "draws of the inputs' uncertainties (e.g. --mc 100000; JSON: p16, p84)")
+
+
+def _draws(text: str) -> int:
+    from monitor.physics.montecarlo import MAX_DRAWS, MIN_DRAWS
+
+    try:
+        n = int(float(text))
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"--mc takes a number of draws, got {text!r}") from None
+    if not (MIN_DRAWS <= n <= MAX_DRAWS) or float(text) != n:
+        raise argparse.ArgumentTypeError(f"--mc must be a whole number from {MIN_DRAWS} to {MAX_DRAWS}, got {text}")
+    return n
 
 
 def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, float]]:
@@ -64,11 +80,12 @@ def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, flo
         values[key] = value
         if sigma is not None:
             sigmas[key] = sigma
-    for key in ("L", "f", "Tgas", "A", "Z"):
-        if key in values and not (math.isfinite(values[key]) and values[key] > 0):
-            raise UsageError(f"{key} must be finite and > 0, got {values[key]:g}")
-    if "sigma_en" in values and not (math.isfinite(values["sigma_en"]) and values["sigma_en"] >= 0):
-        raise UsageError(f"sigma_en must be finite and >= 0, got {values['sigma_en']:g}")
+    from monitor.physics.ranges import check_value
+
+    for key, value in values.items():
+        problem = check_value(key, value)
+        if problem:
+            raise UsageError(problem)
     if not any(k in values for k in _INPUTS + ("f",)):
         raise UsageError("nothing to derive: give readings, e.g. ne=5e16m-3 Te=3eV "
                          f"(keys: {', '.join(KEYS)})")
@@ -124,8 +141,13 @@ def _why_not_finite(name: str, x: float, values: dict[str, float], sigmas: dict[
 
 def reasons(values: dict[str, float], sigmas: dict[str, float], derived: Any) -> dict[str, str]:
     """Quantity name -> why its value or its sigma is not a finite number (only those that are not)."""
-    out: dict[str, str] = {}
+    from monitor.physics.tables import sample_withheld
+
+    out: dict[str, str] = {name: f"withheld: {why}: the formula does not hold here"
+                           for name, why in sample_withheld(derived.warnings, derived.values, 0).items()}
     for name, v in derived.values.items():
+        if name in out:
+            continue
         x = float(v[0])
         s = float(derived.sigma[name][0]) if name in derived.sigma else 0.0
         if not math.isfinite(x):
@@ -135,25 +157,82 @@ def reasons(values: dict[str, float], sigmas: dict[str, float], derived: Any) ->
     return out
 
 
-def run(args: argparse.Namespace) -> int:
+def notes(values: dict[str, float], sigmas: dict[str, float], derived: Any, mc: Any = None) -> list[dict[str, str]]:
+    """The run's validity notes and warnings as {"code", "text"}: what the table prints under "warnings"."""
+    from monitor.physics.nonlinear import NONLINEAR, RHO_MAX
+    from monitor.physics.tables import sample_flags, warning_text
+
+    out: list[dict[str, str]] = []
+    if "sigma_en" not in values and "electron_neutral_collision_frequency" in derived.values:
+        out.append({"code": "sigma_en_default",
+                    "text": "sigma_en default 1e-19 m^2 is an order-of-magnitude value (common practice)"})
+    codes = sample_flags(derived.warnings, 0)
+    nonlinear = [c.partition(":")[2] for c in codes if c.startswith(NONLINEAR + ":")]
+    for code in codes:
+        if not code.startswith(NONLINEAR + ":"):
+            out.append({"code": code, "text": warning_text(code)})
+    if nonlinear:
+        out.append({"code": NONLINEAR,
+                    "text": f"linear uncertainty not trustworthy for {', '.join(nonlinear)}: the second-order "
+                            f"term exceeds {RHO_MAX:g} of the first-order sigma"
+                            + (" (see the Monte Carlo interval)" if mc is not None else " (use --mc N)")})
+    if mc is not None:
+        text = f"Monte Carlo: {mc.draws} draws of normal inputs"
+        if mc.discarded:
+            lost = ", ".join(f"{k} {n}" for k, n in sorted(mc.discarded.items()))
+            text += (f"; {mc.draws - mc.kept} left an input's physical domain and were discarded ({lost}): "
+                     "the interval is that of the truncated distribution")
+        out.append({"code": "monte_carlo", "text": text})
+        for name, iv in mc.intervals.items():
+            if iv.withheld:
+                out.append({"code": "monte_carlo_withheld",
+                            "text": f"{name}: {iv.withheld} of {iv.finite + iv.withheld} draws had no value "
+                                    "(formula outside its validity there); the interval is over the rest"})
+    return out
+
+
+def to_json(values: dict[str, float], sigmas: dict[str, float], derived: Any, mc: Any = None) -> dict[str, Any]:
+    """The --json object: quantity -> {"value", "unit", "sigma"[, "reason", "flags", "p16", "p84"]}, and "notes"."""
+    from monitor.physics.tables import flags_of, sample_flags
     from monitor.quantities import DERIVED
 
+    why = reasons(values, sigmas, derived)
+    codes = sample_flags(derived.warnings, 0)
+    out: dict[str, Any] = {}
+    for q in DERIVED:
+        if q.name not in derived.values:
+            continue
+        entry: dict[str, Any] = {"value": _num(derived.values[q.name][0]), "unit": q.unit,
+                                 "sigma": _num(derived.sigma[q.name][0]) if q.name in derived.sigma else None}
+        if q.name in why:
+            entry["reason"] = why[q.name]
+        flags = flags_of(q.name, codes)
+        if flags:
+            entry["flags"] = flags
+        if mc is not None and q.name in mc.intervals:
+            entry["p16"] = _num(mc.intervals[q.name].p16)
+            entry["p84"] = _num(mc.intervals[q.name].p84)
+        out[q.name] = entry
+    out["notes"] = notes(values, sigmas, derived, mc)
+    return out
+
+
+def run(args: argparse.Namespace) -> int:
     values, sigmas = parse_assignments(list(args.assignments))
     device, derived = compute(values, sigmas)
-    names = [q for q in DERIVED if q.name in derived.values]
+    mc = None
+    if args.mc is not None:
+        if not sigmas:
+            raise UsageError("--mc needs at least one uncertainty, e.g. Te=3eV±10%")
+        from monitor.physics.montecarlo import monte_carlo
+
+        mc = monte_carlo({k: values[k] for k in _INPUTS if k in values}, device, sigmas, args.mc)
     if args.json:
-        why = reasons(values, sigmas, derived)
-        out: dict[str, dict[str, Any]] = {}
-        for q in names:
-            out[q.name] = {"value": _num(derived.values[q.name][0]), "unit": q.unit,
-                           "sigma": _num(derived.sigma[q.name][0]) if q.name in derived.sigma else None}
-            if q.name in why:
-                out[q.name]["reason"] = why[q.name]
-        print(json.dumps(out, allow_nan=False))
+        print(json.dumps(to_json(values, sigmas, derived, mc), allow_nan=False))
         for code in derived.warnings:
             print(f"regime calc: warning: {code}", file=sys.stderr)
         return 0
-    print(render(values, sigmas, device, derived))
+    print(render(values, sigmas, device, derived, mc))
     return 0
 
 
@@ -176,10 +255,12 @@ def _given(key: str, value: float, sigma: float | None) -> str:
     return text + (f" {_fmt_sigma(value, sigma, unit)}" if sigma is not None else "")
 
 
-def render(values: dict[str, float], sigmas: dict[str, float], device: Any, derived: Any) -> str:
+def render(values: dict[str, float], sigmas: dict[str, float], device: Any, derived: Any, mc: Any = None) -> str:
     """The readable table: inputs, device, quantity/value/unit/sigma/meaning, criteria, warnings, gaps."""
     from monitor.criteria import evaluate
-    from monitor.physics import REQUIRES, WARNINGS
+    from monitor.physics import REQUIRES
+    from monitor.physics.nonlinear import NONLINEAR
+    from monitor.physics.tables import sample_withheld
     from monitor.quantities import DERIVED
 
     lines = ["inputs   " + "   ".join(_given(k, values[k], sigmas.get(k)) for k in _INPUTS if k in values)]
@@ -190,7 +271,7 @@ def render(values: dict[str, float], sigmas: dict[str, float], device: Any, deri
     lines.append("device   " + "   ".join(parts))
     if "sigma_en" not in values and "electron_neutral_collision_frequency" in derived.values:
         lines.append("         sigma_en default 1e-19 m^2 is an order-of-magnitude value (common practice)")
-    rows = [("quantity", "value", "unit", "± sigma", "meaning")]
+    rows = [("quantity", "value", "unit", "± sigma" + (" [MC 16-84 %]" if mc is not None else ""), "meaning")]
     electrons_only = "plasma_beta_electrons_only" in derived.warnings
     why = reasons(values, sigmas, derived)
     for q in DERIVED:
@@ -201,7 +282,15 @@ def render(values: dict[str, float], sigmas: dict[str, float], device: Any, deri
         meaning = q.meaning + (" (electrons only: Ti not given)" if q.name == "plasma_beta" and electrons_only else "")
         if q.name in why:
             meaning += f" [{why[q.name]}]"
-        rows.append((q.name, f"{v:.4g}" if math.isfinite(v) else "-", q.unit, _fmt_sigma(v, s), meaning))
+        elif q.name == "coulomb_logarithm" and "coulomb_logarithm_small" in derived.warnings:
+            meaning += " [below 2: outside its validity]"
+        sig_text = _fmt_sigma(v, s)
+        if f"{NONLINEAR}:{q.name}" in derived.warnings:
+            sig_text += " (!)"
+        if mc is not None and q.name in mc.intervals:
+            iv = mc.intervals[q.name]
+            sig_text += f" [{iv.p16:.3g} .. {iv.p84:.3g}]"
+        rows.append((q.name, f"{v:.4g}" if math.isfinite(v) else "-", q.unit, sig_text, meaning))
     widths = [max(len(r[i]) for r in rows) for i in range(4)]
     lines.append("")
     for r in rows:
@@ -209,15 +298,17 @@ def render(values: dict[str, float], sigmas: dict[str, float], device: Any, deri
     scalars: dict[str, float] = {k: float(v[0]) for k, v in derived.values.items()}
     if device.length is not None:
         scalars["L"] = device.length
-    verdicts = evaluate(scalars)
+    verdicts = evaluate(scalars, sample_withheld(derived.warnings, derived.values, 0))
     if verdicts:
         lines += ["", "criteria"]
         for vd in verdicts:
             mark = "yes" if vd.holds else ("?" if vd.holds is None else "NO")
             lines.append(f"  {mark:<4}{vd.text}")
-    warned = [code for code, mask in derived.warnings.items() if mask.any()]
+    warned = [n["text"] for n in notes(values, sigmas, derived, mc) if n["code"] != "sigma_en_default"]
     if warned:
-        lines += ["", "warnings"] + [f"  {WARNINGS.get(code, code)}" for code in warned]
+        lines += ["", "warnings" + (" ((!) beside a sigma: linear propagation not trustworthy there)"
+                                    if any(c.startswith(NONLINEAR) for c in derived.warnings) else "")]
+        lines += [f"  {text}" for text in warned]
     have = set(values) | ({"L"} if device.length is not None else set()) | ({"f"} if device.wave_frequency else set())
     missing = [(q.name, [k for k in REQUIRES[q.name] if k not in have]) for q in DERIVED
                if q.name not in derived.values]

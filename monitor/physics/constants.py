@@ -6,7 +6,7 @@ import math
 
 __all__ = [
     "ELEMENTARY_CHARGE", "BOLTZMANN", "EPSILON_0", "MU_0", "ELECTRON_MASS", "PROTON_MASS",
-    "ATOMIC_MASS", "SPEED_OF_LIGHT", "EV_IN_K", "K_IN_EV", "ELECTRON_REST_ENERGY_EV", "PI",
+    "ATOMIC_MASS", "SPEED_OF_LIGHT", "PLANCK", "REDUCED_PLANCK", "EV_IN_K", "K_IN_EV", "ELECTRON_REST_ENERGY_EV", "PI",
 ]
 
 # CODATA 2022 recommended values, the set that scipy.constants (>= 1.15) and
@@ -15,6 +15,8 @@ __all__ = [
 ELEMENTARY_CHARGE = 1.602176634e-19      # C (exact)
 BOLTZMANN = 1.380649e-23                 # J/K (exact)
 SPEED_OF_LIGHT = 299792458.0             # m/s (exact)
+PLANCK = 6.62607015e-34                  # J s (exact)
+REDUCED_PLANCK = PLANCK / (2.0 * math.pi)  # J s (exact up to rounding)
 EPSILON_0 = 8.8541878188e-12             # F/m
 MU_0 = 1.25663706127e-6                  # N/A^2
 ELECTRON_MASS = 9.1093837139e-31         # kg

@@ -2,59 +2,29 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
-from typing import Any, Callable, Mapping
+from typing import Any, Mapping
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 from monitor.model import Device
-from monitor.physics import constants as C
-from monitor.physics.collisions import NU_EI_COEFFICIENT
-from monitor.physics.speeds import MEAN_FACTOR, MOST_PROBABLE_FACTOR, RMS_FACTOR
-from monitor.physics.uncertainty import SIGMA_KEYS, propagate, relative_squares
+from monitor.physics.core import SCALAR as _SCALAR
+from monitor.physics.core import VECTOR as _VECTOR
+from monitor.physics.core import core_pass as _core
+from monitor.physics.core import core_values
+from monitor.physics.nonlinear import GATE_RELATIVE, nonlinear_warnings
+from monitor.physics.tables import AFFECTS, INPUT_KEYS, REQUIRES, WARNINGS, WITHHELD, flags_of, warning_text
+from monitor.physics.uncertainty import SIGMA_KEYS, relative_squares, relative_squares_block, relative_squares_top
 from monitor.physics.validity import DeviceConsts, device_consts, validate_scalar, validate_vector
 
-__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS"]
+__all__ = ["Derived", "derive", "SCALAR_MAX", "INPUT_KEYS", "REQUIRES", "WARNINGS", "AFFECTS", "WITHHELD",
+           "warning_text", "flags_of", "core_values"]
 
-INPUT_KEYS = ("ne", "Te", "Ti", "B", "p0")
-# What each derived quantity needs: input keys plus device constants L and f
-# (A, Z, Tgas and sigma_en always have device defaults).
-REQUIRES: dict[str, tuple[str, ...]] = {
-    "debye_length": ("ne", "Te"), "debye_number": ("ne", "Te"), "debye_ratio": ("ne", "Te", "L"),
-    "electron_plasma_frequency": ("ne",), "ion_plasma_frequency": ("ne",),
-    "electron_most_probable_speed": ("Te",), "electron_mean_speed": ("Te",), "electron_rms_speed": ("Te",),
-    "electron_thermal_speed": ("Te",), "coulomb_logarithm": ("ne", "Te"),
-    "electron_ion_collision_frequency": ("ne", "Te"), "electron_neutral_collision_frequency": ("p0", "Te"),
-    "electron_mean_free_path": ("ne", "Te"), "knudsen_number": ("ne", "Te", "L"),
-    "neutral_density": ("p0",), "ionization_fraction": ("ne", "p0"), "collectivity": ("ne", "Te"),
-    "electron_cyclotron_frequency": ("B",), "ion_cyclotron_frequency": ("B",),
-    "electron_gyroradius": ("Te", "B"), "ion_gyroradius": ("Ti", "B"), "hall_parameter": ("ne", "Te", "B"),
-    "plasma_beta": ("ne", "Te", "B"), "cutoff_density": ("f",), "cutoff_ratio": ("ne", "f"),
-}
 # Below this many samples a per-sample pure-Python pass beats numpy's call overhead.
 SCALAR_MAX = 8
 # Above this many samples the batch is derived block by block (temporaries stay in cache).
 CHUNK = 16384
-
-# Warning codes derive() may raise, with what they mean for the operator.
-WARNINGS: dict[str, str] = {
-    "coulomb_logarithm_small": "lnLambda < 2: Coulomb logarithm and collision rates outside their validity",
-    "coulomb_logarithm_cold_electrons": "Te < Ti me/mi: below the range of the Coulomb logarithm formula",
-    "relativistic_electrons": "Te > 50 keV: relativistic electrons, non-relativistic formulas are off",
-    "plasma_beta_electrons_only": "plasma_beta counts the electron pressure only (Ti not given)",
-}
-
-# Fused constants (see the per-kind modules for the formulas and sources).
-_K_LAMBDA = math.sqrt(C.EPSILON_0 / C.ELEMENTARY_CHARGE)                   # lambda_D = K sqrt(Te/ne)
-_K_DEBYE_NUMBER = 4.0 / 3.0 * math.pi * C.EPSILON_0 / C.ELEMENTARY_CHARGE   # N_D = K Te lambda_D
-_K_WPE = math.sqrt(C.ELEMENTARY_CHARGE**2 / (C.EPSILON_0 * C.ELECTRON_MASS))
-_K_VT = math.sqrt(C.ELEMENTARY_CHARGE / C.ELECTRON_MASS)                   # v_T = K sqrt(Te)
-_K_WCE = C.ELEMENTARY_CHARGE / C.ELECTRON_MASS
-_K_BETA = 2.0 * C.MU_0 * C.ELEMENTARY_CHARGE
-_RELATIVISTIC_EV = 50.0e3
-
 
 @dataclass(frozen=True, eq=False)
 class Derived:
@@ -80,119 +50,6 @@ class Derived:
         return ok
 
 
-@dataclass(frozen=True)
-class _Ops:
-    sqrt: Callable[[Any], Any]
-    log: Callable[[Any], Any]
-    where: Callable[[Any, Any, Any], Any]
-    any: Callable[[Any], bool]
-    abs: Callable[[Any], Any]
-    isqrt: Callable[[Any], Any]      # in place on a fresh array temporary
-    ilog: Callable[[Any], Any]       # in place on a fresh array temporary
-
-
-_SCALAR = _Ops(math.sqrt, math.log, lambda c, a, b: a if c else b, bool, abs, math.sqrt, math.log)
-_VECTOR = _Ops(np.sqrt, np.log, np.where, np.any, np.abs,
-               lambda a: np.sqrt(a, out=a) if isinstance(a, np.ndarray) else np.sqrt(a),
-               lambda a: np.log(a, out=a) if isinstance(a, np.ndarray) else np.log(a))
-
-
-def _core(M: _Ops, x: Mapping[str, Any], dc: DeviceConsts, Q: Mapping[str, Any] | None,
-          ) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
-    """Values, sigmas and warnings for floats (M=_SCALAR) or arrays (M=_VECTOR) alike."""
-    ne, te, ti, b, p0 = x.get("ne"), x.get("Te"), x.get("Ti"), x.get("B"), x.get("p0")
-    V: dict[str, Any] = {}
-    W: dict[str, Any] = {}
-    aux: dict[str, Any] = {}
-    wpe = vt = nu = None
-    if ne is not None:
-        sne = M.sqrt(ne)
-        V["electron_plasma_frequency"] = wpe = _K_WPE * sne
-        V["ion_plasma_frequency"] = wpe * dc.wpi_factor
-    if te is not None:
-        st = M.sqrt(te)
-        vt = _K_VT * st
-        V["electron_most_probable_speed"] = vt * MOST_PROBABLE_FACTOR
-        V["electron_mean_speed"] = vmean = vt * MEAN_FACTOR
-        V["electron_rms_speed"] = vt * RMS_FACTOR
-        V["electron_thermal_speed"] = vt
-        W["relativistic_electrons"] = te > _RELATIVISTIC_EV
-    if ne is not None and te is not None:
-        lam = st / sne
-        lam *= _K_LAMBDA
-        V["debye_length"] = lam
-        nd = te * lam
-        nd *= _K_DEBYE_NUMBER
-        V["debye_number"] = nd
-        if dc.length is not None:
-            V["debye_ratio"] = dc.length / lam
-        t15 = te * st
-        lnl = M.ilog(t15 / sne)
-        lnl += dc.coulomb_low
-        hi = te >= dc.coulomb_branch
-        if M.any(hi):
-            lnl = M.where(hi, dc.coulomb_high + M.log(te / sne), lnl)
-            aux["branch_slope"] = 1.5 - 0.5 * hi
-        else:
-            aux["branch_slope"] = 1.5
-        V["coulomb_logarithm"] = lnl
-        W["coulomb_logarithm_small"] = lnl < 2.0
-        if ti is not None:
-            W["coulomb_logarithm_cold_electrons"] = te < ti * dc.mass_ratio
-        nu = ne * lnl
-        nu /= t15
-        nu *= NU_EI_COEFFICIENT
-        V["electron_ion_collision_frequency"] = nu
-    if p0 is not None:
-        n0 = p0 * dc.n0_factor
-        V["neutral_density"] = n0
-        aux["n0_per_p0"] = dc.n0_factor
-        if ne is not None:
-            aux["ne_plus_n0"] = total = ne + n0
-            V["ionization_fraction"] = ne / total
-        if te is not None:
-            aux["nu_en_per_n0"] = k_en = vmean * dc.sigma_en
-            V["electron_neutral_collision_frequency"] = nu_en = n0 * k_en
-            if nu is not None:
-                nu = nu + nu_en
-                aux["w_en"] = nu_en / nu
-                aux["nu_total"] = nu
-    if nu is not None:
-        V["electron_mean_free_path"] = mfp = vt / nu
-        if dc.length is not None:
-            V["knudsen_number"] = mfp / dc.length
-        V["collectivity"] = wpe / nu
-    if b is not None:
-        ab = M.abs(b)
-        V["electron_cyclotron_frequency"] = wce = ab * _K_WCE
-        V["ion_cyclotron_frequency"] = wci = ab * dc.wci_factor
-        if vt is not None:
-            V["electron_gyroradius"] = vt / wce
-        if ti is not None:
-            r_i = M.sqrt(ti)
-            r_i /= wci
-            r_i *= dc.vti_factor
-            V["ion_gyroradius"] = r_i
-        if nu is not None:
-            V["hall_parameter"] = wce / nu
-        if ne is not None and te is not None:
-            if ti is None:
-                pressure = ne * te         # fresh: divided in place below
-            else:
-                tsum = te + ti * dc.inv_z
-                pressure = ne * tsum
-                aux["beta_te_share"] = te / tsum
-            pressure /= ab * ab
-            pressure *= _K_BETA
-            V["plasma_beta"] = pressure
-    if dc.cutoff_density is not None:
-        V["cutoff_density"] = dc.cutoff_density
-        if ne is not None:
-            V["cutoff_ratio"] = ne / dc.cutoff_density
-    S = propagate(M.sqrt, M.isqrt, V, aux, Q) if Q else {}
-    return V, S, W
-
-
 def _column(value: ArrayLike) -> np.ndarray:
     return np.asarray(value, dtype=np.float64).reshape(-1)
 
@@ -211,8 +68,12 @@ def derive(
     Bad numbers never raise: the sample's dependent values become NaN and
     ``invalid[reason]`` marks it (only reasons that occur are present);
     ``warnings[code]`` marks samples outside a formula's validity (only
-    codes that occur are present). Below SCALAR_MAX samples a pure-Python
-    pass is used; above, whole numpy arrays.
+    codes that occur are present; monitor.physics.tables.WARNINGS says what
+    each means). Values are kept under a warning, except under the codes of
+    tables.WITHHELD (lnLambda < 2, speeds reaching c), where the quantities
+    it names are NaN. ``nonlinear_sigma:<quantity>`` marks a sample whose
+    linear sigma of that quantity is not trustworthy (monitor.physics.nonlinear).
+    Below SCALAR_MAX samples a pure-Python pass is used; above, whole numpy arrays.
     """
     dc = device_consts(device)
     cols = {k: _column(inputs[k]) for k in INPUT_KEYS if k in inputs and inputs[k] is not None}
@@ -235,15 +96,16 @@ def derive(
                 sig[k] = float(np.asarray(s, dtype=np.float64).reshape(-1)[0])
     if n < SCALAR_MAX:
         try:
-            return _derive_scalar(cols, sig, dc, n)
+            return _derive_scalar(cols, sig, dc, n, device)
         except (ArithmeticError, ValueError):
             pass                                  # e.g. a zero field: numpy gives inf, math raises
     if n > CHUNK:
-        return _derive_chunked(cols, sig, dc, n)
-    return _derive_vector(cols, sig, dc, n)
+        return _derive_chunked(cols, sig, dc, n, device)
+    return _derive_vector(cols, sig, dc, n, device)
 
 
-def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                    device: Device) -> Derived:
     """Large batches in blocks of CHUNK samples so the temporaries stay in cache; same results."""
     values: dict[str, np.ndarray] = {}
     sigma: dict[str, np.ndarray] = {}
@@ -252,7 +114,8 @@ def _derive_chunked(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: Device
     for a in range(0, n, CHUNK):
         b = min(a + CHUNK, n)
         part = _derive_vector({k: c[a:b] for k, c in cols.items()},
-                              {k: (s[a:b] if isinstance(s, np.ndarray) else s) for k, s in sig.items()}, dc, b - a)
+                              {k: (s[a:b] if isinstance(s, np.ndarray) else s) for k, s in sig.items()}, dc, b - a,
+                              device)
         for out, got in ((values, part.values), (sigma, part.sigma)):
             for k, v in got.items():
                 if k not in out:
@@ -282,6 +145,18 @@ def _squares(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts, iee
     return relative_squares(sig, values)
 
 
+def _squares_block(sig: Mapping[str, Any], x: Mapping[str, Any], dc: DeviceConsts,
+                   n: int) -> tuple[dict[str, Any] | None, float]:
+    """_squares() for the vector pass, with the largest relative square of any input (the nonlinearity gate)."""
+    if not sig:
+        return None, 0.0
+    values = dict(x)
+    for key, v in (("L", dc.length), ("f", dc.frequency), ("Tgas", dc.gas_temperature), ("sigma_en", dc.sigma_en)):
+        if v is not None:
+            values[key] = np.float64(v)
+    return relative_squares_block(sig, values, n)
+
+
 def _device_invalid(dc: DeviceConsts, n: int) -> dict[str, np.ndarray]:
     return {reason: np.ones(n, dtype=bool) for reason in dc.invalid}
 
@@ -304,20 +179,31 @@ def _warm_allocator() -> None:
     _ALLOCATOR_WARM = True
 
 
-def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _full(v: Any, n: int) -> np.ndarray:
+    """``v`` as an array of n samples (already one, or a constant such as the cutoff density)."""
+    if type(v) is np.ndarray and v.ndim == 1:       # type() over np.ndim(): this runs ~50 times a batch
+        return v
+    return np.full(n, v, dtype=np.float64)
+
+
+def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                   device: Device) -> Derived:
     if not _ALLOCATOR_WARM and n >= 256:
         _warm_allocator()
     with np.errstate(all="ignore"):
         x, invalid = validate_vector(cols, n)
-        V, S, W = _core(_VECTOR, x, dc, _squares(sig, x, dc, True))
+        Q, widest = _squares_block(sig, x, dc, n)
+        V, S, W = _core(_VECTOR, x, dc, Q, widest)
+    if Q and widest > GATE_RELATIVE * GATE_RELATIVE:
+        _add_nonlinear(W, nonlinear_warnings(core_values, x, Q, device, dc, V, S, n))
     if "plasma_beta" in V and "Ti" not in x:
         W["plasma_beta_electrons_only"] = True
     invalid.update(_device_invalid(dc, n))
-    values = {k: (v if np.ndim(v) == 1 else np.full(n, v, dtype=np.float64)) for k, v in V.items()}
-    sigma = {k: (v if np.ndim(v) == 1 else np.full(n, v, dtype=np.float64)) for k, v in S.items()}
+    values = {k: _full(v, n) for k, v in V.items()}
+    sigma = {k: _full(v, n) for k, v in S.items()}
     warnings: dict[str, np.ndarray] = {}
     for code, mask in W.items():
-        if np.ndim(mask) == 0:
+        if not isinstance(mask, np.ndarray) or mask.ndim == 0:
             if mask:
                 warnings[code] = np.ones(n, dtype=bool)
         elif mask.any():
@@ -325,7 +211,29 @@ def _derive_vector(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     return Derived(values=values, sigma=sigma, invalid=invalid, warnings=warnings)
 
 
-def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int) -> Derived:
+def _add_nonlinear(W: dict[str, Any], found: Mapping[str, np.ndarray]) -> None:
+    """Merge nonlinear-sigma masks into ``W`` (the branch rule may already have set one)."""
+    for code, mask in found.items():
+        W[code] = mask | W[code] if code in W else mask
+
+
+_GATE2 = GATE_RELATIVE * GATE_RELATIVE
+
+
+def _squares_top(sig: Mapping[str, float], x: Mapping[str, float],
+                 dc: DeviceConsts) -> tuple[dict[str, Any] | None, float]:
+    """_squares() for one sample of the scalar pass, with its largest relative square (the gate)."""
+    if not sig:
+        return None, 0.0
+    values: dict[str, Any] = dict(x)
+    for key, v in (("L", dc.length), ("f", dc.frequency), ("Tgas", dc.gas_temperature), ("sigma_en", dc.sigma_en)):
+        if v is not None:
+            values[key] = v
+    return relative_squares_top(sig, values)
+
+
+def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceConsts, n: int,
+                   device: Device) -> Derived:
     """The same computation on Python floats, one sample at a time (small N only)."""
     lists = {k: c.tolist() for k, c in cols.items()}
     slists = {k: (s.tolist() if isinstance(s, np.ndarray) else [s] * n) for k, s in sig.items()}
@@ -335,11 +243,14 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
     flags: dict[str, list[int]] = {}
     vnames: list[str] = []
     snames: list[str] = []
+    wide = False
     for i in range(n):
         x = {k: v[i] for k, v in lists.items()}
         for reason in validate_scalar(x):
             reasons.setdefault(reason, []).append(i)
-        V, S, W = _core(_SCALAR, x, dc, _squares({k: v[i] for k, v in slists.items()}, x, dc, False))
+        Q, top = _squares_top({k: v[i] for k, v in slists.items()}, x, dc)
+        V, S, W = _core(_SCALAR, x, dc, Q, top)
+        wide = wide or top > _GATE2
         if i == 0:
             vnames, snames = list(V), list(S)
         vrows.append([V[k] for k in vnames])
@@ -362,5 +273,12 @@ def _derive_scalar(cols: dict[str, np.ndarray], sig: dict[str, Any], dc: DeviceC
         mask = np.zeros(n, dtype=bool)
         mask[rows] = True
         warnings[code] = mask
-    return Derived(values=dict(zip(vnames, varr)), sigma=dict(zip(snames, sarr)),
-                   invalid=invalid, warnings=warnings)
+    values = dict(zip(vnames, varr))
+    if wide:                                # rare on this path: the vector check on the few samples
+        with np.errstate(all="ignore"):
+            x_arr, _ = validate_vector(cols, n)
+            Q_arr = _squares(sig, x_arr, dc, True)
+        if Q_arr:
+            _add_nonlinear(warnings, nonlinear_warnings(core_values, x_arr, Q_arr, device, dc, values,
+                                                        dict(zip(snames, sarr)), n))
+    return Derived(values=values, sigma=dict(zip(snames, sarr)), invalid=invalid, warnings=warnings)

@@ -24,6 +24,25 @@ __all__ = ["Report", "Collector", "build_report", "engine_for"]
 _TRACE_POINTS = 4000
 
 
+_BASE_KEYS = ("ne", "Te", "Ti", "B", "p0")
+# Draws of the report's Monte Carlo at the median operating point (a few tens of ms).
+MC_DRAWS = 20000
+
+
+def _append_aligned(store: dict[str, list[np.ndarray]], got: Mapping[str, np.ndarray], fill: float | bool,
+                    before: int, n: int) -> None:
+    """Append one frame's columns to ``store`` so every column stays aligned with the samples."""
+    dtype = bool if isinstance(fill, bool) else np.float64
+    for name, v in got.items():
+        col = store.get(name)
+        if col is None:
+            col = store[name] = [np.full(before, fill, dtype=dtype)] if before else []
+        col.append(np.broadcast_to(np.asarray(v, dtype=dtype), (n,)).copy())
+    for name, col in store.items():
+        if name not in got:
+            col.append(np.full(n, fill, dtype=dtype))
+
+
 class Collector:
     """A sink keeping every frame's time and values (for the report; memory grows with the shot)."""
 
@@ -35,6 +54,8 @@ class Collector:
         self.rejections: dict[str, int] = {}
         self.readings: dict[str, int] = {}      # base key -> readings that carried it (before the hold)
         self.read: dict[str, list[np.ndarray]] = {}     # base key -> those readings' values (finite only)
+        self.sigma: dict[str, list[np.ndarray]] = {}    # base key -> its sigma per sample (NaN: none)
+        self.flags: dict[str, list[np.ndarray]] = {}    # warning code -> its mask per sample
         self.n = 0
 
     def on_frame(self, frame: Frame) -> None:
@@ -50,6 +71,9 @@ class Collector:
         for name, col in self.values.items():
             if name not in frame.values:
                 col.append(np.full(n, np.nan))
+        for store, got, fill in ((self.sigma, {k: v for k, v in frame.sigma.items() if k in _BASE_KEYS}, np.nan),
+                                 (self.flags, frame.warnings, False)):
+            _append_aligned(store, got, fill, self.n, n)
         self.valid.append(np.asarray(frame.valid, dtype=bool) if frame.valid is not None else np.ones(n, dtype=bool))
         for key, v in (frame.raw or {k: frame.values[k] for k in ("ne", "Te", "Ti", "B", "p0") if k in frame.values}).items():
             v = np.asarray(v, dtype=np.float64)
@@ -106,6 +130,12 @@ class Report:
     on_above: float
     traces: Mapping[str, np.ndarray] = field(default_factory=dict, repr=False)
     limit_specs: tuple[Any, ...] = field(default=(), repr=False)
+    # At the shot's median operating point (discharge on): per derived quantity its value, linear
+    # sigma, Monte Carlo 16th/84th percentiles and whether the linear sigma is flagged; the inputs.
+    uncertainty: tuple[Mapping[str, Any], ...] = ()
+    operating_point: Mapping[str, Any] = field(default_factory=dict)
+    # warning code -> share of the discharge-on samples it was raised on
+    flag_shares: Mapping[str, float] = field(default_factory=dict)
 
 
 def engine_for(config: Any) -> Any:
@@ -145,7 +175,22 @@ def _read_jsonl(path: Path, kind: str) -> list[dict[str, Any]]:
     return out
 
 
-def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str, Any]]:
+def _not_judged(values: Mapping[str, np.ndarray], on: np.ndarray, shares: Mapping[str, float]) -> dict[str, str]:
+    """Quantity -> why its criterion is not judged: derive() withheld it on most discharge-on samples."""
+    from monitor.physics.tables import WITHHELD
+
+    out: dict[str, str] = {}
+    for code, (names, why) in WITHHELD.items():
+        if shares.get(code, 0.0) >= 0.5:
+            for name in names:
+                v = values.get(name)
+                if v is not None and len(v) == len(on) and not np.isfinite(v[on]).any():
+                    out.setdefault(name, why)
+    return out
+
+
+def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray,
+              not_judged: Mapping[str, str] | None = None) -> list[dict[str, Any]]:
     from monitor.criteria import evaluate
 
     medians: dict[str, float] = {}
@@ -164,10 +209,65 @@ def _verdicts(values: Mapping[str, np.ndarray], on: np.ndarray) -> list[dict[str
             if verdict.holds is not None:
                 held.setdefault(verdict.name, []).append(bool(verdict.holds))
     out = []
-    for verdict in evaluate(medians):
+    for verdict in evaluate(medians, not_judged):
         h = held.get(verdict.name)
         out.append({"name": verdict.name, "holds": verdict.holds, "margin": verdict.margin, "text": verdict.text,
                     "held_fraction": (sum(h) / len(h)) if h else None})
+    return out
+
+
+def _column(cols: dict[str, list[np.ndarray]], name: str) -> np.ndarray:
+    return np.concatenate(cols[name]) if cols.get(name) else np.empty(0)
+
+
+def _uncertainty(collector: Collector, values: Mapping[str, np.ndarray], on: np.ndarray,
+                 device: Any) -> tuple[tuple[dict[str, Any], ...], dict[str, Any]]:
+    """Linear sigma and Monte Carlo interval of every derived quantity at the median discharge-on inputs
+    with their median sigmas (nothing when no input carried a sigma)."""
+    from monitor.physics import derive
+    from monitor.physics.montecarlo import monte_carlo
+    from monitor.physics.nonlinear import NONLINEAR
+    from monitor.quantities import DERIVED
+
+    point: dict[str, float] = {}
+    sig: dict[str, float] = {}
+    for key in _BASE_KEYS:
+        v = values.get(key)
+        if v is None or len(v) != len(on):
+            continue
+        sel = v[on & np.isfinite(v)]
+        if len(sel):
+            point[key] = float(np.median(sel))
+            s = _column(collector.sigma, key)
+            if len(s) == len(on):
+                ss = s[on & np.isfinite(s)]
+                if len(ss):
+                    sig[key] = float(np.median(np.abs(ss)))
+    sig = {k: s for k, s in sig.items() if s > 0}
+    if not sig or "ne" not in point or "Te" not in point:
+        return (), {"inputs": point, "sigma": sig}
+    d = derive(point, device, sig)
+    mc = monte_carlo(point, device, sig, MC_DRAWS, seed=0)
+    rows = []
+    for q in DERIVED:
+        if q.name not in d.sigma or q.name not in mc.intervals:
+            continue
+        iv = mc.intervals[q.name]
+        rows.append({"name": q.name, "unit": q.unit, "value": float(d.values[q.name][0]),
+                     "sigma": float(d.sigma[q.name][0]), "p16": iv.p16, "p84": iv.p84,
+                     "nonlinear": f"{NONLINEAR}:{q.name}" in d.warnings})
+    return tuple(rows), {"inputs": point, "sigma": sig, "draws": mc.draws, "kept": mc.kept}
+
+
+def _flag_shares(collector: Collector, on: np.ndarray) -> dict[str, float]:
+    total = int(np.count_nonzero(on))
+    out: dict[str, float] = {}
+    for code in collector.flags:
+        mask = _column(collector.flags, code)
+        if total and len(mask) == len(on):
+            share = float(np.count_nonzero(mask & on)) / total
+            if share > 0:
+                out[code] = share
     return out
 
 
@@ -223,6 +323,8 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
     limited = sorted({spec.quantity for spec in getattr(config, "limits", ())})
     traces = _decimate(t, values, ["ne", "Te", "debye_length", "debye_number", *limited])
     samples_by = {q.name: collector.readings[q.name] for q in BASE if q.name in collector.readings}
+    uncertainty, point = _uncertainty(collector, values, on, config.device)
+    shares = _flag_shares(collector, on)
     return Report(
         file=str(path), shot=info.shot, source=info.source or opened.source.name, start=info.start,
         config_origin=opened.config_origin,
@@ -230,6 +332,7 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
         duration=float(t[-1] - t[0]) if len(t) else 0.0, discharge_on_s=float(dt[on].sum()),
         samples=int(len(t)), samples_by_quantity=samples_by, rejected=rejected, lost=lost, damage=damage,
         limits=limits, alarm_origin=alarm_origin, alarms=alarms, quantities=stats,
-        verdicts=tuple(_verdicts(values, on)), on_above=on_above, traces=traces,
+        verdicts=tuple(_verdicts(values, on, _not_judged(values, on, shares))), on_above=on_above, traces=traces,
         limit_specs=tuple(getattr(config, "limits", ())),
+        uncertainty=uncertainty, operating_point=point, flag_shares=shares,
     )

@@ -16,7 +16,7 @@ from monitor.report.build import Report
 __all__ = ["plot_report", "draw_report", "te_for_debye_length", "te_for_debye_number"]
 
 
-def te_for_debye_length(ne: np.ndarray, length: float) -> np.ndarray:
+def te_for_debye_length(ne: np.ndarray, length: float | np.ndarray) -> np.ndarray:
     """Te (eV) at which the Debye length sqrt(eps0 Te / (e ne)) equals ``length`` (m)."""
     return length**2 * ne * ELEMENTARY_CHARGE / EPSILON_0
 
@@ -81,7 +81,7 @@ def draw_report(report: Report) -> Any:
     names = [n for n in names if n in tr]
     fig = plt.figure(figsize=(13, max(6.0, 2.1 * len(names))), constrained_layout=True)
     grid = fig.add_gridspec(max(len(names), 1), 2, width_ratios=[1.6, 1.0])
-    axes = []
+    axes: list[Any] = []
     for i, name in enumerate(names):
         ax = fig.add_subplot(grid[i, 0], sharex=axes[0] if axes else None)
         axes.append(ax)

@@ -54,6 +54,10 @@ def to_json(report: Report) -> dict[str, Any]:
                                 **({} if q.held is None else {"held_samples": q.held})}
                        for q in report.quantities},
         "criteria": [dict(v) for v in report.verdicts],
+        "uncertainty": {"operating_point": dict(report.operating_point),
+                        "quantities": {r["name"]: {k: v for k, v in r.items() if k != "name"}
+                                       for r in report.uncertainty}},
+        "flags": dict(report.flag_shares),
     }
     return _clean(out)
 
@@ -127,4 +131,33 @@ def to_markdown(report: Report) -> str:
         share = v.get("held_fraction")
         extra = f" (held at {100 * share:.0f} % of sampled discharge-on points)" if share is not None else ""
         lines.append(f"- {mark}: {v.get('text')}{extra}")
+    lines += _uncertainty_section(report)
     return "\n".join(lines) + "\n"
+
+
+def _uncertainty_section(report: Report) -> list[str]:
+    """Validity flags over the shot, and linear sigma beside the Monte Carlo interval at the median point."""
+    from monitor.physics.nonlinear import RHO_MAX
+    from monitor.physics.tables import warning_text
+
+    lines = ["", "## Validity flags (share of discharge-on samples)", ""]
+    if not report.flag_shares:
+        lines.append("None raised.")
+    for code, share in sorted(report.flag_shares.items()):
+        lines.append(f"- {100 * share:.1f} %: {warning_text(code)}")
+    point = report.operating_point
+    lines += ["", "## Uncertainty at the median operating point (discharge on)", ""]
+    if not report.uncertainty:
+        lines.append("No reading carried an uncertainty: nothing to propagate.")
+        return lines
+    inputs = ", ".join(f"{k} = {_g(v)} ± {_g(point.get('sigma', {}).get(k))}" if k in point.get("sigma", {})
+                       else f"{k} = {_g(v)}" for k, v in point.get("inputs", {}).items())
+    lines += [f"Inputs (medians, with their median sigma): {inputs}. Linear (first-order) sigma beside the "
+              f"16th-84th percentile interval of a {point.get('draws', 0)}-draw Monte Carlo; \"no\" where the "
+              f"second-order term exceeds {RHO_MAX:g} of the linear sigma (then use the interval).", "",
+              "| quantity | unit | value | ± sigma (linear) | 16th percentile | 84th percentile | linear ± holds |",
+              "|---|---|---|---|---|---|---|"]
+    for r in report.uncertainty:
+        lines.append(f"| {r['name']} | {r['unit']} | {_g(r['value'])} | {_g(r['sigma'], 3)} | {_g(r['p16'])} | "
+                     f"{_g(r['p84'])} | {'no' if r['nonlinear'] else 'yes'} |")
+    return lines

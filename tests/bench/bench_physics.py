@@ -2,6 +2,12 @@
 
 Run: python tests/bench/bench_physics.py [--quick]
 Prints samples/s per batch size and the ratios; takes about a minute. A script, not a timed test.
+
+    python tests/bench/bench_physics.py --baseline DIR [--rounds 5]
+
+times derive() of this tree beside the checkout in DIR (e.g. `git archive <commit> | tar -x -C DIR`),
+one subprocess each, alternating rounds, and prints this tree's time over the baseline's per batch
+size (1.00 = as fast), plus the cost of the nonlinearity check when inputs carry wide (20 %) sigmas.
 """
 
 from __future__ import annotations
@@ -31,14 +37,15 @@ K_FLOOR = EPSILON_0 / ELEMENTARY_CHARGE
 LOOP_CAP = 5_000          # the pure-Python loop is timed on at most this many samples
 
 
-def best(fn: Callable[[], object], budget: float = 0.4, max_runs: int = 200) -> float:
-    """Best wall time of fn over repeated runs within about ``budget`` seconds (at least 2 runs)."""
+def best(fn: Callable[[], object], budget: float = 0.4, max_runs: int = 200,
+         clock: Callable[[], float] = time.perf_counter) -> float:
+    """Best time of fn (by ``clock``) over repeated runs within about ``budget`` seconds (at least 2 runs)."""
     times: list[float] = []
     start = time.perf_counter()
     while len(times) < 2 or (time.perf_counter() - start < budget and len(times) < max_runs):
-        t0 = time.perf_counter()
+        t0 = clock()
         fn()
-        times.append(time.perf_counter() - t0)
+        times.append(clock() - t0)
     return min(times)
 
 
@@ -109,10 +116,62 @@ def python_loop(n: int) -> tuple[Callable[[], object], int]:
     return run, m
 
 
+SIDE_BATCHES = (1, 100, 1000, 10_000, 100_000)
+
+
+def worker(wide: bool) -> None:
+    """Print the best derive() time (s) per SIDE_BATCHES size, one line of numbers (for --baseline)."""
+    out = []
+    for n in SIDE_BATCHES:
+        x, s = make_inputs(n)
+        if wide:
+            s = {k: 4.0 * v for k, v in s.items()}          # 20 %: the nonlinearity check runs
+        derive(x, DEVICE, s)
+        # CPU time of this thread: on a shared machine other processes' load does not count
+        if n < 1000:
+            out.append(best(lambda: [derive(x, DEVICE, s) for _ in range(20)], 0.3, 400, time.thread_time) / 20)
+        else:
+            out.append(best(lambda: derive(x, DEVICE, s), 0.3 if n < 100_000 else 1.0, 200, time.thread_time))
+    print(" ".join(f"{t:.6e}" for t in out))
+
+
+def side_by_side(baseline: str, rounds: int) -> None:
+    """This tree's derive() time over the baseline's, alternating subprocesses; the best of each is kept."""
+    import os
+
+    here = str(Path(__file__).resolve().parents[2])
+    best_of: dict[str, list[float]] = {}
+    for _ in range(rounds):
+        for label, root, wide in (("baseline", baseline, False), ("this tree", here, False),
+                                  ("this tree, 20 % sigmas", here, True)):
+            env = dict(os.environ, PYTHONPATH=root)
+            out = subprocess.run([sys.executable, __file__, "--worker"] + (["--wide"] if wide else []),
+                                 env=env, check=True, capture_output=True, text=True, cwd=root).stdout
+            times = [float(v) for v in out.split()]
+            best_of[label] = [min(a, b) for a, b in zip(best_of[label], times)] if label in best_of else times
+    base = best_of["baseline"]
+    print(f"derive() with 5 % sigmas (the normal path), best of {rounds} alternating rounds")
+    print(f"{'batch':>8} {'baseline us':>12} {'this tree us':>13} {'ratio':>7} {'20 % sigmas us':>15} {'ratio':>7}")
+    for i, n in enumerate(SIDE_BATCHES):
+        ours, wide = best_of["this tree"][i], best_of["this tree, 20 % sigmas"][i]
+        print(f"{n:>8} {base[i] * 1e6:>12.1f} {ours * 1e6:>13.1f} {ours / base[i]:>7.3f} {wide * 1e6:>15.1f} "
+              f"{wide / base[i]:>7.3f}")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="skip the 1e6 batch")
+    parser.add_argument("--baseline", metavar="DIR", help="time derive() beside the checkout in DIR")
+    parser.add_argument("--rounds", type=int, default=5)
+    parser.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
+    parser.add_argument("--wide", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
+    if args.worker:
+        worker(args.wide)
+        return
+    if args.baseline:
+        side_by_side(args.baseline, args.rounds)
+        return
     batches = BATCHES[:-1] if args.quick else BATCHES
     # first, before the big batches fill this process's memory
     script = Path(sys.executable).with_name("regime")

@@ -38,9 +38,12 @@ def test_installed_script_json_is_the_contract() -> None:
     out = subprocess.run([str(SCRIPT), "calc", "--json", *FULL_ARGS], capture_output=True, text=True, timeout=60)
     assert out.returncode == 0, out.stderr
     data = json.loads(out.stdout)
-    assert set(data) == {q.name for q in DERIVED}
+    assert set(data) == {q.name for q in DERIVED} | {"notes"}
+    # p0 given without sigma_en: the default's note travels in the JSON itself
+    assert {"code": "sigma_en_default",
+            "text": "sigma_en default 1e-19 m^2 is an order-of-magnitude value (common practice)"} in data.pop("notes")
     for name, entry in data.items():
-        assert set(entry) == {"value", "unit", "sigma"}
+        assert set(entry) - {"flags"} == {"value", "unit", "sigma"}
         assert isinstance(entry["value"], float) and math.isfinite(entry["value"])
         assert entry["unit"] == ALL[name].unit
         assert entry["sigma"] is None or (isinstance(entry["sigma"], float) and entry["sigma"] >= 0)
@@ -56,6 +59,7 @@ def test_installed_script_json_is_the_contract() -> None:
 def test_json_gives_every_quantity_its_inputs_allow(capsys: pytest.CaptureFixture[str], args: list[str]) -> None:
     data = _calc_json(capsys, *args)
     have = {a.split("=")[0] for a in args}
+    assert isinstance(data.pop("notes"), list)
     assert set(data) == {name for name, needs in REQUIRES.items() if set(needs) <= have}
 
 
@@ -88,14 +92,14 @@ def test_table_shows_a_failed_criterion(capsys: pytest.CaptureFixture[str]) -> N
 
 
 @pytest.mark.parametrize(("args", "message"), [
-    (["ne=-5", "Te=3"], "ne=-5 is not a meaningful reading"),
-    (["ne=nan", "Te=3"], "ne=nan is not a meaningful reading"),
-    (["ne=1e17", "Te=1e9"], "Te=1e+09 is not a meaningful reading"),
+    (["ne=-5", "Te=3"], "ne = -5 m^-3 is outside its physical range 1 to 1e+33 m^-3"),
+    (["ne=nan", "Te=3"], "ne = nan m^-3 is outside its physical range"),
+    (["ne=1e17", "Te=1e9"], "Te = 1e+09 eV is outside its physical range 0.0001 to 1e+07 eV"),
     (["ne=5e16", "Te=3furlong"], "unknown unit 'furlong'"),
     (["foo=3"], "unknown key 'foo'"),
     (["ne"], "expected KEY=VALUE"),
     (["ne=1e17", "ne=2e17"], "ne given twice"),
-    (["ne=1e17", "Te=3", "L=0m"], "L must be finite and > 0"),
+    (["ne=1e17", "Te=3", "L=0m"], "L = 0 m is outside its physical range"),
     (["ne=1e17", "Te=3", "Z=1±0.1"], "Z takes no uncertainty"),
     ([], "nothing to derive"),
 ])
@@ -109,7 +113,7 @@ def test_bad_arguments_exit_2_with_a_clear_message(capsys: pytest.CaptureFixture
 def test_installed_script_exit_code_on_bad_input() -> None:
     out = subprocess.run([str(SCRIPT), "calc", "ne=-1", "Te=3"], capture_output=True, text=True, timeout=60)
     assert out.returncode == 2
-    assert "ne=-1 is not a meaningful reading" in out.stderr and out.stdout == ""
+    assert "ne = -1 m^-3 is outside its physical range" in out.stderr and out.stdout == ""
 
 
 def _strict_json(text: str) -> dict:
@@ -129,6 +133,7 @@ def test_json_at_zero_field_says_why_a_value_is_missing(capsys: pytest.CaptureFi
     # omega_c = q B / m is simply 0 at B = 0, and the Hall parameter with it: real values, no reason
     for name in ("electron_cyclotron_frequency", "ion_cyclotron_frequency", "hall_parameter"):
         assert data[name]["value"] == 0.0 and "reason" not in data[name]
+    data.pop("notes")
     assert all("reason" not in e for n, e in data.items() if n not in ("electron_gyroradius", "ion_gyroradius",
                                                                         "plasma_beta"))
 
@@ -141,13 +146,16 @@ def test_json_says_why_a_sigma_is_missing_at_zero_field(capsys: pytest.CaptureFi
     assert entry["reason"].startswith("sigma not defined at B = 0")
 
 
-def test_json_says_a_value_overflowed(capsys: pytest.CaptureFixture[str]) -> None:
-    # beta ~ 1e20 * 3 eV / B^2 with B = 1e-200 T is ~1e400, beyond the float64 range (IEEE 754 max ~1.8e308)
-    assert main(["calc", "--json", "ne=1e20", "Te=3", "B=1e-200"]) == 0
-    data = _strict_json(capsys.readouterr().out)
-    assert data["plasma_beta"]["value"] is None
-    assert data["plasma_beta"]["reason"].startswith("beyond the float range")
-    assert "reason" not in data["electron_gyroradius"]          # ~4e194 m: absurd but a finite number
+def test_a_value_that_overflows_says_so() -> None:
+    # calc refuses B = 1e-200 T now (outside its physical range); derive() itself still takes it, and
+    # beta ~ 1e20 * 3 eV / B^2 is ~1e400, beyond the float64 range (IEEE 754 max ~1.8e308)
+    from monitor.commands.calc import compute, reasons
+
+    values = {"ne": 1e20, "Te": 3.0, "B": 1e-200}
+    _, derived = compute(values, {})
+    why = reasons(values, {}, derived)
+    assert why["plasma_beta"].startswith("beyond the float range")
+    assert "electron_gyroradius" not in why                     # ~4e194 m: absurd but a finite number
 
 
 def test_table_at_zero_field_gives_the_reason_not_inf(capsys: pytest.CaptureFixture[str]) -> None:

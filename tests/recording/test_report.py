@@ -205,3 +205,50 @@ def test_report_without_matplotlib_says_so(tmp_path: Path) -> None:
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120, cwd=ROOT, env=env())
     assert "RC 2" in out.stdout and "matplotlib" in out.stderr
+
+
+def test_report_gives_the_monte_carlo_interval_and_the_flags(tmp_path: Path) -> None:
+    # the synthetic shot with ne +-20 % and Te +-10 % from the channel map: at these sigmas the mean free
+    # path's linear sigma is flagged, and the report puts our own Monte Carlo's percentiles beside it
+    # (GUM Supplement 1, JCGM 101:2008, propagation of distributions)
+    csv, cfg = _shot(tmp_path)
+    cfg.write_text(CONFIG + '[channels]\nne = {quantity = "ne", uncertainty = "20%"}\n'
+                   'Te = {quantity = "Te", uncertainty = "10%"}\n')
+    r = build_report(csv, config_path=str(cfg))
+    assert r.operating_point["inputs"] == {"ne": 5e16, "Te": 3.0}        # medians while on
+    assert r.operating_point["sigma"] == pytest.approx({"ne": 1e16, "Te": 0.3})
+    rows = {row["name"]: row for row in r.uncertainty}
+    mfp = rows["electron_mean_free_path"]
+    assert mfp["nonlinear"] and mfp["p16"] < mfp["value"] < mfp["p84"]
+    assert mfp["p84"] - mfp["value"] > mfp["value"] - mfp["p16"]          # skewed upward (~Te^2 / ne)
+    assert not rows["electron_plasma_frequency"]["nonlinear"]
+    # every discharge-on sample carries the flag (the pipeline's per-sample warnings)
+    assert r.flag_shares["nonlinear_sigma:electron_mean_free_path"] == pytest.approx(1.0)
+    data = to_json(r)
+    assert data["uncertainty"]["quantities"]["electron_mean_free_path"]["nonlinear"] is True
+    text = to_markdown(r)
+    assert "## Uncertainty at the median operating point" in text
+    assert "| electron_mean_free_path | m |" in text and "| no |" in text
+    assert "## Validity flags" in text
+
+
+def test_report_without_sigmas_says_nothing_to_propagate(tmp_path: Path) -> None:
+    csv, cfg = _shot(tmp_path)
+    r = build_report(csv, config_path=str(cfg))
+    assert r.uncertainty == ()
+    assert "No reading carried an uncertainty" in to_markdown(r)
+
+
+def test_report_does_not_judge_what_the_formulas_do_not_cover(tmp_path: Path) -> None:
+    # a dense cold shot (ne 1e28 m^-3, Te 1 eV): the NRL Coulomb logarithm is -2.3 there, below its
+    # validity, so the collision rates are withheld and "collective" is not judged (no negative rate)
+    t = np.arange(20) * 0.1
+    csv = tmp_path / "dense.csv"
+    csv.write_text("t,ne,Te\n" + "".join(f"{a!r},1e28,1.0\n" for a in t.tolist()))
+    r = build_report(csv)
+    verdicts = {v["name"]: v for v in r.verdicts}
+    assert verdicts["collective"]["holds"] is None
+    assert "not judged: strongly coupled (lnLambda < 2)" in verdicts["collective"]["text"]
+    assert r.flag_shares["coulomb_logarithm_small"] == pytest.approx(1.0)
+    assert r.flag_shares["electrons_strongly_coupled"] == pytest.approx(1.0)
+    assert "not judged: strongly coupled" in to_markdown(r)
