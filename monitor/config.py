@@ -11,6 +11,7 @@ from typing import TYPE_CHECKING, Any, Mapping
 from monitor.channels import BASE_KEYS, ChannelMap, parse_channels
 from monitor.errors import ConfigError
 from monitor.model import Device
+from monitor.physics.ranges import DEVICE_FIELDS, check_value
 from monitor.units import UnitError, parse_value
 
 if TYPE_CHECKING:
@@ -31,17 +32,6 @@ _DEVICE_KEYS: dict[str, tuple[str, str]] = {
     "gas_temperature": ("gas_temperature", "temperature_gas"),
     "wave_frequency": ("wave_frequency", "frequency"),
     "sigma_en": ("sigma_en", "area"),
-}
-# [device] key -> (lowest, highest) plausible value in canonical units, the unit, whole numbers only.
-# Wide on purpose: they stop typing slips (1e308, a charge of 1.5), not unusual devices.
-_DEVICE_RANGES: dict[str, tuple[float, float, str, bool]] = {
-    "length": (1e-7, 1e4, "m", False),               # a microplasma to a large linear device
-    "ion_mass": (1.0, 1000.0, "u", False),           # a proton (1.007 u) to heavy cluster ions
-    "A": (1.0, 1000.0, "u", False),
-    "Z": (1.0, 118.0, "", True),                     # a charge state: a whole number up to the heaviest element
-    "gas_temperature": (1.0, 1e5, "K", False),
-    "wave_frequency": (1.0, 1e18, "Hz", False),      # audio to beyond ultraviolet lasers
-    "sigma_en": (1e-25, 1e-15, "m^2", False),        # momentum-transfer cross sections are ~1e-21 to 1e-18 m^2
 }
 MAX_CONFIG_BYTES = 1 << 20                           # a config file is read up to this size, never more
 _TIME_MAX = 1e6                                      # s: the longest stale_after, max_age, window, ... (11.6 days)
@@ -230,14 +220,10 @@ def _parse_device(table: Mapping[str, Any], path: str | Path | None) -> Device:
     for key, (attr, dimension) in _DEVICE_KEYS.items():
         if key in table:
             value = _value(table[key], dimension, path, f"device.{key}")
-            if not value > 0:
-                raise ConfigError(path, f"device.{key}", f"must be positive, got {table[key]!r}")
-            lo, hi, unit, whole = _DEVICE_RANGES[key]
-            if whole and value != round(value):
-                raise ConfigError(path, f"device.{key}", f"must be a whole number, got {table[key]!r}")
-            if not lo <= value <= hi:
-                raise ConfigError(path, f"device.{key}", f"{table[key]!r} is outside the accepted range "
-                                                         f"{lo:g} to {hi:g}{' ' + unit if unit else ''}")
+            # the one table of physical ranges, as `regime calc` checks its inputs
+            problem = check_value(DEVICE_FIELDS[attr], value)
+            if problem:
+                raise ConfigError(path, f"device.{key}", f"{table[key]!r}: {problem}")
             kwargs[attr] = value
     return Device(**kwargs)
 
