@@ -24,7 +24,11 @@ class Batch:
     ``Te``, ``Ti``, ``B``, ``p0``) in canonical units; NaN marks a key that a
     reading did not carry. ``sigma`` holds per-sample standard uncertainties
     for some of the keys. ``seq`` is an int64 array of sequence numbers, or
-    None when the source numbers nothing.
+    None when the source numbers nothing. ``auxiliary`` names columns a
+    source carries for information, not as readings (a raw signal and a
+    diagnostic's intermediate results, e.g. an interferometer's I/Q and
+    fringe flags): the channel map neither maps them nor counts them as
+    unknown keys.
     """
 
     source: str
@@ -33,6 +37,7 @@ class Batch:
     sigma: Mapping[str, np.ndarray] = field(default_factory=dict)
     seq: np.ndarray | None = None
     t_from_source: bool = True
+    auxiliary: frozenset[str] = frozenset()
 
     def __post_init__(self) -> None:
         n = len(self.t)

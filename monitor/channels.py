@@ -80,7 +80,7 @@ class ChannelMap:
         unknown: dict[str, int] = {}
         t = np.asarray(batch.t, dtype=np.float64)
         for key, col in batch.columns.items():
-            if key not in self.channels:
+            if key not in self.channels and key not in batch.auxiliary:
                 carried = int(np.count_nonzero(~np.isnan(np.asarray(col, dtype=np.float64))))
                 if carried:
                     unknown[key] = carried

@@ -7,19 +7,26 @@ import math
 import os
 import re
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 from urllib.parse import parse_qsl
 
 from adapters.base import Source
 from monitor.config import Config
 from monitor.errors import UsageError
 
+if TYPE_CHECKING:
+    from monitor.diagnostics.probe_spec import ProbeSpec
+
 __all__ = ["open_source", "is_live", "SPEC_HELP"]
 
 SPEC_HELP = ("tcp://HOST:PORT or ipc://PATH (ZeroMQ), serial:PORT[@BAUD], /dev/tty..., loop://, "
              "socket://HOST:PORT (serial lines), sim:NAME[?seed=N&rate=HZ&speed=X|max&duration=S&loop=1], "
-             "or the path of a CSV file or recording")
+             "sim:probe[?rate=SWEEPS_PER_S&points=N&seed=N&speed=X|max&duration=S] (probe sweeps), "
+             "sim:interferometer (I/Q), the path of a CSV file or recording (a sweep file when the config has "
+             "a [probe] table), or relay+tcp://HOST:PORT / relay+ipc://PATH (a console on another run's relay: "
+             "regime watch only)")
 _SIM_PARAMS = ("seed", "rate", "speed", "duration", "loop")
+_PROBE_PARAMS = ("seed", "rate", "speed", "duration", "points")
 _BAUD = re.compile(r"^(?P<port>.+)@(?P<baud>\d+)$")
 
 
@@ -46,9 +53,28 @@ def _looks_like_file(spec: str) -> bool:
 
 def open_source(spec: str, config: Config | None = None) -> Source:
     """The adapter for ``spec`` (not opened yet). A spec that names no known
-    kind of source, or bad parameters, raise UsageError (exit 2)."""
+    kind of source, or bad parameters, raise UsageError (exit 2). With an
+    ``[interferometer]`` table (or for ``sim:interferometer``) the adapter is
+    wrapped, so that its phase or I/Q columns become density readings."""
     config = config if config is not None else Config()
     spec = spec.strip()
+    return _with_interferometer(spec, _open(spec, config), config)
+
+
+def _with_interferometer(spec: str, source: Source, config: Config) -> Source:
+    from monitor.diagnostics.interferometer_config import interferometer_config
+
+    setup = interferometer_config(config.raw, config.path)
+    if setup is None and spec.partition("?")[0] == "sim:interferometer":
+        from monitor.diagnostics.interferometer_source import simulator_config
+        setup = simulator_config()
+    if setup is None:
+        return source
+    from monitor.diagnostics.interferometer_source import InterferometerSource
+    return InterferometerSource(source, setup, on_above=config.on_above)
+
+
+def _open(spec: str, config: Config) -> Source:
     if not spec:
         raise UsageError(f"empty SOURCE; give {SPEC_HELP}")
     if spec.startswith(("tcp://", "ipc://")):
@@ -83,11 +109,16 @@ def open_source(spec: str, config: Config | None = None) -> Source:
                              "write /dev/PORT@BAUD, e.g. /dev/ttyUSB0@115200")
         return _serial(spec, spec, None)
     if spec.startswith("sim:"):
-        return _sim(spec)
+        return _sim(spec, config)
+    if spec.startswith("relay+"):
+        raise UsageError(f"{spec}: a relay is watched as a console (regime watch {spec}), not replayed or recorded")
     if "://" in spec:
         scheme = spec.split("://", 1)[0]
         raise UsageError(f"{spec}: unknown scheme {scheme!r}; give {SPEC_HELP}")
     path = Path(spec)
+    if path.is_file() and "probe" in config.raw:          # a sweep file, when the config describes a probe
+        ProbeSweepSource = _adapter("monitor.diagnostics.probe_source", "ProbeSweepSource", spec)
+        return _construct(ProbeSweepSource, spec, path, probe=_probe_spec(config), speed=None)
     if path.is_file():
         CsvSource = _adapter("adapters.csv_file", "CsvSource", spec)
         kwargs: dict[str, Any] = {"speed": None, "numeric": tuple(config.channels.channels)}
@@ -133,18 +164,21 @@ def _serial(spec: str, port: str, baud: int | None) -> Source:
     return _construct(SerialSource, spec, port)
 
 
-def _sim(spec: str) -> Source:
+def _sim(spec: str, config: Config) -> Source:
+    """sim:NAME[?...]: the simulator's scenarios; sim:probe (our probe model's sweeps, with ``points``
+    instead of ``loop``); sim:interferometer (I/Q, wrapped by open_source)."""
     body = spec[len("sim:"):]
     name, _, query = body.partition("?")
     if not name:
         raise UsageError(f"{spec}: sim: needs a scenario name, e.g. sim:steady")
+    allowed = _PROBE_PARAMS if name == "probe" else _SIM_PARAMS
     kwargs: dict[str, Any] = {}
     for key, value in parse_qsl(query, keep_blank_values=True, strict_parsing=False):
-        if key not in _SIM_PARAMS:
-            raise UsageError(f"{spec}: unknown parameter {key!r}; accepted: {', '.join(_SIM_PARAMS)}")
+        if key not in allowed:
+            raise UsageError(f"{spec}: unknown parameter {key!r}; accepted: {', '.join(allowed)}")
         try:
-            if key == "seed":
-                kwargs["seed"] = int(value)
+            if key in ("seed", "points"):
+                kwargs[key] = int(value)
             elif key == "loop":
                 if value.lower() not in ("0", "1", "true", "false", "yes", "no"):
                     raise ValueError(value)
@@ -160,8 +194,22 @@ def _sim(spec: str) -> Source:
             raise UsageError(f"{spec}: bad value {value!r} for {key}") from None
     if query and not kwargs and "=" not in query:
         raise UsageError(f"{spec}: cannot read the parameters {query!r}; write ?seed=1&rate=1000")
+    if name == "probe":
+        ProbeSweepSource = _adapter("monitor.diagnostics.probe_source", "ProbeSweepSource", spec)
+        return _construct(ProbeSweepSource, spec, None, probe=_probe_spec(config), **kwargs)
+    if name == "interferometer":
+        InterferometerSimSource = _adapter("adapters.sim_interferometer", "InterferometerSimSource", spec)
+        return _construct(InterferometerSimSource, spec, name, **kwargs)
     SimSource = _adapter("adapters.simulated", "SimSource", spec)
     return _construct(SimSource, spec, name, **kwargs)
+
+
+def _probe_spec(config: Config) -> ProbeSpec | None:
+    """The [probe] table as a ProbeSpec (ConfigError names file and key), None without the table."""
+    if "probe" not in config.raw:
+        return None
+    from monitor.diagnostics.probe_config import probe_spec
+    return probe_spec(config)
 
 
 def spec_is_path(spec: str) -> bool:

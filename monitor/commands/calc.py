@@ -25,7 +25,12 @@ KEYS: dict[str, str] = {
     "A": "ion mass in u, default 39.948 (argon)",
     "Z": "ion charge number, default 1",
     "sigma_en": "electron-neutral cross section (m^2, cm^2), default 1e-19 m^2",
+    "phase": "interferometer phase shift (rad, mrad, deg), with f= and Lpath=: the line-averaged ne",
+    "Lpath": "interferometer chord length through the plasma (m, cm, mm)",
+    "passes": "times the beam crosses the chord, default 1 (2 for a double pass)",
+    "method": "phase to density: auto (default), linear or exact",
 }
+_INTERFEROMETER = ("phase", "Lpath", "passes", "method")     # monitor.diagnostics.interferometer_calc
 _INPUTS = ("ne", "Te", "Ti", "B", "p0")
 _NO_SIGMA = ("A", "Z")
 _LIMITS = {"ne": "finite, > 0 and <= 1e33 m^-3", "Te": "finite, > 0 and <= 1e7 eV",
@@ -65,6 +70,7 @@ def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, flo
 
     values: dict[str, float] = {}
     sigmas: dict[str, float] = {}
+    interferometer: dict[str, str] = {}
     for item in items:
         key, sep, text = item.partition("=")
         key = key.strip()
@@ -72,14 +78,22 @@ def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, flo
             raise UsageError(f"expected KEY=VALUE, got {item!r}; keys: {', '.join(KEYS)}")
         if key not in KEYS:
             raise UsageError(f"unknown key {key!r}; keys: {', '.join(KEYS)}")
-        if key in values:
+        if key in values or key in interferometer:
             raise UsageError(f"{key} given twice")
+        if key in _INTERFEROMETER:
+            interferometer[key] = text
+            continue
         value, sigma = parse_value(text, DIMENSION_OF[key])
         if sigma is not None and key in _NO_SIGMA:
             raise UsageError(f"{key} takes no uncertainty")
         values[key] = value
         if sigma is not None:
             sigmas[key] = sigma
+    if interferometer:
+        reading = phase_reading(interferometer, values, sigmas)
+        values["ne"] = reading.density
+        if math.isfinite(reading.sigma):
+            sigmas["ne"] = reading.sigma
     from monitor.physics.ranges import check_value
 
     for key, value in values.items():
@@ -90,6 +104,15 @@ def parse_assignments(items: list[str]) -> tuple[dict[str, float], dict[str, flo
         raise UsageError("nothing to derive: give readings, e.g. ne=5e16m-3 Te=3eV "
                          f"(keys: {', '.join(KEYS)})")
     return values, sigmas
+
+
+def phase_reading(texts: dict[str, str], values: dict[str, float], sigmas: dict[str, float]) -> Any:
+    """The interferometer keys' line-averaged density (a PhaseReading); UsageError when ne= is given too."""
+    from monitor.diagnostics.interferometer_calc import density_from_calc_keys
+
+    if "ne" in values:
+        raise UsageError("give ne= or phase=, not both")
+    return density_from_calc_keys(texts, values.get("f"), sigmas.get("f"))
 
 
 def compute(values: dict[str, float], sigmas: dict[str, float]) -> tuple[Any, Any]:
@@ -233,6 +256,10 @@ def run(args: argparse.Namespace) -> int:
             print(f"regime calc: warning: {code}", file=sys.stderr)
         return 0
     print(render(values, sigmas, device, derived, mc))
+    texts = {k.strip(): v for k, _, v in (a.partition("=") for a in args.assignments) if k.strip() in _INTERFEROMETER}
+    if texts:
+        from monitor.diagnostics.interferometer_calc import density_from_calc_keys, describe
+        print(describe(density_from_calc_keys(texts, values.get("f"), sigmas.get("f"))))
     return 0
 
 

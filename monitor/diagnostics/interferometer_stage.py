@@ -20,6 +20,7 @@ from monitor.physics.derive import _warm_allocator
 __all__ = ["InterferometerStage", "StageCounts", "OUTPUT_COLUMNS", "FLOOR"]
 
 # columns the stage adds besides its output (``ne`` by default); NaN where a row carried no phase
+_RAW = frozenset({"phase", "I_q", "Q_q", "discharge"})    # the raw signal (and the simulator's own truth)
 OUTPUT_COLUMNS = ("phase_shift", "fringe_ok", "fringe_reason", "fringe_jumps", "ne_exact", "ne_floored",
                   "iq_amplitude")
 # what a density at or below zero is reported as (``nonpositive = "floor"``): the pipeline refuses densities
@@ -119,7 +120,7 @@ class InterferometerStage:
         columns = {k: np.concatenate([p.columns[k] for p in parts]) for k in parts[0].columns}
         sigma = {k: np.concatenate([p.sigma[k] for p in parts]) for k in parts[0].sigma}
         return Batch(source=batch.source, t=batch.t, columns=columns, sigma=sigma, seq=batch.seq,
-                     t_from_source=batch.t_from_source)
+                     t_from_source=batch.t_from_source, auxiliary=parts[0].auxiliary)
 
     def _process(self, batch: Batch) -> Batch:
         cols = batch.columns
@@ -292,11 +293,14 @@ class InterferometerStage:
             ne_sigma = np.where(keep, np.nan if old_sigma is None else np.asarray(old_sigma, np.float64), ne_sigma)
         columns[cfg.output] = ne
         sig[cfg.output] = ne_sigma
+        # the raw signal and the stage's own results travel for information; the density is the reading
+        auxiliary = batch.auxiliary | (set(columns) & (_RAW | set(OUTPUT_COLUMNS)))
         return Batch(source=batch.source, t=batch.t, columns=columns, sigma=sig, seq=batch.seq,
-                     t_from_source=batch.t_from_source)
+                     t_from_source=batch.t_from_source, auxiliary=frozenset(auxiliary))
 
 
 def _rows(batch: Batch, lo: int, hi: int) -> Batch:
     return Batch(source=batch.source, t=batch.t[lo:hi], columns={k: v[lo:hi] for k, v in batch.columns.items()},
                  sigma={k: v[lo:hi] for k, v in batch.sigma.items()},
-                 seq=None if batch.seq is None else batch.seq[lo:hi], t_from_source=batch.t_from_source)
+                 seq=None if batch.seq is None else batch.seq[lo:hi], t_from_source=batch.t_from_source,
+                 auxiliary=batch.auxiliary)

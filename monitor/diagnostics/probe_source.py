@@ -44,15 +44,17 @@ def readings(source: str, results: ProbeResults, block: SweepBlock, rows: np.nda
         r = int(rows[k])
         raw = json.dumps({"sweep": int(results.sweep[k]), "t": float(results.t[k]),
                           "V": block.V[r].tolist(), "I": block.I[r].tolist()}).encode()
+        sweep = int(results.sweep[k])
         rejections.append(reject(source, str(results.reason[k]), raw, received,
-                                 f"probe sweep {int(results.sweep[k])} (seq={int(results.sweep[k])})"))
+                                 f"probe sweep {sweep} (seq={sweep})", seq=(sweep, sweep)))
     if not keep.any():
         return None, rejections
     cols = {key: results[key][keep] for key in COLUMNS}
     cols["probe_doubtful"] = (results.quality[keep] == "doubtful").astype(np.float64)
     sigma = {key: results[f"sigma_{key}"][keep] for key in COLUMNS}
     batch = Batch(source=source, t=results.t[keep] + t_offset, columns=cols, sigma=sigma,
-                  seq=results.sweep[keep].astype(np.int64), t_from_source=True)
+                  seq=results.sweep[keep].astype(np.int64), t_from_source=True,
+                  auxiliary=frozenset(cols) - {"ne", "Te"})      # the sweep's other results, for information
     return batch, rejections
 
 

@@ -273,7 +273,8 @@ def _row_rejection(batch: Batch, cols: list[tuple[str, np.ndarray]], i: int, rea
 def _slice(batch: Batch, a: int, b: int) -> Batch:
     return Batch(source=batch.source, t=batch.t[a:b], columns={k: v[a:b] for k, v in batch.columns.items()},
                  sigma={k: v[a:b] for k, v in batch.sigma.items()},
-                 seq=None if batch.seq is None else batch.seq[a:b], t_from_source=batch.t_from_source)
+                 seq=None if batch.seq is None else batch.seq[a:b], t_from_source=batch.t_from_source,
+                 auxiliary=batch.auxiliary)
 
 
 def _concat(a: Frame, b: Frame) -> Frame:
