@@ -79,9 +79,9 @@ def binary_span(header: object, payload_len: int, max_frame: int = MAX_FRAME) ->
     and the gap its other readings leave in the seq counts them as lost. So each seq number counts once."""
     if not isinstance(header, dict):
         return 1, None
-    fields, n, seq, dtype = header.get("fields"), header.get("n"), header.get("seq"), header.get("dtype", "<f8")
-    seq_ok = type(seq) is int and 0 <= seq <= SEQ_MAX
-    one = (1, (seq, seq) if seq_ok else None)
+    fields, n, raw_seq, dtype = header.get("fields"), header.get("n"), header.get("seq"), header.get("dtype", "<f8")
+    seq = raw_seq if type(raw_seq) is int and 0 <= raw_seq <= SEQ_MAX else None
+    one: tuple[int, tuple[int, int] | None] = (1, (seq, seq) if seq is not None else None)
     if not isinstance(fields, list) or not fields:
         return one
     known = isinstance(dtype, str) and dtype in DTYPES
@@ -90,7 +90,7 @@ def binary_span(header: object, payload_len: int, max_frame: int = MAX_FRAME) ->
     if type(n) is not int or not 1 <= n <= max(1, max_frame // per):
         return one
     count = max(1, min(n, -(-payload_len // per))) if known else n
-    if seq_ok and seq <= SEQ_MAX - count:
+    if seq is not None and seq <= SEQ_MAX - count:
         return count, (seq, seq + count - 1)
     return count, None
 

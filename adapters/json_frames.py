@@ -162,9 +162,9 @@ def parse_json_frames(frames: Iterable[bytes], source: str, received: float, *, 
     for frame in frames:
         res = _json_row(frame, max_frame)
         if isinstance(res[0], str):
-            rejects.append(_reject(source, res[0], frame, received, str(res[1]), seq=res[2]))  # type: ignore[misc]
+            rejects.append(_reject(source, res[0], frame, received, str(res[1]), seq=res[2]))
             continue
-        keys, vals, t, seq = res  # type: ignore[misc]
+        keys, vals, t, seq = res
         sig = (keys, t is not None, seq is not None)
         if sig != cur:
             close()

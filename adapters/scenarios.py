@@ -117,7 +117,7 @@ class Instruments:
     B: Instrument
 
     def of(self, channel: str) -> Instrument:
-        return getattr(self, channel)  # type: ignore[no-any-return]
+        return getattr(self, channel)
 
 
 # Sizes: see the module docstring ("from memory" for the calibration parts).

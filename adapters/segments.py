@@ -59,8 +59,8 @@ def segments_to_batches(segs: list[Segment], source: str, received: float) -> li
                 cols[k][pos:pos + m] = s.values[:, c]
             pos += m
         from_source = run[0].t is not None
-        t = np.concatenate([s.t for s in run]) if from_source else np.full(n, received)  # type: ignore[misc]
-        seq = np.concatenate([s.seq for s in run]) if run[0].seq is not None else None  # type: ignore[misc]
+        t = np.concatenate([s.t for s in run]) if from_source else np.full(n, received)
+        seq = np.concatenate([s.seq for s in run]) if run[0].seq is not None else None
         out.append(Batch(source=source, t=t, columns=cols, seq=seq, t_from_source=from_source))
         i = j
     return out
@@ -88,7 +88,7 @@ def merge_batches(batches: Sequence[Batch], max_len: int = 262_144) -> list[Batc
                 keys.update(dict.fromkeys(b.columns))
             cols = {k: np.concatenate([b.columns[k] if k in b.columns else np.full(len(b), np.nan) for b in run]) for k in keys}
             sig = {k: np.concatenate([b.sigma[k] for b in run]) for k in run[0].sigma}
-            seq = np.concatenate([b.seq for b in run]) if run[0].seq is not None else None  # type: ignore[misc]
+            seq = np.concatenate([b.seq for b in run]) if run[0].seq is not None else None
             t = np.concatenate([b.t for b in run])
             assert len(t) == n
             out.append(Batch(source=run[0].source, t=t, columns=cols, sigma=sig, seq=seq, t_from_source=run[0].t_from_source))
