@@ -34,21 +34,22 @@ def _state(data: _Point, outside: bool, off_map: bool) -> list[list[LegendItem]]
     return [[("◆", _POINT), (" now" + where, _LABEL)]]
 
 
-def _marks(data: _Point) -> list[list[LegendItem]]:
+def _marks(data: _Point, beyond: bool) -> list[list[LegendItem]]:
     items: list[list[LegendItem]] = [[("⠂", _OLD), ("⠂", _MID), ("⠂", _NEW), (" trail, older fainter", _DIM)]]
     if any(b is not None for b in data.box):
         items.append([("⡇", _BOX), (" envelope", _DIM)])
-    items.append([("◀", _DIM), (" data beyond the view", _DIM)])
+    if beyond:
+        items.append([("◀", _DIM), (" data beyond the view", _DIM)])
     return items
 
 
 def _guides(data: _Point) -> list[list[LegendItem]]:
     items: list[list[LegendItem]] = []
     if data.length:
-        items.append([("⠒⠒", _DEBYE), (" Debye length λD = L/10ᵏ", _DIM)])
-    items.append([("⠂ ⠂", _ND), (" ND particles per Debye sphere", _DIM)])
+        items.append([("⠒⠒", _DEBYE), (" λD: Debye length", _DIM)])
+    items.append([("⠂ ⠂", _ND), (" ND: per Debye sphere", _DIM)])
     if data.wave_frequency:
-        items.append([("⡆", _CUT), (" cutoff density of the wave", _DIM)])
+        items.append([("⡆", _CUT), (" cutoff", _DIM)])
     return items
 
 
@@ -70,9 +71,10 @@ def _fill(items: list[list[LegendItem]], width: int, gap: int = 2) -> tuple[list
     return row, rest
 
 
-def legend_rows(data: _Point, *, outside: bool, off_map: bool, width: int, rows: int) -> list[list[LegendItem]]:
-    """``rows`` rows (1 or 2) of legend items that fit ``width`` cells."""
-    first = _state(data, outside, off_map) + _marks(data)
+def legend_rows(data: _Point, *, outside: bool, off_map: bool, width: int, rows: int,
+                beyond: bool = False) -> list[list[LegendItem]]:
+    """``rows`` rows (1 or 2) of legend items that fit ``width`` cells; ``beyond``: some data lie beyond the view."""
+    first = _state(data, outside, off_map) + _marks(data, beyond or off_map)
     if rows <= 1:
         row, _rest = _fill(first + _guides(data), width)
         return [row]

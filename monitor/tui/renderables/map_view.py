@@ -13,7 +13,7 @@ PERCENTILES = (2.0, 98.0)
 """The span of accepted data the view must hold (our choice): a burst of outliers under 2 % of the trail
 does not rescale the map; it is drawn as arrows at the edge."""
 
-MAX_REACH = 2.0
+MAX_REACH = 1.0
 """Decades the view may reach beyond the envelope's box on each side to follow the data (our choice)."""
 
 _PAD = 0.5     # decades of room around what must be seen

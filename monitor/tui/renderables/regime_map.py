@@ -262,6 +262,7 @@ def frame_cells(bg: MapBackground, data: MapData) -> tuple[np.ndarray, np.ndarra
     """(code points, style indices) of one frame: the cached background with the fading trail, the
     outliers as edge arrows, the point (with a clear halo, so it reads larger than the grid) and the legend."""
     codes, style = bg.codes.copy(), bg.style.copy()
+    beyond = False
     m, w, h = bg.margin, bg.plot_w, bg.plot_h
     pc, ps = codes[:h, m:m + w], style[:h, m:m + w]
     ne, te = np.asarray(data.trail_ne, dtype=np.float64), np.asarray(data.trail_te, dtype=np.float64)
@@ -277,7 +278,8 @@ def frame_cells(bg: MapBackground, data: MapData) -> tuple[np.ndarray, np.ndarra
             pc[hit] = BRAILLE_BASE + acc[hit].astype(np.uint32)
             ps[hit] = st
         out = (xs < 0) | (xs >= 2 * w) | (ys < 0) | (ys >= 4 * h)
-        if out.any():
+        beyond = bool(out.any())
+        if beyond:
             _edge_arrows(pc, ps, xs[out], ys[out], w, h, S_DIM)
     outside = data.outside()
     off_map = False
@@ -296,7 +298,8 @@ def frame_cells(bg: MapBackground, data: MapData) -> tuple[np.ndarray, np.ndarra
         else:
             off_map = True
             _edge_arrows(pc, ps, np.array([x]), np.array([y]), w, h, st)
-    for i, row_cells in enumerate(legend_rows(data, outside=outside, off_map=off_map, width=bg.width, rows=bg.legend_h)):
+    for i, row_cells in enumerate(legend_rows(data, outside=outside, off_map=off_map, width=bg.width, rows=bg.legend_h,
+                                                 beyond=beyond)):
         r = bg.height - bg.legend_h + i
         codes[r, :] = 0x20
         style[r, :] = S_BASE

@@ -144,7 +144,9 @@ class WatchScreen(Screen[None]):
             self.notify(message, timeout=4)
 
     def _act(self, action: str, *args: Any) -> None:
+        """Do ``action`` and show its effect at once from a fresh snapshot (not at the next timer tick)."""
         self._say(self.feed.act(action, *args))
+        self.show(self.feed.snapshot(), self.settings.clock(), force=True)
 
     @property
     def selected(self) -> str | None:
