@@ -205,7 +205,7 @@ def painted():
     app.exit()
 def first_number():
     tick()
-    snap = app.watch.last
+    snap = app.watch_screen.last
     # the first frame whose snapshot holds a density, reported once the refresh after it has run
     if not state["done"] and snap is not None and "ne" in snap.latest:
         state["done"] = True
@@ -259,7 +259,7 @@ def key_latencies(endpoint: str, presses: int, config_path: str) -> dict[str, li
                                    "units": [], "quit": []}
 
     def state(name: str | None) -> AlarmState | None:
-        rows = app.watch.query_one(AlarmList).rows()
+        rows = app.watch_screen.query_one(AlarmList).rows()
         return next((a.state for a in rows if a.alarm == name), None)
 
     async def until(condition) -> None:
@@ -282,18 +282,18 @@ def key_latencies(endpoint: str, presses: int, config_path: str) -> dict[str, li
 
     async def main() -> None:
         async with app.run_test(size=(160, 50)):
-            await until(lambda: app.watch.is_mounted)
+            await until(lambda: app.watch_screen.is_mounted)
             await until(lambda: sum(a.state == AlarmState.UNACKNOWLEDGED
-                                    for a in app.watch.query_one(AlarmList).rows()) >= ALARMS)
+                                    for a in app.watch_screen.query_one(AlarmList).rows()) >= ALARMS)
             for _ in range(min(presses, ALARMS // 2)):
-                name = app.watch.query_one(AlarmList).selected
+                name = app.watch_screen.query_one(AlarmList).selected
                 out["acknowledge"].append(await press("a", lambda: state(name) == AlarmState.ACKNOWLEDGED))
             for _ in range(min(presses, ALARMS // 2)):
-                name = app.watch.query_one(AlarmList).selected
+                name = app.watch_screen.query_one(AlarmList).selected
                 out["shelve (z: dialog)"].append(await press("z", lambda: isinstance(app.screen, ShelveDialog)))
                 out["shelve (1: shelved)"].append(await press("1", lambda: state(name) == AlarmState.SHELVED))
                 await press("down", lambda: True)
-            readings = app.watch.query_one(Readings)
+            readings = app.watch_screen.query_one(Readings)
             for i in range(presses):
                 want = "m⁻³" if i % 2 == 0 else "cm⁻³"
                 out["units"].append(await press("u", lambda: want in str(readings.render())))

@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
-from typing import Protocol
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from monitor.tui.renderables.regime_map import MapData
 
 __all__ = ["legend_rows", "LegendItem"]
 
@@ -12,16 +15,7 @@ LegendItem = tuple[str, int]   # text, style index of monitor.tui.renderables.re
 _FAINT, _DIM, _LABEL, _DEBYE, _ND, _CUT, _BOX, _OLD, _MID, _NEW, _POINT, _ALERT = 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12
 
 
-class _Point(Protocol):
-    point: tuple[float, float] | None
-    box: tuple[float | None, float | None, float | None, float | None]
-    wave_frequency: float | None
-    length: float | None
-    judged: bool
-    stale_age: str | None
-
-
-def _state(data: _Point, outside: bool, off_map: bool) -> list[list[LegendItem]]:
+def _state(data: MapData, outside: bool, off_map: bool) -> list[list[LegendItem]]:
     if data.point is None:
         return [[("no point yet (needs ne and Te)", _DIM)]]
     if data.stale_age is not None:
@@ -34,7 +28,7 @@ def _state(data: _Point, outside: bool, off_map: bool) -> list[list[LegendItem]]
     return [[("◆", _POINT), (" now" + where, _LABEL)]]
 
 
-def _marks(data: _Point, beyond: bool) -> list[list[LegendItem]]:
+def _marks(data: MapData, beyond: bool) -> list[list[LegendItem]]:
     items: list[list[LegendItem]] = [[("⠂", _OLD), ("⠂", _MID), ("⠂", _NEW), (" trail, older fainter", _DIM)]]
     if any(b is not None for b in data.box):
         items.append([("⡇", _BOX), (" envelope", _DIM)])
@@ -43,7 +37,7 @@ def _marks(data: _Point, beyond: bool) -> list[list[LegendItem]]:
     return items
 
 
-def _guides(data: _Point) -> list[list[LegendItem]]:
+def _guides(data: MapData) -> list[list[LegendItem]]:
     items: list[list[LegendItem]] = []
     if data.length:
         items.append([("⠒⠒", _DEBYE), (" λD: Debye length", _DIM)])
@@ -71,7 +65,7 @@ def _fill(items: list[list[LegendItem]], width: int, gap: int = 2) -> tuple[list
     return row, rest
 
 
-def legend_rows(data: _Point, *, outside: bool, off_map: bool, width: int, rows: int,
+def legend_rows(data: MapData, *, outside: bool, off_map: bool, width: int, rows: int,
                 beyond: bool = False) -> list[list[LegendItem]]:
     """``rows`` rows (1 or 2) of legend items that fit ``width`` cells; ``beyond``: some data lie beyond the view."""
     first = _state(data, outside, off_map) + _marks(data, beyond or off_map)
