@@ -189,9 +189,10 @@ def _age(snap: Snapshot, name: str, now: float) -> float | None:
 
 
 def _stale_alarm_active(snap: Snapshot, source: str | None = None) -> bool:
-    """A stale-data alarm (the engine's, data time) is active, for ``source`` or for any source."""
+    """A stale-data alarm (the engine's, data time) is active, for ``source`` or for any source: its
+    condition holds (unacknowledged or acknowledged; returned-unacknowledged means it has cleared)."""
     for a in snap.alarms:
-        if a.kind == "stale" and a.state not in (AlarmState.NORMAL, AlarmState.SUPPRESSED, AlarmState.OUT_OF_SERVICE):
+        if a.kind == "stale" and a.state in (AlarmState.UNACKNOWLEDGED, AlarmState.ACKNOWLEDGED):
             if source is None or source in a.alarm:
                 return True
     return False

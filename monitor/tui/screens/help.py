@@ -38,6 +38,23 @@ _LONG = {
 }
 
 
+MAP_HELP = """The ne–Te map
+Electron density n_e across, electron temperature T_e up, both in decades (log scale); the units follow u.
+◆  the operating point now; the dotted trail behind it fades with age (older is fainter).
+⠒⠒ solid lines: constant Debye length, labelled λD=L/10ᵏ (L is the device size from the config).
+   Left of λD=L the Debye length exceeds the device: not quasi-neutral there.
+⠂ ⠂ dotted lines: constant ND, the number of electrons in a Debye sphere (ND=1e3 …).
+   ND falls as density rises: right of ND=1 there is under one electron per sphere (not a plasma).
+⡆  dashed vertical line: the cutoff density of the wave, named with its frequency (e.g. cutoff 2.45 GHz).
+   To its right the wave cannot propagate (overdense).
+⡇  the box: the envelope from the limits on ne and Te.
+✖  in alarm colour: the point lies outside the envelope while a discharge is on. With the discharge off
+   the envelope is not judged (regime alarms are suppressed by design) and the point stays ◆.
+◇  the last point, drawn hollow and dim when its readings are stale.
+◀▶▲▼ on an edge: data beyond the view. The view holds the envelope and the 2nd-98th percentile of the
+   recent readings (at most a decade past the envelope), so a few outliers never rescale it."""
+
+
 def key_rows(groups: list[tuple[str, list[Binding]]]) -> list[tuple[str, str, str]]:
     """(group, keys, what it does) for each binding."""
     rows = []
@@ -73,8 +90,10 @@ class HelpScreen(ModalScreen[None]):
             yield Static("Keys — the footer shows the main ones; ctrl+p lists every action by name.", classes="hint")
             yield Static(table)
             yield Static("Marks: ▲▲ urgent  ▲ high  △ advisory  ⊡ latched  ⇢ predicted  ◆ operating point  "
-                         "✖ outside the box  ◼ STALE source. Colour always comes with one of these words or marks.",
+                         "✖ outside the envelope  ◇ stale point  ◼ STALE source. Colour always comes with one of these "
+                         "words or marks. A struck, dimmed number is not live: its age is written beside it.",
                          classes="hint")
+            yield Static(MAP_HELP, classes="hint", id="map-help")
 
     def action_close(self) -> None:
         self.dismiss(None)

@@ -113,6 +113,7 @@ class WatchScreen(Screen[None]):
         unacked = bool(snap and any(a.state in UNACKED for a in snap.alarms))
         flash = unacked and int(now * 2.0) % 2 == 0
         strip = self.query_one(StatusStrip)
+        strip.now, strip.stale_after = now, self.settings.stale_after
         strip.units, strip.bell, strip.flash, strip.snapshot = self.units, self.bell, flash, snap
         tick = time.monotonic()
         if force or tick - self._numbers_at >= 1.0 / NUMBERS_HZ:
