@@ -129,7 +129,9 @@ class WatchScreen(Screen[None]):
         sources = self.query_one(SourcesPanel)
         sources.now, sources.stale_after, sources.error = now, self.settings.stale_after, self.feed.error
         sources.snapshot = snap
-        self.query_one(PlaybackBar).snapshot = snap
+        playback = self.query_one(PlaybackBar)
+        playback.now, playback.stale_after = now, self.settings.stale_after
+        playback.snapshot = snap
         if snap is not None:
             self._ring(snap)
 

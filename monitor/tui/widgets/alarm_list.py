@@ -119,15 +119,17 @@ class AlarmList(Widget, can_focus=True):
             return Text("○ nothing to attend to" + note, style=palette.DIM)
         now = snap.data_time if snap is not None else None
         wide = (self.size.width or 80) >= 100
-        # what to leave out first when the row is too wide: description, age, tripping value, limit
+        # left out first when the rows are too wide: description, age, priority word (its glyph stays),
+        # tripping value, limit
         table = grid_text([self._cells(a, now, wide) for a in rows], max_width=self.size.width or None,
-                          drop=(7, 2, 5, 6))
+                          drop=(8, 3, 1, 6, 7))
         if note:
             return Group(table, Text(note, style=palette.DIM))
         return table
 
     def _cells(self, a: AlarmView, now: float | None, wide: bool) -> list[Text]:
-        """prio, state, age, name, live value, tripping value, limit (or prediction), description."""
+        """mark and priority glyph, priority word, state, age, name, live value, tripping value, limit (or
+        the prediction), description."""
         unacked = a.state in UNACKED
         if a.state in (AlarmState.SHELVED, AlarmState.SUPPRESSED, AlarmState.OUT_OF_SERVICE):
             style = palette.DIM
@@ -152,15 +154,19 @@ class AlarmList(Widget, can_focus=True):
         if a.kind == "predictive":
             # one phrase: what is predicted and when
             when = f" in {fmt_duration(max(0.0, a.predicted_time - now))}" if a.predicted_time is not None and now is not None else ""
-            limit_text = Text(f"reaches limit {limit}{when}" if limit else f"predicted{when}", style=palette.CAUTION)
+            limit_text = Text(f"reaches {limit}{when}" if limit else f"predicted{when}", style=palette.CAUTION)
             trip_text, description = "", ""
+        elif a.kind == "stale":
+            limit_text = Text(f"no data for {fmt_duration(a.limit)}" if a.limit is not None else "", style=palette.DIM)
+            trip_text, live_text, description = "", "", a.description
         else:
             limit_text = Text(f"limit {limit}" if limit else "", style=palette.DIM)
             description = a.description
         waiting = feed.awaiting_reset(a)
         state_word = STATE_WORDS.get(a.state, str(a.state)) + (" ⊡ latched, reset (r)" if waiting else " ⊡" if a.latched else "")
         name = a.alarm.replace(":predict", " ⇢")
-        return [Text(mark + PRIORITY_MARK.get(a.priority, str(a.priority)), style=style),
+        glyph, _sp, word = PRIORITY_MARK.get(a.priority, str(a.priority)).partition(" ")
+        return [Text(mark + glyph, style=style), Text(word, style=style),
                 Text(state_word, style=state_style), Text(since, style=palette.DIM), Text(name, style=palette.NORMAL),
                 Text(live_text, style=palette.NORMAL), Text(trip_text, style=palette.DIM), limit_text,
                 Text(description if wide else "", style=palette.DIM)]

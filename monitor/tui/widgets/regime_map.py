@@ -10,6 +10,7 @@ from textual.reactive import reactive
 from textual.strip import Strip
 from textual.widget import Widget
 
+from monitor.alarms.events import AlarmState
 from monitor.snapshot import Snapshot
 from monitor.tui import feed
 from monitor.tui.formatting import fmt_age
@@ -38,7 +39,10 @@ def map_data(snap: Snapshot | None, *, guides: Guides, now: float, stale_after: 
         trail_te = snap.trail.get("Te", _EMPTY)
         if trail_ne.size != trail_te.size:
             trail_ne, trail_te = _EMPTY, _EMPTY
-        judged = feed.discharge_state(snap, now, stale_after) == "on"
+        # judged as the engine judges: a discharge on and the envelope's limits not suppressed by design
+        suppressed = any(a.state == AlarmState.SUPPRESSED for a in snap.alarms
+                         if a.kind == "limit" and a.quantity in ("ne", "Te"))
+        judged = feed.discharge_state(snap, now, stale_after) == "on" and not suppressed
         quality = feed.value_quality(snap, "ne", now, stale_after)
         if quality.stale:
             stale_age = fmt_age(quality.age)

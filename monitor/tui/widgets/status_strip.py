@@ -39,10 +39,15 @@ def _parts(snapshot: Snapshot, *, title: str, units: str, bell: bool, flash: boo
     discharge = feed.discharge_state(snapshot, now, stale_after)
     parts.append({"on": (" ◉ discharge ON", palette.NORMAL, 0), "off": (" ○ discharge off", palette.NORMAL, 0)}.get(
         discharge, (" ? discharge unknown", palette.CAUTION, 0)))
+    quality = feed.value_quality(snapshot, "ne", now, stale_after)
     stale = feed.stale_sources(snapshot, now, stale_after)
-    if stale:
-        names = ", ".join(v.name for v in stale)
-        parts.append((f"  ◼ data STALE {fmt_age(stale[0].age)}: {names}", palette.CAUTION + palette.LOUD, 0))
+    if stale or quality.stale:
+        views = list(stale)
+        if not views and quality.source is not None:
+            views = [feed.source_view(snapshot, quality.source, now, stale_after)]
+        names = ", ".join(v.name + ("" if v.state == "stale" else f" {v.state}") for v in views)
+        age = quality.age if quality.stale else stale[0].age
+        parts.append((f"  ◼ data STALE {fmt_age(age)}" + (f": {names}" if names else ""), palette.CAUTION + palette.LOUD, 0))
     elif snapshot.data_time is not None:
         parts.append((f"  {fmt_data_time(snapshot.data_time)}", palette.DIM, 3))
     counts = alarm_counts(snapshot)
