@@ -23,8 +23,9 @@ def _state(data: MapData, outside: bool, off_map: bool) -> list[list[LegendItem]
     where = " (off the map: arrow at the edge)" if off_map else ""
     if outside and data.judged:
         return [[("✖", _ALERT), (" OUTSIDE the envelope" + where, _ALERT)]]
-    if outside:
-        return [[("◆", _POINT), (" now, outside the envelope" + where, _LABEL), (" — discharge off, not judged", _DIM)]]
+    if outside:   # a discharge off or the limits suppressed by design: said in words, no alarm colour
+        return [[("◆", _POINT), (" now outside, not judged" + where, _LABEL)],
+                [("(no discharge or suppressed by design)", _DIM)]]
     return [[("◆", _POINT), (" now" + where, _LABEL)]]
 
 
