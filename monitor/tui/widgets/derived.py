@@ -62,7 +62,8 @@ class DerivedTable(SnapshotView):
                 any_row = True
         if not any_row:
             return Text("no derived quantities yet", style=palette.DIM)
-        table = grid_text(lines, right=(1,), max_width=self.size.width or None)
+        # too narrow: the uncertainty goes first, never the unit
+        table = grid_text(lines, right=(1,), max_width=self.size.width or None, drop=(2,))
         if stale:   # said in words above the struck values, never by colour alone
             return Text.assemble(Text(f"STALE inputs: last reading {fmt_age(stale[0].age)} ago\n", style=palette.CAUTION), table)
         return table

@@ -55,4 +55,6 @@ class Readings(SnapshotView):
             rows.append(cells)
         if not rows:
             return Text("no base readings yet", style=palette.DIM)
-        return grid_text(rows, right=(2 if wide else 1,), max_width=width)
+        # too narrow: the trend goes first, then the uncertainty; never the number or its unit
+        trend, unc = (6, 4) if wide else (5, 3)
+        return grid_text(rows, right=(2 if wide else 1,), max_width=width, drop=(trend, unc))

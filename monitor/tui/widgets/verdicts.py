@@ -116,7 +116,7 @@ class Verdicts(SnapshotView):
             cells += [Text(shown, style=palette.STALE if judge == "unknown" else palette.DIM)] if wide else []
             cells.append(Text(margin, style=style if strong else palette.DIM))
             rows.append(cells)
-        table = grid_text(rows, max_width=self.size.width or None)
+        table = grid_text(rows, max_width=self.size.width or None, drop=(2,) if wide else ())
         if note:   # its own line, so it never widens a column and pushes the margins off the edge
             table.append("\n")
             table.append_text(Text(note, style=palette.CAUTION if judge == "unknown" else palette.DIM))
