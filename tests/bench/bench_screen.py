@@ -275,7 +275,7 @@ def key_latencies(endpoint: str, presses: int, config_path: str) -> dict[str, li
         app._driver.send_message(events.Key(key, key if len(key) == 1 else None))
         await until(effect)
         app.call_after_refresh(painted.set)
-        await painted.wait()
+        await asyncio.wait_for(painted.wait(), 10)
         return time.perf_counter() - t0
 
     quit_at = {"t": 0.0}
