@@ -16,7 +16,7 @@ from monitor.model import Frame
 from monitor.snapshot import AlarmView, Snapshot
 
 __all__ = ["Feed", "EventTap", "SessionFeed", "FixedFeed", "REPLAY_ACTIONS", "Quality", "SourceView",
-           "discharge_state", "value_quality", "source_view", "stale_sources", "trip_value", "awaiting_reset"]
+           "discharge_state", "value_quality", "data_clock", "source_view", "stale_sources", "trip_value", "awaiting_reset"]
 
 # Replay controls the session forwards to its source; each is optional.
 REPLAY_ACTIONS = ("pause", "resume", "step", "seek", "set_speed")
@@ -256,6 +256,14 @@ def discharge_state(snap: Snapshot, now: float, stale_after: float) -> str:
     if not value_quality(snap, "ne", now, stale_after).fresh:
         return "unknown"
     return "on" if snap.discharge_on else "off"
+
+
+def data_clock(snap: Snapshot) -> float | None:
+    """The data time to show and to age alarms by: the snapshot's, or in a replay just after a seek
+    (before the first reading there) the replay position, so the clock never goes blank."""
+    if snap.data_time is not None:
+        return snap.data_time
+    return snap.replay.time if snap.replay is not None else None
 
 
 def trip_value(a: AlarmView) -> tuple[float | None, str]:

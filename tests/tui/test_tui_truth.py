@@ -193,3 +193,15 @@ async def test_derived_table_keeps_its_units_at_80x24(fixed_settings) -> None:
         text = text_of(table)
         assert "…" not in text
         assert re.search(r"λD\s+29\.0 .*µm", text) and re.search(r"n0\s+4\.80e14 .*cm⁻³", text)
+
+
+async def test_clock_and_alarm_ages_stay_after_a_seek(fixed_settings) -> None:
+    """Just after a seek (no reading at the target yet) the header shows the replay position and alarm
+    ages are counted from it, never a blank clock or a dash."""
+    snap = replace(built_snapshot(alarms=(alarm(since=20.0),), replay=True), data_time=None)
+    app = RegimeApp(FixedFeed(snap), fixed_settings)
+    async with app.run_test(size=(160, 50)) as pilot:
+        w = app.watch_screen
+        await wait_for(pilot, lambda: bool(w.query_one(AlarmList).rows()))
+        assert "22.50 s" in text_of(w.query_one(StatusStrip))         # the replay position (22.5 s)
+        assert "2.5 s" in text_of(w.query_one(AlarmList))             # 22.5 - 20.0

@@ -117,7 +117,7 @@ class AlarmList(Widget, can_focus=True):
         note = self._hidden_note(snap)
         if not rows:
             return Text("○ nothing to attend to" + note, style=palette.DIM)
-        now = snap.data_time if snap is not None else None
+        now = feed.data_clock(snap) if snap is not None else None
         wide = (self.size.width or 80) >= 100
         # left out first when the rows are too wide: description, age, priority word (its glyph stays),
         # tripping value, limit

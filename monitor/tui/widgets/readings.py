@@ -56,5 +56,5 @@ class Readings(SnapshotView):
         if not rows:
             return Text("no base readings yet", style=palette.DIM)
         # too narrow: the trend goes first, then the uncertainty; never the number or its unit
-        trend, unc = (6, 4) if wide else (5, 3)
-        return grid_text(rows, right=(2 if wide else 1,), max_width=width, drop=(trend, unc))
+        drop_trend, drop_unc = (6, 4) if wide else (5, 3)
+        return grid_text(rows, right=(2 if wide else 1,), max_width=width, drop=(drop_trend, drop_unc))

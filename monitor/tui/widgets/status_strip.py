@@ -48,8 +48,8 @@ def _parts(snapshot: Snapshot, *, title: str, units: str, bell: bool, flash: boo
         names = ", ".join(v.name + ("" if v.state == "stale" else f" {v.state}") for v in views)
         age = quality.age if quality.stale else stale[0].age
         parts.append((f"  ◼ data STALE {fmt_age(age)}" + (f": {names}" if names else ""), palette.CAUTION + palette.LOUD, 0))
-    elif snapshot.data_time is not None:
-        parts.append((f"  {fmt_data_time(snapshot.data_time)}", palette.DIM, 3))
+    elif feed.data_clock(snapshot) is not None:
+        parts.append((f"  {fmt_data_time(feed.data_clock(snapshot))}", palette.DIM, 3))
     counts = alarm_counts(snapshot)
     unacked = [a for a in snapshot.alarms if a.state in UNACKED]
     for what, n in counts:
