@@ -39,20 +39,22 @@ _LONG = {
 
 
 MAP_HELP = """The ne–Te map
-Electron density n_e across, electron temperature T_e up, both in decades (log scale); the units follow u.
-◆  the operating point now; the dotted trail behind it fades with age (older is fainter).
-⠒⠒ solid lines: constant Debye length, labelled λD=L/10ᵏ (L is the device size from the config).
-   Left of λD=L the Debye length exceeds the device: not quasi-neutral there.
-⠂ ⠂ dotted lines: constant ND, the number of electrons in a Debye sphere (ND=1e3 …).
-   ND falls as density rises: right of ND=1 there is under one electron per sphere (not a plasma).
-⡆  dashed vertical line: the cutoff density of the wave, named with its frequency (e.g. cutoff 2.45 GHz).
-   To its right the wave cannot propagate (overdense).
-⡇  the box: the envelope from the limits on ne and Te.
-✖  in alarm colour: the point lies outside the envelope while a discharge is on. With the discharge off
-   the envelope is not judged (regime alarms are suppressed by design) and the point stays ◆.
-◇  the last point, drawn hollow and dim when its readings are stale.
-◀▶▲▼ on an edge: data beyond the view. The view holds the envelope and the 2nd-98th percentile of the
-   recent readings (at most a decade past the envelope), so a few outliers never rescale it."""
+Electron density across, electron temperature up, both in decades; units follow u.
+◆   the operating point now; its trail fades with age (older dots fainter).
+⠒⠒  solid lines: constant Debye length, λD=L/10ᵏ (L: the device size in the config).
+    Left of λD=L the Debye length exceeds the device: not quasi-neutral there.
+⠂ ⠂ dotted lines: constant ND, electrons in a Debye sphere (ND=1e3 ...). ND falls
+    as density rises: right of ND=1 there is under one electron per sphere.
+⡆   dashed line: the cutoff density of the wave, named with its frequency
+    (cutoff 2.45 GHz); to its right the wave cannot propagate (overdense).
+⡇   the box: the envelope, from the limits on ne and Te.
+✖   in alarm colour: outside the envelope while a discharge is on. With no
+    discharge, or the limits suppressed by design, nothing is judged: the point
+    stays ◆ and the legend says "not judged".
+◇   the last point, hollow and dim: its readings are stale.
+◀▶▲▼ on an edge: data beyond the view. The view holds the envelope and the
+    2nd-98th percentile of recent readings (at most a decade past the envelope),
+    so a few outliers never rescale it."""
 
 
 def key_rows(groups: list[tuple[str, list[Binding]]]) -> list[tuple[str, str, str]]:
