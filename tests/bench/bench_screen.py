@@ -10,6 +10,8 @@ Run: python tests/bench/bench_screen.py [--seconds 8] [--rate 100000] [--presses
    thread's CPU (share of one core; budget 20 % at 160x50) and the refreshes per second.
 3. Keys: under the pilot, while ingesting, the time from a key press to its effect in the widgets
    (acknowledge, shelve, units) and to the app's exit (quit); p99 budget 100 ms, quit 0.5 s.
+4. The demo at 1x (simulated source at 1 kHz, the screen at 160x50 under run_test): the whole
+   process's CPU and the screen thread's, over --seconds (budget 25 % of a core in all).
 """
 
 from __future__ import annotations
@@ -307,6 +309,40 @@ def key_latencies(endpoint: str, presses: int, config_path: str) -> dict[str, li
     return out
 
 
+def demo_cpu(seconds: float) -> dict[str, float]:
+    """CPU share of one core of this process and of its screen thread while the demo runs at 1x."""
+    from monitor.commands.demo import envelope_path
+    from monitor.config import load_config
+    from monitor.session import Session, make_engine
+    from monitor.sources import open_source
+    from monitor.tui.feed import EventTap
+    from monitor.tui.launch import make_app, settings_for
+    config = load_config(envelope_path())
+    tap = EventTap()
+    session = Session(open_source("sim:demo?seed=0&speed=1&loop=1", config), config, sinks=[tap],
+                      engine=make_engine(config), live=True)
+    app = make_app(session, tap, settings_for(config, title="regime demo", bell=False))
+    out: dict[str, float] = {}
+
+    async def main() -> None:
+        async with app.run_test(size=(160, 50)) as pilot:
+            await pilot.pause(3.0)               # past start-up: the steady state is measured
+            me = psutil.Process()
+            c0, m0 = me.cpu_times(), _thread_cpu(threading.main_thread().native_id)
+            t0 = time.perf_counter()
+            await pilot.pause(seconds)
+            dt = time.perf_counter() - t0
+            c1, m1 = me.cpu_times(), _thread_cpu(threading.main_thread().native_id)
+            out["process"] = (c1.user + c1.system - c0.user - c0.system) / dt
+            out["screen"] = (m1 - m0) / dt
+            app.stop.set()
+            app.exit()
+
+    asyncio.run(main())
+    session.close()
+    return out
+
+
 def _p99(values: list[float]) -> float:
     return float(np.percentile(values, 99)) if values else float("nan")
 
@@ -363,6 +399,9 @@ def main() -> None:
         budget = 0.5 if name == "quit" else 0.1
         print(f"  {name:<20} n={len(values):>3}  median {np.median(values) * 1e3:6.1f} ms  p99 {_p99(values) * 1e3:6.1f} ms"
               f"  p99 / {budget * 1e3:.0f} ms budget = {_p99(values) / budget:.2f}")
+    demo = demo_cpu(args.seconds)
+    print(f"demo at 1x, 160x50: process {demo['process']:.0%} of a core (screen thread {demo['screen']:.0%}); "
+          f"process / 25 % budget = {demo['process'] / 0.25:.2f}")
     print(f"load average during the run: {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
 
 
