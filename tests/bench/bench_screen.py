@@ -287,14 +287,21 @@ def key_latencies(endpoint: str, presses: int, config_path: str) -> dict[str, li
             await until(lambda: app.watch_screen.is_mounted)
             await until(lambda: sum(a.state == AlarmState.UNACKNOWLEDGED
                                     for a in app.watch_screen.query_one(AlarmList).rows()) >= ALARMS)
+            alarms = app.watch_screen.query_one(AlarmList)
             for _ in range(min(presses, ALARMS // 2)):
-                name = app.watch_screen.query_one(AlarmList).selected
+                # the first row is an unacknowledged alarm (they are listed first): select it, untimed
+                await press("home", lambda: alarms.selected == alarms.rows()[0].alarm)
+                name = alarms.selected
+                assert state(name) == AlarmState.UNACKNOWLEDGED
                 out["acknowledge"].append(await press("a", lambda: state(name) == AlarmState.ACKNOWLEDGED))
             for _ in range(min(presses, ALARMS // 2)):
-                name = app.watch_screen.query_one(AlarmList).selected
+                await press("home", lambda: alarms.selected == alarms.rows()[0].alarm)
+                name = alarms.selected
+                assert state(name) == AlarmState.UNACKNOWLEDGED
                 out["shelve (z: dialog)"].append(await press("z", lambda: isinstance(app.screen, ShelveDialog)))
-                out["shelve (1: shelved)"].append(await press("1", lambda: state(name) == AlarmState.SHELVED))
-                await press("down", lambda: True)
+                # shelved, and the dialog gone (a refresh callback set on a closing dialog would never run)
+                out["shelve (1: shelved)"].append(await press("1", lambda: state(name) == AlarmState.SHELVED
+                                                              and app.screen is app.watch_screen))
             readings = app.watch_screen.query_one(Readings)
             for i in range(presses):
                 want = "m⁻³" if i % 2 == 0 else "cm⁻³"
