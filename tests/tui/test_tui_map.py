@@ -149,3 +149,29 @@ async def test_help_explains_the_map(fixed_settings) -> None:
         help_text = str(app.screen.query_one("#map-help").render())
         for words in ("Debye length", "ND", "cutoff", "envelope", "fades", "beyond the view", "not judged"):
             assert words in help_text
+
+
+async def test_a_moved_point_is_painted_with_no_stale_row(fixed_settings) -> None:
+    from dataclasses import replace
+
+    from textual.geometry import Region
+    snap = built_snapshot()
+    feed = FixedFeed(snap)
+    app = RegimeApp(feed, fixed_settings)
+    async with app.run_test(size=(160, 50)) as pilot:
+        the_map = app.watch_screen.query_one(RegimeMapView)
+        await wait_for(pilot, lambda: the_map.frames >= 2)
+        before = list(the_map._strips)
+        moved = replace(snap, latest={**snap.latest, "ne": (1.2e17, None), "Te": (5.0, None)})
+        feed._snapshot = moved                       # the next frames draw the moved point
+        await wait_for(pilot, lambda: the_map._strips != before)
+        await pilot.pause(0.2)
+        assert any(a is b for a, b in zip(before, the_map._strips))       # unchanged rows kept as they were
+        # what would be painted now equals the frame's rows, line for line (no stale row left behind)
+        w, h = the_map.outer_size
+        painted = the_map.render_lines(Region(0, 0, w, h))
+        top, left = the_map.gutter.top, the_map.gutter.left
+        for y, strip in enumerate(the_map._strips):
+            want = "".join(seg.text for seg in strip)
+            got = "".join(seg.text for seg in painted[top + y])[left:left + len(want)]
+            assert got == want, f"row {y} painted stale"

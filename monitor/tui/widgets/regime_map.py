@@ -121,11 +121,23 @@ class RegimeMapView(Widget):
         codes, style = frame_cells(bg, data)
         self.frames += 1
         old = self._cells
-        if old is not None and old[0].shape == codes.shape and np.array_equal(old[0], codes) \
-                and np.array_equal(old[1], style):
+        table = self._style_table()
+        if old is not None and old[0].shape == codes.shape and len(self._strips) == codes.shape[0]:
+            # only the rows whose cells changed are rebuilt (the trail and the point touch a few rows)
+            changed = np.flatnonzero((old[0] != codes).any(axis=1) | (old[1] != style).any(axis=1))
+            if changed.size == 0:
+                return
+            self._cells = (codes, style)
+            rows = segment_rows(codes[changed], style[changed], table)
+            strips = list(self._strips)
+            for r, row in zip(changed.tolist(), rows):
+                strips[r] = Strip(row, size.width)
+            self._strips = strips
+            # the whole widget is marked dirty: a region refresh of the changed rows alone left stale rows
+            # on the screen (tests/tui/test_tui_map.py), so only the segment building is saved here
+            self.refresh()
             return
         self._cells = (codes, style)
-        table = self._style_table()
         self._strips = [Strip(row, size.width) for row in segment_rows(codes, style, table)]
         self.refresh()
 
