@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from rich.segment import Segment
 from rich.style import Style
-from textual.geometry import Size
+from textual.geometry import Region, Size
 from textual.reactive import reactive
 from textual.strip import Strip
 from textual.widget import Widget
@@ -123,7 +123,8 @@ class RegimeMapView(Widget):
         old = self._cells
         table = self._style_table()
         if old is not None and old[0].shape == codes.shape and len(self._strips) == codes.shape[0]:
-            # only the rows whose cells changed are rebuilt (the trail and the point touch a few rows)
+            # only the rows whose cells changed are rebuilt and repainted (the trail and the point
+            # touch a few rows; the rest stays as painted)
             changed = np.flatnonzero((old[0] != codes).any(axis=1) | (old[1] != style).any(axis=1))
             if changed.size == 0:
                 return
@@ -133,9 +134,9 @@ class RegimeMapView(Widget):
             for r, row in zip(changed.tolist(), rows):
                 strips[r] = Strip(row, size.width)
             self._strips = strips
-            # the whole widget is marked dirty: a region refresh of the changed rows alone left stale rows
-            # on the screen (tests/tui/test_tui_map.py), so only the segment building is saved here
-            self.refresh()
+            # repaint only those rows (a region in content cells: Textual adds the border and padding)
+            top, bottom = int(changed[0]), int(changed[-1])
+            self.refresh(Region(0, top, size.width, bottom - top + 1))
             return
         self._cells = (codes, style)
         self._strips = [Strip(row, size.width) for row in segment_rows(codes, style, table)]
