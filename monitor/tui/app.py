@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import threading
-from typing import Any, Iterable
+from typing import Any, Callable, Iterable, Protocol, Sequence, runtime_checkable
 
 from textual.app import App, SystemCommand
-from textual.binding import Binding
+from textual.binding import Binding, BindingType
 from textual.screen import Screen
 
+from monitor.snapshot import Snapshot
 from monitor.tui.feed import Feed
 from monitor.tui.screens.confirm_quit import ConfirmQuit
 from monitor.tui.screens.help import HelpScreen
@@ -18,7 +19,36 @@ from monitor.tui.screens.watch import WatchScreen
 from monitor.tui.settings import ScreenSettings
 from monitor.tui.widgets.alarm_list import AlarmList
 
-__all__ = ["RegimeApp"]
+__all__ = ["RegimeApp", "bindings_of", "PALETTE"]
+
+PALETTE: tuple[tuple[str, str, str], ...] = (
+    ("Acknowledge the selected alarm", "a", "acknowledge"),
+    ("Acknowledge every alarm waiting for it", "A", "acknowledge_all"),
+    ("Shelve the selected alarm for a chosen time", "z", "shelve"),
+    ("Unshelve the selected alarm", "Z", "unshelve"),
+    ("Reset the selected latched alarm", "r", "reset"),
+    ("Switch units: practical (cm⁻³, eV) / SI (m⁻³, K)", "u", "units"),
+    ("Alarm journal: every transition and operator action", "j", "journal"),
+    ("Replay: pause or run", "space", "pause"),
+    ("Replay: step forward while paused", ".", "step"),
+    ("Replay: seek back 5 s", "[", "seek(-1)"),
+    ("Replay: seek forward 5 s", "]", "seek(1)"),
+    ("Replay: slower", "-", "speed(-1)"),
+    ("Replay: faster (up to max)", "+", "speed(1)"),
+    ("Derived table / map (narrow terminals)", "d", "derived"),
+    ("Bell on or off", "b", "bell"),
+)
+"""The command palette's entries: (title, key, watch-screen action). Help and quit are added by the app."""
+
+
+@runtime_checkable
+class _Shows(Protocol):
+    def show(self, snapshot: Snapshot | None, now: float) -> None: ...
+
+
+def bindings_of(items: Sequence[BindingType]) -> list[Binding]:
+    """The ``Binding`` objects of a BINDINGS list (tuples there are shorthand the screen does not use)."""
+    return [b for b in items if isinstance(b, Binding)]
 
 
 class RegimeApp(App[None]):
@@ -43,11 +73,11 @@ class RegimeApp(App[None]):
         self.bells = 0
         self.said: list[str] = []
         self._run_pipeline = run_pipeline
-        self.watch = WatchScreen(feed, self.settings)
+        self.watch_screen = WatchScreen(feed, self.settings)
 
     def on_mount(self) -> None:
         self.install_screen(JournalScreen(self.feed.tap), "journal")
-        self.push_screen(self.watch)
+        self.push_screen(self.watch_screen)
         if self._run_pipeline:
             self.run_worker(lambda: self.feed.run(self.stop), thread=True, name="pipeline", exit_on_error=False)
         self.set_interval(1.0 / max(1.0, min(20.0, self.settings.refresh_hz)), self.render_tick)
@@ -68,9 +98,9 @@ class RegimeApp(App[None]):
             return
         snapshot = self.feed.snapshot()
         now = self.settings.clock()
-        self.watch.show(snapshot, now)
+        self.watch_screen.show(snapshot, now)
         top = self.screen
-        if top is not self.watch and hasattr(top, "show"):
+        if top is not self.watch_screen and isinstance(top, _Shows):
             top.show(snapshot, now)
         self.ticks += 1
 
@@ -84,7 +114,8 @@ class RegimeApp(App[None]):
         super().notify(message, *args, **kwargs)
 
     def action_request_quit(self) -> None:
-        recording = self.watch.last.recording if self.watch.last is not None else None
+        last = self.watch_screen.last
+        recording = last.recording if last is not None else None
         if not recording:
             self._quit(True)
         elif not isinstance(self.screen, ConfirmQuit):
@@ -101,12 +132,21 @@ class RegimeApp(App[None]):
 
     def key_groups(self) -> list[tuple[str, list[Binding]]]:
         palette = Binding("ctrl+p", "command_palette", "list every action by name (command palette)")
-        return [("watch", list(WatchScreen.BINDINGS)), ("alarm list", list(AlarmList.BINDINGS)),
-                ("anywhere", list(self.BINDINGS) + [palette]), ("journal", list(JournalScreen.BINDINGS)),
-                ("shelve dialog", list(ShelveDialog.BINDINGS[:1]) + [Binding("1-5", "pick", "pick a duration")])]
+        return [("watch", bindings_of(WatchScreen.BINDINGS)), ("alarm list", bindings_of(AlarmList.BINDINGS)),
+                ("anywhere", bindings_of(self.BINDINGS) + [palette]), ("journal", bindings_of(JournalScreen.BINDINGS)),
+                ("shelve dialog", bindings_of(ShelveDialog.BINDINGS)[:1] + [Binding("1-5", "pick", "pick a duration")])]
 
-    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
-        yield from super().get_system_commands(screen)
-        for b in WatchScreen.BINDINGS:
-            yield SystemCommand(b.description.capitalize(), f"key {b.key_display or b.key}",
-                                lambda a=b.action: self.watch.run_action(a))
+    def _on_watch(self, action: str) -> Callable[[], None]:
+        def run() -> None:
+            if self.screen is not self.watch_screen:
+                self.pop_screen()
+            self.call_next(self.watch_screen.run_action, action)
+        return run
+
+    def get_system_commands(self, screen: Screen[Any]) -> Iterable[SystemCommand]:
+        """The tool's own actions only; the framework's defaults (quit at once, theme, screenshot, keys
+        panel) are left out: quitting here asks first while recording, and the keys are on the help page."""
+        for title, key, action in PALETTE:
+            yield SystemCommand(title, f"key {key}", self._on_watch(action))
+        yield SystemCommand("Help: every key, the map and the marks explained", "key ?", self.action_help)
+        yield SystemCommand("Quit (asks first while recording)", "key q", self.action_request_quit)

@@ -3,17 +3,20 @@
 from __future__ import annotations
 
 import collections
+import math
 import threading
 import time
-from typing import Any, Callable, Protocol
+from dataclasses import dataclass
+from typing import Any, Callable, Mapping, Protocol
 
-from adapters.base import SourceStatus
+from adapters.base import LinkState, SourceStatus
 from adapters.batch import Rejection
-from monitor.alarms.events import AlarmEvent
+from monitor.alarms.events import AlarmEvent, AlarmState
 from monitor.model import Frame
-from monitor.snapshot import Snapshot
+from monitor.snapshot import AlarmView, Snapshot
 
-__all__ = ["Feed", "EventTap", "SessionFeed", "FixedFeed", "REPLAY_ACTIONS"]
+__all__ = ["Feed", "EventTap", "SessionFeed", "FixedFeed", "REPLAY_ACTIONS", "Quality", "SourceView",
+           "discharge_state", "value_quality", "data_clock", "source_view", "stale_sources", "trip_value", "awaiting_reset"]
 
 # Replay controls the session forwards to its source; each is optional.
 REPLAY_ACTIONS = ("pause", "resume", "step", "seek", "set_speed")
@@ -136,3 +139,145 @@ class FixedFeed:
     def act(self, action: str, *args: Any) -> str:
         self.actions.append((action, args))
         return ""
+
+
+# -- what the snapshot does not carry yet ------------------------------------------------------------------
+# The screen needs a few facts the Snapshot/AlarmView contract does not hold yet (listed in
+# /work/notes/screen-DEVELOPERS.md). ``_carried`` is the single place that looks for them; each accessor
+# below uses the field when the session provides it and otherwise works it out from what the snapshot
+# holds today, conservatively (never claiming data are fresh or stale without a reason).
+
+def _carried(obj: object, name: str) -> object | None:
+    """A field the contract may not carry yet (Snapshot.discharge, Snapshot.quality, AlarmView.trip_value,
+    AlarmView.awaiting_reset, Snapshot.source_states), or None."""
+    return getattr(obj, name, None)
+
+
+@dataclass(frozen=True)
+class Quality:
+    """The quality of one value as shown: ``fresh``, ``stale`` (with its age) or ``no data``."""
+
+    state: str
+    age: float | None = None        # seconds since its source's last reading, never negative
+    source: str | None = None
+
+    @property
+    def stale(self) -> bool:
+        return self.state == "stale"
+
+    @property
+    def fresh(self) -> bool:
+        return self.state == "fresh"
+
+
+@dataclass(frozen=True)
+class SourceView:
+    """One source in exactly one state: connecting, connected, stale, disconnected, ended or failed."""
+
+    name: str
+    state: str
+    age: float | None               # seconds since its last reading (wall clock), never negative
+    message: str = ""
+    retries: int = 0
+
+
+def _age(snap: Snapshot, name: str, now: float) -> float | None:
+    counts = snap.counts.get(name)
+    if counts is None or counts.last_wall_time is None:
+        return None
+    return max(0.0, now - counts.last_wall_time)
+
+
+def _stale_alarm_active(snap: Snapshot, source: str | None = None) -> bool:
+    """A stale-data alarm (the engine's, data time) is active, for ``source`` or for any source: its
+    condition holds (unacknowledged or acknowledged; returned-unacknowledged means it has cleared)."""
+    for a in snap.alarms:
+        if a.kind == "stale" and a.state in (AlarmState.UNACKNOWLEDGED, AlarmState.ACKNOWLEDGED):
+            if source is None or source in a.alarm:
+                return True
+    return False
+
+
+def source_view(snap: Snapshot, name: str, now: float, stale_after: float) -> SourceView:
+    """The source's one state. A broken or ended link wins; a link that is up but silent for longer than
+    ``stale_after`` (live, wall clock) or whose stale alarm is active is ``stale``, never also ``connected``."""
+    status = snap.sources.get(name)
+    age = _age(snap, name, now)
+    carried = _carried(snap, "source_states")
+    if isinstance(carried, Mapping) and isinstance(carried.get(name), str):
+        state = str(carried[name])
+    elif status is not None and status.state in (LinkState.DISCONNECTED, LinkState.FAILED, LinkState.ENDED):
+        state = status.state.value
+    elif _stale_alarm_active(snap, name) or (snap.live and status is not None and status.state != LinkState.CONNECTING
+                                             and (age is None or age > stale_after)):
+        state = "stale"
+    elif status is None:
+        state = "connecting" if age is None else "connected"
+    else:
+        state = status.state.value
+    message = status.message if status is not None else ""
+    if state == "stale" and message.startswith("connected"):
+        message = ""                 # a stale source is not also "connected"
+    return SourceView(name, state, age, message, status.retries if status is not None else 0)
+
+
+def stale_sources(snap: Snapshot, now: float, stale_after: float) -> list[SourceView]:
+    """The sources whose data are stale now."""
+    names = sorted(set(snap.sources) | set(snap.counts))
+    return [v for v in (source_view(snap, n, now, stale_after) for n in names) if v.state == "stale"]
+
+
+def value_quality(snap: Snapshot, name: str, now: float, stale_after: float) -> Quality:
+    """``name``'s quality: no data (absent or NaN), stale (every source that sent data is stale, or the
+    session says so) or fresh."""
+    carried = _carried(snap, "quality")
+    if isinstance(carried, Mapping) and name in carried:
+        q = carried[name]
+        if isinstance(q, tuple) and len(q) == 2 and isinstance(q[0], str):
+            age = q[1] if isinstance(q[1], (int, float)) else None
+            return Quality(q[0], None if age is None else max(0.0, float(age)))
+    value = snap.latest.get(name, (float("nan"), None))[0]
+    if value is None or not math.isfinite(value):
+        return Quality("no data")
+    names = sorted(set(snap.sources) | set(snap.counts))
+    views = [source_view(snap, n, now, stale_after) for n in names]
+    feeding = [v for v in views if v.age is not None or v.state == "stale"]
+    if feeding and all(v.state in ("stale", "disconnected", "failed") for v in feeding):
+        youngest = min((v for v in feeding), key=lambda v: v.age if v.age is not None else math.inf)
+        return Quality("stale", youngest.age, youngest.name)
+    return Quality("fresh")
+
+
+def discharge_state(snap: Snapshot, now: float, stale_after: float) -> str:
+    """``on``, ``off`` or ``unknown`` (no fresh density to judge it by)."""
+    carried = _carried(snap, "discharge")
+    if isinstance(carried, str) and carried in ("on", "off", "unknown"):
+        return carried
+    if not value_quality(snap, "ne", now, stale_after).fresh:
+        return "unknown"
+    return "on" if snap.discharge_on else "off"
+
+
+def data_clock(snap: Snapshot) -> float | None:
+    """The data time to show and to age alarms by: the snapshot's, or in a replay just after a seek
+    (before the first reading there) the replay position, so the clock never goes blank."""
+    if snap.data_time is not None:
+        return snap.data_time
+    return snap.replay.time if snap.replay is not None else None
+
+
+def trip_value(a: AlarmView) -> tuple[float | None, str]:
+    """(value, what it is): the value that tripped the alarm when the session carries it, else the value
+    at the alarm's last transition (labelled so)."""
+    carried = _carried(a, "trip_value")
+    if isinstance(carried, (int, float)):
+        return float(carried), "tripped at"
+    return a.value, "at change"
+
+
+def awaiting_reset(a: AlarmView) -> bool:
+    """A latched alarm that has returned and waits for the operator's reset."""
+    carried = _carried(a, "awaiting_reset")
+    if isinstance(carried, bool):
+        return carried
+    return False

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from rich.style import Style
 
-__all__ = ["NORMAL", "DIM", "FAINT", "LABEL", "STRONG", "CAUTION", "ALERT", "OK_MARK", "GUIDE_A", "GUIDE_B", "GUIDE_C", "BOX", "BLINK", "LOUD"]
+__all__ = ["NORMAL", "DIM", "FAINT", "LABEL", "STRONG", "CAUTION", "ALERT", "OK_MARK", "GUIDE_A", "GUIDE_B", "GUIDE_C", "BOX", "BLINK", "LOUD", "STALE"]
 
 NORMAL = Style(color="#c8c8c0")
 DIM = Style(color="#8a8a84")
@@ -22,3 +22,4 @@ GUIDE_C = Style(color="#96896f")   # cutoff density
 BOX = Style(color="#a0a89a")       # the envelope's box
 BLINK = Style(reverse=True)        # flashing phase of an unacknowledged alarm (toggled)
 LOUD = Style(reverse=True)         # steady emphasis of a stale or broken source (never toggled)
+STALE = Style(color="#8a8a84", strike=True)   # a value that is no longer live: dimmed and struck, its age in words beside it

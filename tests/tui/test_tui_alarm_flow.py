@@ -18,12 +18,12 @@ async def test_demo_excursion_raises_and_operator_acknowledges() -> None:
     app = RegimeApp(SessionFeed(session, tap), settings_for(session.config, bell=True))
     try:
         async with app.run_test(size=(100, 30)) as pilot:
-            alarms = app.watch.query_one(AlarmList)
+            alarms = app.watch_screen.query_one(AlarmList)
             await wait_for(pilot, lambda: state_of(session, "ne_high") in UNACKED)
             await wait_for(pilot, lambda: "ne_high" in [a.alarm for a in alarms.rows()])
             await wait_for(pilot, lambda: app.bells >= 1)          # a new high-priority alarm rang the bell
             assert "ne_high" in text_of(alarms)
-            await wait_for(pilot, lambda: "to acknowledge" in text_of(app.watch.query_one(StatusStrip)))
+            await wait_for(pilot, lambda: "to acknowledge" in text_of(app.watch_screen.query_one(StatusStrip)))
             # a row is selected and unacknowledged ones are listed first
             chosen = alarms.selected
             assert chosen is not None and state_of(session, chosen) in UNACKED
@@ -45,10 +45,10 @@ async def test_bell_can_be_turned_off() -> None:
     try:
         async with app.run_test(size=(100, 30)) as pilot:
             await pilot.press("b")
-            await wait_for(pilot, lambda: not app.watch.bell)
+            await wait_for(pilot, lambda: not app.watch_screen.bell)
             await wait_for(pilot, lambda: state_of(session, "ne_high") in UNACKED)
-            await wait_for(pilot, lambda: "ne_high" in [a.alarm for a in app.watch.query_one(AlarmList).rows()])
+            await wait_for(pilot, lambda: "ne_high" in [a.alarm for a in app.watch_screen.query_one(AlarmList).rows()])
             assert app.bells == 0
-            assert "bell off" in text_of(app.watch.query_one(StatusStrip))
+            assert "bell off" in text_of(app.watch_screen.query_one(StatusStrip))
     finally:
         session.close()

@@ -13,6 +13,7 @@ from monitor.tui.launch import settings_for
 from monitor.tui.screens.help import HelpScreen
 from monitor.tui.screens.journal import JournalScreen
 from monitor.tui.screens.shelve import ShelveDialog
+from monitor.tui.app import PALETTE, bindings_of
 from monitor.tui.screens.watch import WatchScreen
 from monitor.tui.widgets.alarm_list import UNACKED, AlarmList
 from monitor.tui.widgets.playback import PlaybackBar
@@ -37,7 +38,7 @@ def _app(session, tap, *, run_pipeline: bool = False) -> RegimeApp:
 
 
 async def _select(pilot, app: RegimeApp, alarm: str) -> None:
-    alarms = app.watch.query_one(AlarmList)
+    alarms = app.watch_screen.query_one(AlarmList)
     await wait_for(pilot, lambda: alarm in [a.alarm for a in alarms.rows()])
     await pilot.press("home")
     for _ in range(len(alarms.rows())):
@@ -63,7 +64,7 @@ async def test_acknowledge_selected(raised) -> None:
         await _select(pilot, app, "ne_high")
         await pilot.press("a")
         await wait_for(pilot, lambda: state_of(session, "ne_high") in (AlarmState.ACKNOWLEDGED, AlarmState.NORMAL))
-        await wait_for(pilot, lambda: "acknowledged" in text_of(app.watch.query_one(AlarmList)))
+        await wait_for(pilot, lambda: "acknowledged" in text_of(app.watch_screen.query_one(AlarmList)))
         assert any(e.action == "acknowledge" and e.alarm == "ne_high" for e in tap.events())
 
 
@@ -76,7 +77,7 @@ async def test_acknowledge_all(raised) -> None:
         await pilot.press("A")
         await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))
         # the strip redraws on the next render tick: wait for it rather than assume it has happened
-        await wait_for(pilot, lambda: "to acknowledge" not in text_of(app.watch.query_one("#strip")))
+        await wait_for(pilot, lambda: "to acknowledge" not in text_of(app.watch_screen.query_one("#strip")))
 
 
 async def test_shelve_then_unshelve(raised) -> None:
@@ -90,7 +91,7 @@ async def test_shelve_then_unshelve(raised) -> None:
         await wait_for(pilot, lambda: state_of(session, "ne_high") == AlarmState.SHELVED)
         view = next(v for v in session.snapshot().alarms if v.alarm == "ne_high")
         assert view.shelved_until is not None and view.shelved_until - session.now() == pytest.approx(600.0, abs=5.0)
-        await wait_for(pilot, lambda: "shelved" in text_of(app.watch.query_one(AlarmList)))
+        await wait_for(pilot, lambda: "shelved" in text_of(app.watch_screen.query_one(AlarmList)))
         await _select(pilot, app, "ne_high")
         await pilot.press("Z")
         await wait_for(pilot, lambda: state_of(session, "ne_high") not in (AlarmState.SHELVED, None))
@@ -149,7 +150,7 @@ async def test_pause_step_seek_speed(replay) -> None:
         await wait_for(pilot, lambda: pos() is not None and pos().time > 0.2)
         await pilot.press("space")
         await wait_for(pilot, lambda: pos().paused)
-        await wait_for(pilot, lambda: "PAUSED" in text_of(app.watch.query_one(PlaybackBar)))
+        await wait_for(pilot, lambda: "PAUSED" in text_of(app.watch_screen.query_one(PlaybackBar)))
         here = pos().time
         await pilot.press("full_stop")
         await wait_for(pilot, lambda: pos().time > here)
@@ -163,7 +164,7 @@ async def test_pause_step_seek_speed(replay) -> None:
         # generous deadlines (the pilot can be slow under load); each step waits on the actual state
         await pilot.press("plus")
         await wait_for(pilot, lambda: pos().speed == 2.0, timeout=LOADED)
-        await wait_for(pilot, lambda: "×2" in text_of(app.watch.query_one(PlaybackBar)), timeout=LOADED)
+        await wait_for(pilot, lambda: "×2" in text_of(app.watch_screen.query_one(PlaybackBar)), timeout=LOADED)
         await pilot.press("minus")
         await wait_for(pilot, lambda: pos().speed == 1.0, timeout=LOADED)
         await pilot.press("space")
@@ -176,14 +177,14 @@ async def test_replay_keys_on_a_live_source_say_so(raised) -> None:
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("space")
         await wait_for(pilot, lambda: any("live source" in m for m in app.said))
-        assert "LIVE" in text_of(app.watch.query_one(PlaybackBar))
+        assert "LIVE" in text_of(app.watch_screen.query_one(PlaybackBar))
 
 
 async def test_unit_switch(raised) -> None:
     session, tap = raised
     app = _app(session, tap)
     async with app.run_test(size=SIZE) as pilot:
-        readings = app.watch.query_one(Readings)
+        readings = app.watch_screen.query_one(Readings)
         await wait_for(pilot, lambda: "cm⁻³" in text_of(readings))
         await pilot.press("u")
         await wait_for(pilot, lambda: "m⁻³" in text_of(readings) and "cm⁻³" not in text_of(readings))
@@ -256,13 +257,18 @@ async def test_command_palette_lists_the_actions(raised) -> None:
     session, tap = raised
     app = _app(session, tap)
     async with app.run_test(size=SIZE) as pilot:
-        await wait_for(pilot, lambda: app.screen is app.watch)
-        titles = [c.title for c in app.get_system_commands(app.watch)]
-        for b in WatchScreen.BINDINGS:
-            assert b.description.capitalize() in titles
+        await wait_for(pilot, lambda: app.screen is app.watch_screen)
+        commands = list(app.get_system_commands(app.watch_screen))
+        titles = " | ".join(c.title for c in commands)
+        # every key of the watch screen has its entry, and so do help and quit
+        assert {action for _t, _k, action in PALETTE} == {b.action for b in bindings_of(WatchScreen.BINDINGS)}
+        assert "Help" in titles and "Quit (asks first while recording)" in titles
+        # none of the framework's defaults, whose "quit at once" contradicts the confirm-quit
+        for default in ("Quit the application", "Theme", "Screenshot", "Keys", "Maximize"):
+            assert default not in titles
         await pilot.press("ctrl+p")
         await wait_for(pilot, lambda: isinstance(app.screen, CommandPalette))
-        await pilot.press(*"ack all")
+        await pilot.press(*"acknowledge every")
         await pilot.press("enter")
         await wait_for(pilot, lambda: not any(v.state in UNACKED for v in session.snapshot().alarms))
 
@@ -271,12 +277,12 @@ async def test_derived_table_swaps_with_the_map_on_narrow_terminals(raised) -> N
     session, tap = raised
     app = _app(session, tap)
     async with app.run_test(size=(80, 24)) as pilot:
-        await wait_for(pilot, lambda: app.screen is app.watch)
-        box, the_map = app.watch.query_one("#derived-box"), app.watch.query_one("#map")
+        await wait_for(pilot, lambda: app.screen is app.watch_screen)
+        box, the_map = app.watch_screen.query_one("#derived-box"), app.watch_screen.query_one("#map")
         assert not box.display and the_map.display
         await pilot.press("d")
         await wait_for(pilot, lambda: box.display and not the_map.display)
-        assert "λD" in text_of(app.watch.query_one("#derived"))
+        assert "λD" in text_of(app.watch_screen.query_one("#derived"))
         await pilot.press("d")
         await wait_for(pilot, lambda: not box.display and the_map.display)
 
@@ -333,7 +339,7 @@ async def test_the_map_has_room_to_draw_at_every_common_terminal_width(raised, s
     async with app.run_test(size=size) as pilot:
         await wait_for(pilot, lambda: app.ticks > 0)
         await pilot.pause()
-        the_map = app.watch.query_one("#map")
+        the_map = app.watch_screen.query_one("#map")
         assert the_map.display
         assert the_map.content_region.width >= 30 and the_map.content_region.height >= 6
         assert "map needs" not in text_of(the_map)

@@ -28,7 +28,7 @@ def _app(fixed_settings, recorder: RecorderStatus | None) -> RegimeApp:
 async def test_recorder_line_fits_80_columns_with_what_is_not_recorded(fixed_settings) -> None:
     app = _app(fixed_settings, status())
     async with app.run_test(size=(80, 24)) as pilot:
-        panel = app.watch.query_one(SourcesPanel)
+        panel = app.watch_screen.query_one(SourcesPanel)
         await wait_for(pilot, lambda: "recorder" in text_of(panel))
         lines = text_of(panel).splitlines()
         line = next(x for x in lines if "recorder" in x)
@@ -41,7 +41,7 @@ async def test_recorder_line_fits_80_columns_with_what_is_not_recorded(fixed_set
 async def test_every_reading_recorded_says_nothing_about_shots(fixed_settings) -> None:
     app = _app(fixed_settings, status(split="none", rows_idle=0, file=None))
     async with app.run_test(size=(80, 24)) as pilot:
-        panel = app.watch.query_one(SourcesPanel)
+        panel = app.watch_screen.query_one(SourcesPanel)
         await wait_for(pilot, lambda: "recorder" in text_of(panel))
         assert text_of(panel).count("◌ recorder  written 4,500  dropped 0") == 1
         assert "outside shots" not in text_of(panel)
@@ -52,7 +52,7 @@ async def test_failing_write_is_loud_in_words_and_the_panel(fixed_settings) -> N
                      dropped=12, errors=3)
     app = _app(fixed_settings, failing)
     async with app.run_test(size=(160, 50)) as pilot:
-        panel = app.watch.query_one(SourcesPanel)
+        panel = app.watch_screen.query_one(SourcesPanel)
         await wait_for(pilot, lambda: "WRITE FAILING" in text_of(panel))
         text = text_of(panel)
         assert "✖ recorder WRITE FAILING  written 4,500  outside shots: 300 not recorded  dropped 12" in text
@@ -60,12 +60,12 @@ async def test_failing_write_is_loud_in_words_and_the_panel(fixed_settings) -> N
         assert panel.has_class("-trouble")
     app = _app(fixed_settings, status(dropped=5))                 # writes work again, but readings were lost
     async with app.run_test(size=(80, 24)) as pilot:
-        panel = app.watch.query_one(SourcesPanel)
+        panel = app.watch_screen.query_one(SourcesPanel)
         await wait_for(pilot, lambda: "dropped 5" in text_of(panel))
         assert panel.has_class("-trouble")
     app = _app(fixed_settings, None)                              # no recorder, no line
     async with app.run_test(size=(80, 24)) as pilot:
-        panel = app.watch.query_one(SourcesPanel)
+        panel = app.watch_screen.query_one(SourcesPanel)
         await wait_for(pilot, lambda: "sim:steady" in text_of(panel))
         assert "recorder" not in text_of(panel)
 
@@ -85,7 +85,7 @@ async def test_a_real_recorder_behind_a_real_session(tmp_path: Path, fixed_setti
         assert snap.recorder == outputs.recorder_status()       # the session fills it from its recorder
         app = RegimeApp(FixedFeed(snap), fixed_settings, run_pipeline=False)
         async with app.run_test(size=(160, 50)) as pilot:
-            panel = app.watch.query_one(SourcesPanel)
+            panel = app.watch_screen.query_one(SourcesPanel)
             await wait_for(pilot, lambda: "recorder" in text_of(panel))
             assert f"written {snap.recorder.rows_written:,}" in text_of(panel)
             assert Path(snap.recorder.file).name in text_of(panel)

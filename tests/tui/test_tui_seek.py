@@ -47,6 +47,6 @@ async def test_seek_forward_key_journals_the_excursion_it_skips(paused_shot) -> 
         # demo envelope: on_delay 0.3 s after 2.0 s; returns after off_delay 0.5 s past 3.5 s
         assert len(raised) == 1 and T0 + 2.3 - 0.011 <= raised[0].time <= T0 + 2.3 + 0.011
         assert state_of(session, "ne_high").value == "returned_unacknowledged"
-        alarms = app.watch.query_one(AlarmList)
+        alarms = app.watch_screen.query_one(AlarmList)
         await wait_for(pilot, lambda: "ne_high" in [a.alarm for a in alarms.rows()], timeout=LOADED)
         app.stop.set()

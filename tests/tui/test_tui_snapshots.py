@@ -39,3 +39,14 @@ def test_watch_80x24_si_units(snap_compare, fixed_settings) -> None:
 
 def test_help_80x24(snap_compare, fixed_settings) -> None:
     assert snap_compare(_app(fixed_settings), press=["question_mark"], terminal_size=(80, 24))
+
+
+def test_watch_80x24_discharge_off(snap_compare, fixed_settings) -> None:
+    from dataclasses import replace
+    snap = replace(built_snapshot(alarms=(alarm("ne_high", AlarmState.SUPPRESSED),)), discharge_on=False)
+    from monitor.tui.feed import FixedFeed as Fixed
+    assert snap_compare(RegimeApp(Fixed(snap), fixed_settings), terminal_size=(80, 24))
+
+
+def test_watch_80x24_derived(snap_compare, fixed_settings) -> None:
+    assert snap_compare(_app(fixed_settings), press=["d"], terminal_size=(80, 24))

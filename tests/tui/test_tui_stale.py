@@ -45,7 +45,7 @@ async def test_silent_serial_source_is_shown_stale(pty_pair) -> None:
     app = RegimeApp(SessionFeed(session, tap), settings_for(config, bell=False, clock=clock))
     try:
         async with app.run_test(size=(100, 30)) as pilot:
-            panel = app.watch.query_one(SourcesPanel)
+            panel = app.watch_screen.query_one(SourcesPanel)
 
             def accepted() -> int:
                 c = session.snapshot().counts
@@ -81,7 +81,7 @@ async def test_failed_source_is_a_visible_status(tmp_path) -> None:
     app = RegimeApp(SessionFeed(session, tap), settings_for(config, bell=False))
     try:
         async with app.run_test(size=(100, 30)) as pilot:
-            panel = app.watch.query_one(SourcesPanel)
+            panel = app.watch_screen.query_one(SourcesPanel)
             await wait_for(pilot, lambda: any(w in text_of(panel) for w in ("FAILED", "DISCONNECTED", "STALE")))
             assert panel.has_class("-trouble")
     finally:

@@ -38,6 +38,25 @@ _LONG = {
 }
 
 
+MAP_HELP = """The ne–Te map
+Electron density across, electron temperature up, both in decades; units follow u.
+◆   the operating point now; its trail fades with age (older dots fainter).
+⠒⠒  solid lines: constant Debye length, λD=L/10ᵏ (L: the device size in the config).
+    Left of λD=L the Debye length exceeds the device: not quasi-neutral there.
+⠂ ⠂ dotted lines: constant ND, electrons in a Debye sphere (ND=1e3 ...). ND falls
+    as density rises: right of ND=1 there is under one electron per sphere.
+⡆   dashed line: the cutoff density of the wave, named with its frequency
+    (cutoff 2.45 GHz); to its right the wave cannot propagate (overdense).
+⡇   the box: the envelope, from the limits on ne and Te.
+✖   in alarm colour: outside the envelope while a discharge is on. With no
+    discharge, or the limits suppressed by design, nothing is judged: the point
+    stays ◆ and the legend says "not judged".
+◇   the last point, hollow and dim: its readings are stale.
+◀▶▲▼ on an edge: data beyond the view. The view holds the envelope and the
+    2nd-98th percentile of recent readings (at most a decade past the envelope),
+    so a few outliers never rescale it."""
+
+
 def key_rows(groups: list[tuple[str, list[Binding]]]) -> list[tuple[str, str, str]]:
     """(group, keys, what it does) for each binding."""
     rows = []
@@ -73,8 +92,10 @@ class HelpScreen(ModalScreen[None]):
             yield Static("Keys — the footer shows the main ones; ctrl+p lists every action by name.", classes="hint")
             yield Static(table)
             yield Static("Marks: ▲▲ urgent  ▲ high  △ advisory  ⊡ latched  ⇢ predicted  ◆ operating point  "
-                         "✖ outside the box  ◼ STALE source. Colour always comes with one of these words or marks.",
+                         "✖ outside the envelope  ◇ stale point  ◼ STALE source. Colour always comes with one of these "
+                         "words or marks. A struck, dimmed number is not live: its age is written beside it.",
                          classes="hint")
+            yield Static(MAP_HELP, classes="hint", id="map-help")
 
     def action_close(self) -> None:
         self.dismiss(None)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from typing import Any
 
 from textual.app import ComposeResult
@@ -28,6 +29,9 @@ from monitor.tui.widgets.verdicts import Verdicts
 __all__ = ["WatchScreen", "SPEEDS"]
 
 SPEEDS: tuple[float | None, ...] = (0.25, 0.5, 1.0, 2.0, 5.0, 10.0, None)
+NUMBERS_HZ = 5.0
+"""Redraws per second of the panels of numbers (readings, derived, verdicts): a digit that changes more
+often cannot be read (common practice for digital displays: 2-5 updates a second); keys redraw at once."""
 _RINGS = (Priority.URGENT, Priority.HIGH)
 
 
@@ -61,6 +65,7 @@ class WatchScreen(Screen[None]):
         self.last: Snapshot | None = None
         self._rung: set[str] = set()
         self._ready = False
+        self._numbers_at = -1e9
 
     def compose(self) -> ComposeResult:
         s = self.settings
@@ -71,7 +76,8 @@ class WatchScreen(Screen[None]):
                 yield Verdicts(id="verdicts")
             with VerticalScroll(id="derived-box"):
                 yield DerivedTable(id="derived")
-            yield RegimeMapView(length=s.length, wave_frequency=s.wave_frequency, box=s.box, id="map")
+            yield RegimeMapView(length=s.length, wave_frequency=s.wave_frequency, box=s.box, stale_after=s.stale_after,
+                                id="map")
         yield AlarmList(id="alarms")
         yield SourcesPanel(id="sources")
         yield PlaybackBar(id="playback")
@@ -86,35 +92,46 @@ class WatchScreen(Screen[None]):
         self.query_one("#sources").border_title = "sources"
         self.query_one(AlarmList).focus()
         self._ready = True
-        self.show(None, self.settings.clock())
+        self.show(None, self.settings.clock(), force=True)
 
-    def show(self, snapshot: Snapshot | None, now: float) -> None:
-        """Push ``snapshot`` into every widget; flash and bell follow the unacknowledged alarms."""
+    def show(self, snapshot: Snapshot | None, now: float, *, force: bool = False) -> None:
+        """Push ``snapshot`` into every widget; flash and bell follow the unacknowledged alarms.
+
+        The panels of numbers take a new snapshot at most NUMBERS_HZ times a second (``force``: now);
+        the map, alarms, sources, strip and playback line at every frame."""
         if snapshot is not None:
             self.last = snapshot
         if not self._ready or not self.is_attached:
             return
         try:
-            self._push(now)
+            self._push(now, force)
         except NoMatches:  # the screen is being torn down while the timer fires
             return
 
-    def _push(self, now: float) -> None:
+    def _push(self, now: float, force: bool) -> None:
         snap = self.last
         unacked = bool(snap and any(a.state in UNACKED for a in snap.alarms))
         flash = unacked and int(now * 2.0) % 2 == 0
         strip = self.query_one(StatusStrip)
+        strip.now, strip.stale_after = now, self.settings.stale_after
         strip.units, strip.bell, strip.flash, strip.snapshot = self.units, self.bell, flash, snap
-        for widget in (self.query_one(Readings), self.query_one(DerivedTable), self.query_one(RegimeMapView)):
-            widget.units = self.units  # type: ignore[attr-defined]
-            widget.snapshot = snap  # type: ignore[attr-defined]
-        self.query_one(Verdicts).snapshot = snap
+        tick = time.monotonic()
+        if force or tick - self._numbers_at >= 1.0 / NUMBERS_HZ:
+            self._numbers_at = tick
+            for view in (self.query_one(Readings), self.query_one(DerivedTable), self.query_one(Verdicts)):
+                view.now, view.stale_after = now, self.settings.stale_after
+                view.units, view.snapshot = self.units, snap
+        regime_map = self.query_one(RegimeMapView)
+        regime_map.now = now
+        regime_map.units, regime_map.snapshot = self.units, snap
         alarms = self.query_one(AlarmList)
         alarms.units, alarms.flash, alarms.snapshot = self.units, flash, snap
         sources = self.query_one(SourcesPanel)
         sources.now, sources.stale_after, sources.error = now, self.settings.stale_after, self.feed.error
         sources.snapshot = snap
-        self.query_one(PlaybackBar).snapshot = snap
+        playback = self.query_one(PlaybackBar)
+        playback.now, playback.stale_after = now, self.settings.stale_after
+        playback.snapshot = snap
         if snap is not None:
             self._ring(snap)
 
@@ -130,7 +147,9 @@ class WatchScreen(Screen[None]):
             self.notify(message, timeout=4)
 
     def _act(self, action: str, *args: Any) -> None:
+        """Do ``action`` and show its effect at once from a fresh snapshot (not at the next timer tick)."""
         self._say(self.feed.act(action, *args))
+        self.show(self.feed.snapshot(), self.settings.clock(), force=True)
 
     @property
     def selected(self) -> str | None:
@@ -200,7 +219,7 @@ class WatchScreen(Screen[None]):
 
     def action_units(self) -> None:
         self.units = "SI" if self.units == "practical" else "practical"
-        self.show(None, self.settings.clock())
+        self.show(None, self.settings.clock(), force=True)
 
     def action_derived(self) -> None:
         self.toggle_class("-show-derived")

@@ -13,8 +13,8 @@ from textual.widget import Widget
 from monitor.alarms.events import AlarmState, Priority
 from monitor.quantities import ALL
 from monitor.snapshot import AlarmView, Snapshot
-from monitor.tui import palette
-from monitor.tui.formatting import fmt_duration, fmt_value
+from monitor.tui import feed, palette
+from monitor.tui.formatting import fmt_age, fmt_duration, fmt_value
 from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["AlarmList", "STATE_WORDS", "PRIORITY_MARK", "ordered"]
@@ -117,14 +117,19 @@ class AlarmList(Widget, can_focus=True):
         note = self._hidden_note(snap)
         if not rows:
             return Text("○ nothing to attend to" + note, style=palette.DIM)
-        now = snap.data_time if snap is not None else None
+        now = feed.data_clock(snap) if snap is not None else None
         wide = (self.size.width or 80) >= 100
-        table = grid_text([self._cells(a, now, wide) for a in rows], max_width=self.size.width or None)
+        # left out first when the rows are too wide: description, age, priority word (its glyph stays),
+        # tripping value, limit
+        table = grid_text([self._cells(a, now, wide) for a in rows], max_width=self.size.width or None,
+                          drop=(8, 3, 1, 6, 7))
         if note:
             return Group(table, Text(note, style=palette.DIM))
         return table
 
     def _cells(self, a: AlarmView, now: float | None, wide: bool) -> list[Text]:
+        """mark and priority glyph, priority word, state, age, name, live value, tripping value, limit (or
+        the prediction), description."""
         unacked = a.state in UNACKED
         if a.state in (AlarmState.SHELVED, AlarmState.SUPPRESSED, AlarmState.OUT_OF_SERVICE):
             style = palette.DIM
@@ -137,25 +142,34 @@ class AlarmList(Widget, can_focus=True):
         if self.has_focus is False and mark == "▶":
             mark = "›"
         unit = ALL[a.quantity].unit if a.quantity in ALL else "1"
-        value = fmt_value(a.value, None, unit, self.units) if a.value is not None else ("—", "", "")
-        limit = fmt_value(a.limit, None, unit, self.units) if a.limit is not None else ("—", "", "")
-        since = f"{fmt_duration(now - a.since)}" if now is not None and a.since is not None else "—"
+        snap = self.snapshot
+        live = snap.latest.get(a.quantity, (None, None))[0] if snap is not None and a.quantity else None
+        live_text = f"now {' '.join(fmt_value(live, None, unit, self.units)[::2]).strip()}" if live is not None else ""
+        tripped, what = feed.trip_value(a)
+        trip_text = f"{what} {fmt_value(tripped, None, unit, self.units)[0]}" if tripped is not None else ""
+        limit = fmt_value(a.limit, None, unit, self.units)[0] if a.limit is not None else None
+        since = fmt_age(now - a.since) if now is not None and a.since is not None else "—"
         if a.state == AlarmState.SHELVED and a.shelved_until is not None and now is not None:
-            since = f"{fmt_duration(a.shelved_until - now)} left"
-        ttl = ""
-        if a.predicted_time is not None and now is not None:
-            ttl = f"limit in {fmt_duration(a.predicted_time - now)}"
+            since = f"{fmt_duration(max(0.0, a.shelved_until - now))} left"
+        if a.kind == "predictive":
+            # one phrase: what is predicted and when
+            when = f" in {fmt_duration(max(0.0, a.predicted_time - now))}" if a.predicted_time is not None and now is not None else ""
+            limit_text = Text(f"reaches {limit}{when}" if limit else f"predicted{when}", style=palette.CAUTION)
+            trip_text, description = "", ""
+        elif a.kind == "stale":
+            limit_text = Text(f"no data for {fmt_duration(a.limit)}" if a.limit is not None else "", style=palette.DIM)
+            trip_text, live_text, description = "", "", a.description
+        else:
+            limit_text = Text(f"limit {limit}" if limit else "", style=palette.DIM)
+            description = a.description
+        waiting = feed.awaiting_reset(a)
+        state_word = STATE_WORDS.get(a.state, str(a.state)) + (" ⊡ latched, reset (r)" if waiting else " ⊡" if a.latched else "")
         name = a.alarm.replace(":predict", " ⇢")
-        prio = Text(mark + PRIORITY_MARK.get(a.priority, str(a.priority)), style=style)
-        state = Text(STATE_WORDS.get(a.state, str(a.state)) + (" ⊡" if a.latched else ""), style=state_style)
-        value_text = Text(f"{value[0]} {value[2]}".strip(), style=palette.NORMAL)
-        if wide:
-            return [prio, state, Text(since, style=palette.DIM), Text(name, style=palette.NORMAL), value_text,
-                    Text(f"limit {limit[0]}", style=palette.DIM), Text(ttl, style=palette.CAUTION),
-                    Text(a.description, style=palette.DIM)]
-        short_limit = f"lim {fmt_value(a.limit, None, unit, self.units)[0]}" if a.limit is not None else ""
-        last = Text(ttl.replace("limit ", "→"), style=palette.CAUTION) if ttl else Text(short_limit, style=palette.DIM)
-        return [prio, state, Text(since, style=palette.DIM), Text(name, style=palette.NORMAL), value_text, last]
+        glyph, _sp, word = PRIORITY_MARK.get(a.priority, str(a.priority)).partition(" ")
+        return [Text(mark + glyph, style=style), Text(word, style=style),
+                Text(state_word, style=state_style), Text(since, style=palette.DIM), Text(name, style=palette.NORMAL),
+                Text(live_text, style=palette.NORMAL), Text(trip_text, style=palette.DIM), limit_text,
+                Text(description if wide else "", style=palette.DIM)]
 
     def action_move(self, step: int) -> None:
         names = [a.alarm for a in self.rows()]

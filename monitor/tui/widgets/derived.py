@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 from rich.text import Text
-from textual.app import RenderResult
 
 from monitor.quantities import DERIVED, Quantity
-from monitor.tui import palette
-from monitor.tui.formatting import fmt_value
+from monitor.snapshot import Snapshot
+from monitor.tui import feed, palette
+from monitor.tui.formatting import fmt_age, fmt_value
 from monitor.tui.renderables.grid import grid_text
 from monitor.tui.widgets.snapshot_view import SnapshotView
 
@@ -38,13 +38,16 @@ class DerivedTable(SnapshotView):
     }
     """
 
-    def render(self) -> RenderResult:
+    def build(self) -> Text:
         snap = self.snapshot
         if snap is None:
             return Text("no derived quantities yet", style=palette.DIM)
         wide = (self.size.width or 40) >= 60
         lines: list[list[Text]] = []
         any_row = False
+        inputs = [feed.value_quality(snap, k, self.now, self.stale_after) for k in ("ne", "Te")]
+        stale = [q for q in inputs if q.stale]
+        value_style = palette.STALE if stale else palette.NORMAL
         for kind in KIND_ORDER:
             rows = [q for q in DERIVED if q.kind == kind and q.name in snap.latest]
             if not rows:
@@ -54,12 +57,22 @@ class DerivedTable(SnapshotView):
                 value, sigma = snap.latest[q.name]
                 number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
                 label = _label(q, wide=wide, practical=self.units == "practical")
-                lines.append([Text(f"  {label}", style=palette.LABEL), Text(number, style=palette.NORMAL),
-                             Text(unc, style=palette.DIM), Text(unit, style=palette.DIM)])
+                lines.append([Text(f"  {label}", style=palette.LABEL), Text(number, style=value_style),
+                             Text(unc, style=palette.STALE if stale else palette.DIM), Text(unit, style=palette.DIM)])
                 any_row = True
         if not any_row:
             return Text("no derived quantities yet", style=palette.DIM)
-        return grid_text(lines, right=(1,), max_width=self.size.width or None)
+        # too narrow: the uncertainty goes first, never the unit
+        table = grid_text(lines, right=(1,), max_width=self.size.width or None, drop=(2,))
+        if stale:   # said in words above the struck values, never by colour alone
+            return Text.assemble(Text(f"STALE inputs: last reading {fmt_age(stale[0].age)} ago\n", style=palette.CAUTION), table)
+        return table
+
+    def row_shape(self, snapshot: Snapshot | None) -> object:
+        if snapshot is None:
+            return None
+        stale = any(feed.value_quality(snapshot, k, self.now, self.stale_after).stale for k in ("ne", "Te"))
+        return (tuple(sorted(snapshot.latest)), stale)
 
 
 def _label(q: Quantity, *, wide: bool, practical: bool) -> str:

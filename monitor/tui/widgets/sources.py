@@ -10,38 +10,28 @@ from textual.app import RenderResult
 from textual.reactive import reactive
 from textual.widget import Widget
 
-from adapters.base import LinkState
 from monitor.snapshot import Snapshot
-from monitor.tui import palette
+from monitor.tui import feed, palette
 from monitor.tui.formatting import fmt_age, fmt_number
 from monitor.tui.renderables.grid import grid_text
 
 __all__ = ["SourcesPanel", "source_trouble", "recorder_trouble", "recorder_line"]
 
-_LINK = {
-    LinkState.CONNECTING: ("◌", "connecting", palette.CAUTION),
-    LinkState.CONNECTED: ("●", "connected", palette.OK_MARK),
-    LinkState.DISCONNECTED: ("✖", "DISCONNECTED", palette.ALERT),
-    LinkState.ENDED: ("■", "ended", palette.DIM),
-    LinkState.FAILED: ("✖", "FAILED", palette.ALERT),
+_LINK = {   # one state per source (monitor.tui.feed.source_view)
+    "connecting": ("◌", "connecting", palette.CAUTION),
+    "connected": ("●", "connected", palette.OK_MARK),
+    "stale": ("◼", "STALE", palette.ALERT),
+    "disconnected": ("✖", "DISCONNECTED", palette.ALERT),
+    "ended": ("■", "ended", palette.DIM),
+    "failed": ("✖", "FAILED", palette.ALERT),
 }
 
 
 def source_trouble(snapshot: Snapshot, name: str, now: float, stale_after: float) -> str | None:
-    """``STALE``, ``DISCONNECTED`` or ``FAILED`` when the source needs attention, else None."""
-    status = snapshot.sources.get(name)
-    if status is not None and status.state in (LinkState.DISCONNECTED, LinkState.FAILED):
-        return status.state.value.upper()
-    if status is not None and status.state == LinkState.ENDED:
-        return None
-    if not snapshot.live:
-        return None   # a replay is judged in data time (the engine's stale alarm), not by the wall clock
-    counts = snapshot.counts.get(name)
-    last = counts.last_wall_time if counts is not None else None
-    if last is None or now - last > stale_after:
-        if status is None or status.state != LinkState.CONNECTING or last is not None:
-            return "STALE"
-    return None
+    """``STALE``, ``DISCONNECTED`` or ``FAILED`` when the source needs attention, else None (its one state:
+    monitor.tui.feed.source_view)."""
+    state = feed.source_view(snapshot, name, now, stale_after).state
+    return state.upper() if state in ("stale", "disconnected", "failed") else None
 
 
 def _count(n: int) -> str:
@@ -129,32 +119,29 @@ class SourcesPanel(Widget):
         wide = (self.size.width or 80) >= 110
         rows: list[list[Text]] = []
         for name in sorted(set(snap.sources) | set(snap.counts)):
-            status = snap.sources.get(name)
+            view = feed.source_view(snap, name, self.now, self.stale_after)
             counts = snap.counts.get(name)
-            glyph, word, style = _LINK.get(status.state, ("?", "unknown", palette.CAUTION)) if status else ("?", "no status", palette.CAUTION)
-            trouble = source_trouble(snap, name, self.now, self.stale_after)
-            if trouble == "STALE":
-                glyph, word, style = "◼", "STALE", palette.ALERT
-            age = self.now - counts.last_wall_time if counts and counts.last_wall_time is not None else None
+            glyph, word, style = _LINK.get(view.state, ("?", view.state, palette.CAUTION))
+            trouble = view.state in ("stale", "disconnected", "failed")
             rejected = sum(counts.rejected.values()) if counts else 0
-            extra = ""
-            if status is not None and status.retries:
-                extra = f" retry {status.retries}"
-            if status is not None and status.message and (trouble or wide):
-                extra += f" {status.message}"
+            extra = f" retry {view.retries}" if view.retries and view.state != "stale" else ""
+            message = view.message if view.message and (trouble or wide) else ""
             rows.append([
                 Text(glyph, style=style), Text(name, style=palette.NORMAL),
                 Text(word + extra, style=style + palette.LOUD if trouble else style),
                 Text(f"{fmt_number(counts.rate if counts else 0.0)}/s", style=palette.DIM),
-                Text(f"age {fmt_age(age)}", style=palette.ALERT if trouble == "STALE" else palette.DIM),
+                Text(f"last reading {fmt_age(view.age)} ago" if view.state == "stale" else f"age {fmt_age(view.age)}",
+                     style=palette.CAUTION if view.state == "stale" else palette.DIM),
                 Text(f"ok {_count(counts.accepted if counts else 0)}", style=palette.DIM),
                 Text(f"rej {_count(rejected)}", style=palette.CAUTION if rejected else palette.DIM),
                 Text(f"lost {_count(counts.lost if counts else 0)}", style=palette.ALERT if counts and counts.lost else palette.DIM),
+                Text(message, style=palette.DIM),
             ])
         if self.error is not None:
             rows.append([Text("✖", style=palette.ALERT), Text("pipeline", style=palette.NORMAL),
                          Text(f"STOPPED: {self.error}", style=palette.ALERT)])
-        out = grid_text(rows, max_width=self.size.width or None)
+        # left out first on a narrow screen: the link's message, readings/s, ok count
+        out = grid_text(rows, max_width=self.size.width or None, drop=(8, 3, 5))
         if snap.recorder is not None:
             out.append("\n")
             out.append_text(recorder_line(snap.recorder, wide=wide))

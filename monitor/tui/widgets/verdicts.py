@@ -6,14 +6,12 @@ import math
 from typing import Any, Callable
 
 from rich.text import Text
-from textual.app import RenderResult
-from textual.reactive import reactive
-from textual.widget import Widget
 
 from monitor.snapshot import Snapshot
-from monitor.tui import palette
-from monitor.tui.formatting import fmt_number
+from monitor.tui import feed, palette
+from monitor.tui.formatting import fmt_age, fmt_number
 from monitor.tui.renderables.grid import grid_text
+from monitor.tui.widgets.snapshot_view import SnapshotView
 
 __all__ = ["Verdicts", "verdict_rows"]
 
@@ -40,8 +38,11 @@ NEAR_FACTOR = 3.0
 """A holding criterion within this factor of its threshold is shown as NEAR (our choice)."""
 
 
-def verdict_rows(snapshot: Snapshot) -> list[tuple[str, str, Any, str, str, str]]:
-    """(glyph, word, style, label, value text, margin text) per criterion, from the latest values."""
+def verdict_rows(snapshot: Snapshot, judge: str = "on") -> list[tuple[str, str, Any, str, str, str]]:
+    """(glyph, word, style, label, value text, margin text) per criterion, from the latest values.
+
+    ``judge`` is ``on`` (judge), ``off`` (no discharge: nothing to judge, no ✓ or ✗) or ``unknown``
+    (the inputs are stale or missing: the verdict is unknown, never a ✓ or ✗ carried over)."""
     evaluate = _evaluator()
     if evaluate is None:
         return [("?", "n/a", palette.DIM, "criteria module not available", "", "")]
@@ -56,8 +57,10 @@ def verdict_rows(snapshot: Snapshot) -> list[tuple[str, str, Any, str, str, str]
         symbol = _SYMBOL.get(c.symbol, c.symbol) if c is not None else ""
         value = values.get(c.quantity) if c is not None else None
         shown = f"{symbol} {fmt_number(value)}" if value is not None else symbol
-        if v.holds is None:
-            rows.append(("?", "unknown", palette.DIM, label + "?", f"{symbol} unknown", ""))
+        if judge == "off":
+            rows.append(("·", "not judged", palette.DIM, yes, shown, "not judged"))
+        elif judge != "on" or v.holds is None:
+            rows.append(("?", "unknown", palette.DIM, yes, shown if v.holds is not None else f"{symbol} —", "unknown"))
         elif v.holds:
             close = _is_close(v.margin)
             rows.append(("!" if close else "✓", "near limit" if close else "holds",
@@ -73,8 +76,9 @@ def _is_close(margin: float) -> bool:
     return margin is not None and math.isfinite(margin) and 1.0 <= margin < NEAR_FACTOR
 
 
-class Verdicts(Widget):
-    """One line per criterion: glyph, word, what holds or fails, the value and its margin factor."""
+class Verdicts(SnapshotView):
+    """One line per criterion: glyph, word, what holds or fails, the value and its margin factor; while no
+    discharge is on nothing is judged, and on stale inputs every verdict is unknown."""
 
     DEFAULT_CSS = """
     Verdicts {
@@ -82,35 +86,38 @@ class Verdicts(Widget):
     }
     """
 
-    snapshot: reactive[Snapshot | None] = reactive(None, always_update=True)
-    """The snapshot whose latest values are judged."""
+    def _judge(self, snapshot: Snapshot) -> tuple[str, str]:
+        """(on / off / unknown, the note under the rows)."""
+        state = feed.discharge_state(snapshot, self.now, self.stale_after)
+        quality = feed.value_quality(snapshot, "ne", self.now, self.stale_after)
+        if quality.stale:
+            return "unknown", f"inputs STALE ({fmt_age(quality.age)}): verdicts unknown"
+        if state == "off":
+            return "off", "discharge off: no plasma to judge"
+        if state == "unknown":
+            return "unknown", "discharge state unknown: verdicts unknown"
+        return "on", ""
 
-    def __init__(self, *, name: str | None = None, id: str | None = None, classes: str | None = None) -> None:
-        super().__init__(name=name, id=id, classes=classes)
-        self._shape: object = None
+    def row_shape(self, snapshot: Snapshot | None) -> object:
+        return None if snapshot is None else (tuple(sorted(snapshot.latest)), self._judge(snapshot)[0])
 
-    def watch_snapshot(self, snapshot: Snapshot | None) -> None:
-        shape = None if snapshot is None else (tuple(sorted(snapshot.latest)), snapshot.discharge_on)
-        if shape != self._shape:
-            self._shape = shape
-            self.refresh(layout=True)
-
-    def render(self) -> RenderResult:
+    def build(self) -> Text:
         snap = self.snapshot
         if snap is None or not snap.latest:
             return Text("no verdicts until ne and Te arrive", style=palette.DIM)
-        if not snap.discharge_on:
-            note = Text("discharge off: no plasma to judge", style=palette.DIM)
-        else:
-            note = None
+        judge, note = self._judge(snap)
         wide = (self.size.width or 44) >= 52
         rows: list[list[Text]] = []
-        for glyph, word, style, label, shown, margin in verdict_rows(snap):
-            # the word (holds / near limit / FAILS) is carried by the label's own wording and the glyph
-            cells = [Text(glyph, style=style), Text(label, style=style if word != "holds" else palette.NORMAL)]
-            cells += [Text(shown, style=palette.DIM)] if wide else []
-            cells.append(Text(margin, style=style if word != "holds" else palette.DIM))
+        for glyph, word, style, label, shown, margin in verdict_rows(snap, judge):
+            # the word (holds / near limit / FAILS / unknown) is carried by the label's own wording and the glyph
+            strong = word not in ("holds", "not judged", "unknown")
+            cells = [Text(glyph, style=style), Text(label, style=style if strong else
+                                                    (palette.NORMAL if word == "holds" else palette.DIM))]
+            cells += [Text(shown, style=palette.STALE if judge == "unknown" else palette.DIM)] if wide else []
+            cells.append(Text(margin, style=style if strong else palette.DIM))
             rows.append(cells)
-        if note is not None:
-            rows.append([Text(""), note])
-        return grid_text(rows, max_width=self.size.width or None)
+        table = grid_text(rows, max_width=self.size.width or None, drop=(2,) if wide else ())
+        if note:   # its own line, so it never widens a column and pushes the margins off the edge
+            table.append("\n")
+            table.append_text(Text(note, style=palette.CAUTION if judge == "unknown" else palette.DIM))
+        return table
