@@ -7,7 +7,7 @@ from typing import Union
 
 from monitor.errors import UsageError
 
-__all__ = ["Acknowledge", "Shelve", "Unshelve", "Reset", "OutOfService", "AlarmCommand",
+__all__ = ["command_name", "Acknowledge", "Shelve", "Unshelve", "Reset", "OutOfService", "AlarmCommand",
            "Seek", "Pause", "Resume", "StepReplay", "SetSpeed", "ReplayCommand", "Command", "UnknownAlarm"]
 
 
@@ -89,3 +89,12 @@ class SetSpeed:
 AlarmCommand = Union[Acknowledge, Shelve, Unshelve, Reset, OutOfService]
 ReplayCommand = Union[Seek, Pause, Resume, StepReplay, SetSpeed]
 Command = Union[AlarmCommand, ReplayCommand]
+
+_NAMES = {Acknowledge: "acknowledge", Shelve: "shelve", Unshelve: "unshelve", Reset: "reset",
+          OutOfService: "out of service", Seek: "seek", Pause: "pause", Resume: "resume", StepReplay: "step",
+          SetSpeed: "speed"}
+
+
+def command_name(command: Command) -> str:
+    """The command's name in the operator's words (messages, journals, the relay's requests)."""
+    return _NAMES[type(command)]

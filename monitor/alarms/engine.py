@@ -402,7 +402,8 @@ class AlarmEngine:
                                    quantity=c.quantity, value=c.value, limit=c.limit, since=c.since,
                                    description=c.description, predicted_time=c.predicted_time,
                                    latched=c.latched, shelved_until=c.shelved_until if c.shelved else None,
-                                   trip_value=finite_or_none(c.trip_value), active=c.active)
+                                   trip_value=finite_or_none(c.trip_value), active=c.active,
+                                   awaiting_reset=c.latched and not c.active)
                          for c in self._cores.values())
 
     def state(self, alarm: str) -> AlarmState:

@@ -81,3 +81,4 @@ class AlarmView:
     shelved_until: float | None = None
     trip_value: float | None = None       # the value that raised it (``value`` is the one at the last transition)
     active: bool = False                  # its condition holds now (whatever the operator did with it)
+    awaiting_reset: bool = False          # latched, its condition gone: it waits for the operator's reset

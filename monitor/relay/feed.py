@@ -6,9 +6,10 @@ import threading
 from typing import Any
 
 from monitor.relay.console import RelayConsole
-from monitor.relay.requests import COMMANDS, OperatorClient
+from monitor.relay.requests import OperatorClient
 from monitor.snapshot import Snapshot
 from monitor.tui.feed import EventTap
+from monitor.operator import Acknowledge, Command, Reset, Shelve, Unshelve, command_name
 
 __all__ = ["RelayFeed"]
 
@@ -47,9 +48,10 @@ class RelayFeed:
     def snapshot(self) -> Snapshot | None:
         return self.console.snapshot()
 
-    def act(self, action: str, *args: Any) -> str:
+    def act(self, command: Command) -> str:
         """Send an alarm action to the owner; a short message for the operator (empty when applied)."""
-        if action not in COMMANDS:
+        action = command_name(command)
+        if not isinstance(command, (Acknowledge, Shelve, Unshelve, Reset)):
             return f"{action.replace('_', ' ')}: not available on a relay console (the owner steers the run)"
         if self._token is None:
             return f"{action}: this console is read-only (start it with --operator and a key the owner accepts)"
@@ -61,7 +63,6 @@ class RelayFeed:
                 self._client.close()
             self._client = OperatorClient(requests, token=self._token, name=self._name, context=self._context,
                                           curve=self.console.curve)
-        alarm = args[0] if args else None
-        seconds = args[1] if len(args) > 1 else None
-        reply = self._client.request(action, alarm, seconds, run=self.console.run)
+        seconds = command.seconds if isinstance(command, Shelve) else None
+        reply = self._client.request(action, command.alarm, seconds, run=self.console.run)
         return "" if reply.applied else f"{action}: refused by the owner: {reply.reason}"

@@ -14,6 +14,7 @@ from adapters.batch import Rejection
 from monitor.alarms.events import AlarmEvent, AlarmState
 from monitor.model import Frame
 from monitor.snapshot import AlarmView, Snapshot
+from monitor.operator import Command, command_name
 
 __all__ = ["Feed", "EventTap", "SessionFeed", "FixedFeed", "REPLAY_ACTIONS", "Quality", "SourceView",
            "discharge_state", "value_quality", "data_clock", "source_view", "stale_sources", "trip_value", "awaiting_reset"]
@@ -73,7 +74,7 @@ class Feed(Protocol):
 
     def snapshot(self) -> Snapshot | None: ...
 
-    def act(self, action: str, *args: Any) -> str: ...
+    def act(self, command: Command) -> str: ...
 
 
 class SessionFeed:
@@ -103,21 +104,15 @@ class SessionFeed:
             self.error = f"{type(exc).__name__}: {exc}"
             return None
 
-    def act(self, action: str, *args: Any) -> str:
-        """Call the session's ``action``; a short message for the operator either way."""
-        method = getattr(self.session, action, None)
-        if method is None:
-            return f"{action.replace('_', ' ')}: not available for this source"
-        if action in ("acknowledge", "shelve", "unshelve", "reset"):
-            try:
-                method(*args)
-            except (KeyError, ValueError) as exc:
-                return f"{action}: {exc}"
-            return ""
+    def act(self, command: Command) -> str:
+        """Apply ``command`` to the session; a short message for the operator (empty when it was applied)."""
+        what = command_name(command)
         try:
-            method(*args)
-        except (AttributeError, NotImplementedError, TypeError) as exc:
-            return f"{action.replace('_', ' ')}: not available ({exc})"
+            result = self.session.apply(command)
+        except (KeyError, ValueError) as exc:          # an unknown alarm id (UnknownAlarm), a refused value
+            return f"{what}: {exc}"
+        if result is False:
+            return f"{what}: not available for this source"
         return ""
 
 
@@ -128,7 +123,7 @@ class FixedFeed:
         self._snapshot = snapshot
         self.tap = tap or EventTap()
         self.error: str | None = None
-        self.actions: list[tuple[str, tuple[Any, ...]]] = []
+        self.actions: list[Command] = []
 
     def run(self, stop: threading.Event) -> None:
         stop.wait()
@@ -136,22 +131,12 @@ class FixedFeed:
     def snapshot(self) -> Snapshot | None:
         return self._snapshot
 
-    def act(self, action: str, *args: Any) -> str:
-        self.actions.append((action, args))
+    def act(self, command: Command) -> str:
+        self.actions.append(command)
         return ""
 
 
-# -- what the snapshot does not carry yet ------------------------------------------------------------------
-# The screen needs a few facts the Snapshot/AlarmView contract does not hold yet (listed in
-# /work/notes/screen-DEVELOPERS.md). ``_carried`` is the single place that looks for them; each accessor
-# below uses the field when the session provides it and otherwise works it out from what the snapshot
-# holds today, conservatively (never claiming data are fresh or stale without a reason).
-
-def _carried(obj: object, name: str) -> object | None:
-    """A field the contract may not carry yet (Snapshot.discharge, Snapshot.quality, AlarmView.trip_value,
-    AlarmView.awaiting_reset, Snapshot.source_states), or None."""
-    return getattr(obj, name, None)
-
+# -- the truth of each value, source and alarm, as the screen shows it ----------------------------------------
 
 @dataclass(frozen=True)
 class Quality:
@@ -203,9 +188,9 @@ def source_view(snap: Snapshot, name: str, now: float, stale_after: float) -> So
     ``stale_after`` (live, wall clock) or whose stale alarm is active is ``stale``, never also ``connected``."""
     status = snap.sources.get(name)
     age = _age(snap, name, now)
-    carried = _carried(snap, "source_states")
-    if isinstance(carried, Mapping) and isinstance(carried.get(name), str):
-        state = str(carried[name])
+    carried = snap.source_states.get(name)          # the session's one state, as the headless lines say it
+    if carried is not None:
+        state = carried
     elif status is not None and status.state in (LinkState.DISCONNECTED, LinkState.FAILED, LinkState.ENDED):
         state = status.state.value
     elif _stale_alarm_active(snap, name) or (snap.live and status is not None and status.state != LinkState.CONNECTING
@@ -230,12 +215,6 @@ def stale_sources(snap: Snapshot, now: float, stale_after: float) -> list[Source
 def value_quality(snap: Snapshot, name: str, now: float, stale_after: float) -> Quality:
     """``name``'s quality: no data (absent or NaN), stale (every source that sent data is stale, or the
     session says so) or fresh."""
-    carried = _carried(snap, "quality")
-    if isinstance(carried, Mapping) and name in carried:
-        q = carried[name]
-        if isinstance(q, tuple) and len(q) == 2 and isinstance(q[0], str):
-            age = q[1] if isinstance(q[1], (int, float)) else None
-            return Quality(q[0], None if age is None else max(0.0, float(age)))
     value = snap.latest.get(name, (float("nan"), None))[0]
     if value is None or not math.isfinite(value):
         return Quality("no data")
@@ -250,10 +229,7 @@ def value_quality(snap: Snapshot, name: str, now: float, stale_after: float) -> 
 
 def discharge_state(snap: Snapshot, now: float, stale_after: float) -> str:
     """``on``, ``off`` or ``unknown`` (no fresh density to judge it by)."""
-    carried = _carried(snap, "discharge")
-    if isinstance(carried, str) and carried in ("on", "off", "unknown"):
-        return carried
-    if not value_quality(snap, "ne", now, stale_after).fresh:
+    if not snap.discharge_known or not value_quality(snap, "ne", now, stale_after).fresh:
         return "unknown"
     return "on" if snap.discharge_on else "off"
 
@@ -267,17 +243,13 @@ def data_clock(snap: Snapshot) -> float | None:
 
 
 def trip_value(a: AlarmView) -> tuple[float | None, str]:
-    """(value, what it is): the value that tripped the alarm when the session carries it, else the value
-    at the alarm's last transition (labelled so)."""
-    carried = _carried(a, "trip_value")
-    if isinstance(carried, (int, float)):
-        return float(carried), "tripped at"
+    """(value, what it is): the value that tripped the alarm, else (an alarm never raised, or one without a
+    value: stale, quality) the value at its last transition (labelled so)."""
+    if a.trip_value is not None:
+        return a.trip_value, "tripped at"
     return a.value, "at change"
 
 
 def awaiting_reset(a: AlarmView) -> bool:
     """A latched alarm that has returned and waits for the operator's reset."""
-    carried = _carried(a, "awaiting_reset")
-    if isinstance(carried, bool):
-        return carried
-    return False
+    return a.awaiting_reset

@@ -10,6 +10,7 @@ from monitor.relay.console import RelayConsole
 from monitor.relay.feed import RelayFeed
 from monitor.relay.owner import start_relay
 from monitor.relay.requests import OperatorClient
+from monitor.operator import Acknowledge, Seek
 from tests.relay.relay_helpers import demo_session, until
 
 OPERATORS = {"key-bench": "bench-2"}
@@ -95,8 +96,8 @@ def test_refused_actions_say_why(tmp_path):
         assert r.applied
         # a read-only console's screen refuses before asking
         feed = RelayFeed(console)
-        assert "read-only" in feed.act("acknowledge", "ne_high")
-        assert "not available on a relay console" in feed.act("seek", 3.0)
+        assert "read-only" in feed.act(Acknowledge("ne_high"))
+        assert "not available on a relay console" in feed.act(Seek(3.0))
         lines = [json.loads(x) for x in (tmp_path / "ops.jsonl").read_text().splitlines()]
         assert [x["result"] for x in lines] == ["refused"] * 7 + ["applied"]
         assert lines[0]["by"] is None and lines[1]["by"] == "bench-2"
@@ -149,9 +150,9 @@ def test_the_screen_on_a_relay_sends_an_acknowledgement_to_the_owner(tmp_path):
         async with app.run_test(size=(120, 40)) as pilot:
             for _ in range(200):
                 await pilot.pause(0.02)
-                if app.watch.last is not None and app.watch.last.alarms:
+                if app.watch_screen.last is not None and app.watch_screen.last.alarms:
                     break
-            snap = app.watch.last
+            snap = app.watch_screen.last
             assert snap is not None and snap.latest == session.snapshot().latest
             assert snap.counts[session.name].accepted == 15000
             await pilot.press("A")                      # acknowledge all, sent to the owner

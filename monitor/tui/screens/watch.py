@@ -25,6 +25,7 @@ from monitor.tui.widgets.regime_map import RegimeMapView
 from monitor.tui.widgets.sources import SourcesPanel
 from monitor.tui.widgets.status_strip import StatusStrip
 from monitor.tui.widgets.verdicts import Verdicts
+from monitor.operator import Acknowledge, Command, Pause, Reset, Resume, Seek, SetSpeed, Shelve, StepReplay, Unshelve
 
 __all__ = ["WatchScreen", "SPEEDS"]
 
@@ -146,9 +147,9 @@ class WatchScreen(Screen[None]):
         if message:
             self.notify(message, timeout=4)
 
-    def _act(self, action: str, *args: Any) -> None:
-        """Do ``action`` and show its effect at once from a fresh snapshot (not at the next timer tick)."""
-        self._say(self.feed.act(action, *args))
+    def _act(self, command: Command) -> None:
+        """Apply ``command`` and show its effect at once from a fresh snapshot (not at the next timer tick)."""
+        self._say(self.feed.act(command))
         self.show(self.feed.snapshot(), self.settings.clock(), force=True)
 
     @property
@@ -159,10 +160,10 @@ class WatchScreen(Screen[None]):
         if self.selected is None:
             self._say("no alarm selected")
         else:
-            self._act("acknowledge", self.selected)
+            self._act(Acknowledge(self.selected))
 
     def action_acknowledge_all(self) -> None:
-        self._act("acknowledge", None)
+        self._act(Acknowledge(None))
 
     def action_shelve(self) -> None:
         alarm = self.selected
@@ -172,7 +173,7 @@ class WatchScreen(Screen[None]):
 
         def chosen(seconds: float | None | bool) -> None:
             if seconds is not False:
-                self._act("shelve", alarm, seconds)
+                self._act(Shelve(alarm, seconds))
 
         self.app.push_screen(ShelveDialog(alarm), chosen)
 
@@ -180,13 +181,13 @@ class WatchScreen(Screen[None]):
         if self.selected is None:
             self._say("no alarm selected")
         else:
-            self._act("unshelve", self.selected)
+            self._act(Unshelve(self.selected))
 
     def action_reset(self) -> None:
         if self.selected is None:
             self._say("no alarm selected")
         else:
-            self._act("reset", self.selected)
+            self._act(Reset(self.selected))
 
     def _replay(self) -> Any:
         # a fresh snapshot: two quick keys must not act on a position one frame old
@@ -199,23 +200,23 @@ class WatchScreen(Screen[None]):
     def action_pause(self) -> None:
         r = self._replay()
         if r is not None:
-            self._act("resume" if r.paused else "pause")
+            self._act(Resume() if r.paused else Pause())
 
     def action_step(self) -> None:
         if self._replay() is not None:
-            self._act("step_replay")
+            self._act(StepReplay())
 
     def action_seek(self, direction: int) -> None:
         r = self._replay()
         if r is not None:
             target = r.time + direction * self.settings.seek_step
-            self._act("seek", max(r.start, target if r.end is None else min(r.end, target)))
+            self._act(Seek(max(r.start, target if r.end is None else min(r.end, target))))
 
     def action_speed(self, direction: int) -> None:
         r = self._replay()
         if r is not None:
             i = SPEEDS.index(r.speed) if r.speed in SPEEDS else 2
-            self._act("set_speed", SPEEDS[max(0, min(len(SPEEDS) - 1, i + direction))])
+            self._act(SetSpeed(SPEEDS[max(0, min(len(SPEEDS) - 1, i + direction))]))
 
     def action_units(self) -> None:
         self.units = "SI" if self.units == "practical" else "practical"
