@@ -9,13 +9,14 @@ import time
 from typing import Any
 
 from monitor.commands.flags import add_output_flags, add_view_flags, check_view_flags, relay_options
-from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE
+from monitor.errors import EXIT_OK, EXIT_SOURCE, EXIT_USAGE, UsageError
 
 __all__ = ["register", "run"]
 
 
 def register(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", metavar="FILE", help="a recording (CSV with # metadata) or any CSV with a header row")
+    parser.add_argument("file", metavar="FILE", nargs="+",
+                        help="a recording (CSV with # metadata) or any CSV with a header row (one file)")
     parser.add_argument("--config", metavar="F", help="TOML config (envelope, device, channels); default: the "
                                                       "config embedded in the recording, else the defaults")
     parser.add_argument("--speed", metavar="X|max", default=None,
@@ -66,6 +67,10 @@ def run(args: argparse.Namespace) -> int:
     from monitor.recording.replaying import open_file, parse_speed, parse_window_time, window_text
 
     check_view_flags(args)
+    if len(args.file) > 1:
+        raise UsageError(f"replay takes one file, got {len(args.file)}; for many shots: regime archive DIR "
+                         "(a catalogue of every recording in a folder), or a shell loop over the files")
+    args.file = args.file[0]
     speed = parse_speed(args.speed) if args.speed is not None else (None if args.headless else 1.0)
     start = None if args.start is None else parse_window_time(args.start, "--from")
     stop = None if args.stop is None else parse_window_time(args.stop, "--to")

@@ -382,3 +382,11 @@ def test_recorder_status_in_the_lines_accounts_for_every_reading(tmp_path: Path)
     assert f"recorded {rec['rows_written']:,} (outside shots: {rec['outside_shots_not_recorded']:,} not recorded)" \
         in last_status
     assert f"  recorder: shots 1, readings written {rec['rows_written']:,}" in human.stdout
+
+
+def test_replay_of_several_files_says_so_in_one_line() -> None:
+    out = regime("replay", "replay_data/argon_rf_excursion.csv", "replay_data/helium_microwave_cutoff.csv",
+                 "--headless")
+    assert out.returncode == 2
+    lines = out.stderr.strip().splitlines()
+    assert len(lines) == 1 and "replay takes one file" in lines[0] and "regime archive" in lines[0]
