@@ -81,6 +81,7 @@ def execute(plan: RunPlan) -> int:
             printer.summary(summary)
     else:
         print(human_summary(summary))
+    _say_why_nothing(summary, plan.command)
     code = failed_run(session, final, plan.command)
     if code is not None:
         return code
@@ -100,6 +101,16 @@ def _start_relay(session: Session, relay: RelayOptions) -> None:
     except BaseException:
         session.close()
         raise
+
+
+def _say_why_nothing(summary: dict[str, Any], command: str) -> None:
+    """A run that accepted nothing from an input that sent something says why, on stderr."""
+    refused, lost = int(summary.get("rejected_total", 0)), int(summary.get("lost", 0))
+    if summary.get("accepted", 0) or not (refused or lost):
+        return
+    reasons = sorted(summary.get("rejected", {}).items(), key=lambda kv: -kv[1])
+    most = f", most as {reasons[0][0]} ({reasons[0][1]:,})" if reasons else ""
+    print(f"{command}: no reading was accepted: {refused:,} refused{most}, {lost:,} lost", file=sys.stderr)
 
 
 def _printer(session: Session) -> HeadlessPrinter | None:

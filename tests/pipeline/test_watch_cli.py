@@ -390,3 +390,13 @@ def test_replay_of_several_files_says_so_in_one_line() -> None:
     assert out.returncode == 2
     lines = out.stderr.strip().splitlines()
     assert len(lines) == 1 and "replay takes one file" in lines[0] and "regime archive" in lines[0]
+
+
+def test_a_run_that_accepted_nothing_says_why(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.csv"
+    bad.write_text("t,ne,Te\n0,-1,3\n1,-2,3\n")
+    out = regime("replay", str(bad), "--headless", "--quiet")
+    assert out.returncode == 0
+    assert "no reading was accepted: 2 refused, most as ne_not_positive (2)" in out.stderr
+    good = regime("replay", "replay_data/argon_rf_excursion.csv", "--headless", "--quiet")
+    assert "no reading was accepted" not in good.stderr
