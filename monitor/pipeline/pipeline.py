@@ -50,8 +50,8 @@ class Processed:
     def frame(self) -> Frame:
         """The parts joined into one frame (for callers that do not keep time restarts apart)."""
         frame = self.parts[0].frame
-        for more in self.parts[1:]:
-            frame = _concat(frame, more.frame)
+        for later in self.parts[1:]:
+            frame = _concat(frame, later.frame)
         return frame
 
 _AUXILIARY = frozenset({"Ti", "B", "p0"})
