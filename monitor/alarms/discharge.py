@@ -52,6 +52,11 @@ class DischargeDetector:
         if len(tt) == 0:
             return on
         off_below = self.on_above * (1.0 - self.deadband)
+        if self._run.active and not (nn < off_below).any():
+            # on, and nothing in the frame could turn it off: what ``toggles`` would find, without its work
+            self._run.run_start = None
+            self._on = True
+            return on
         with np.errstate(invalid="ignore"):
             for i, flag in toggles(tt, nn >= self.on_above, lambda: nn < off_below, self.delay, self.delay,
                                    self._run):

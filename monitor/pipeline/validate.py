@@ -92,6 +92,10 @@ def _plausible(s: np.ndarray, start: int) -> tuple[np.ndarray, np.ndarray]:
     and whether its own seq is an implausible jump from there (forward by more than SEQ_JUMP, or
     back by more than RESTART_GAP to anything but 0). A few passes: a refused jump must not become
     the reference of the readings after it."""
+    lo, hi = int(s.min()), int(s.max())
+    if hi - start <= SEQ_JUMP and max(start, hi) - lo <= RESTART_GAP:
+        # the usual batch: no seq can be a jump from anything before it (one pass, no jump)
+        return _before(s, start), np.zeros(len(s), dtype=bool)
     floor = np.iinfo(np.int64).min
     jump = np.zeros(len(s), dtype=bool)
     before = _before(s, start)
@@ -120,7 +124,15 @@ def find_restart(seq: np.ndarray | None, state: SeqTimeState) -> int | None:
     if seq is None or len(seq) == 0 or state.last_seq is None:
         return None
     s = seq.astype(np.int64, copy=False)
-    before, jump = _plausible(s, state.last_seq)
+    last = state.last_seq
+    if state.pending is None:
+        lo, hi = int(s.min()), int(s.max())
+        if lo > 0 and hi - last <= SEQ_JUMP and max(last, hi) - lo <= RESTART_GAP:
+            return None                 # the usual batch: nothing in it can start a new numbering
+    before, jump = _plausible(s, last)
+    if state.pending is None and not jump.any():
+        hit0 = (s < before) & (s == 0)
+        return int(np.argmax(hit0)) if hit0.any() else None
     runs = _run_lengths(s)
     if state.pending is not None and int(s[0]) == state.pending[0] + 1:
         runs = runs.copy()
@@ -200,29 +212,31 @@ def validate(t: np.ndarray, values: Mapping[str, np.ndarray], seq: np.ndarray | 
         # a refused implausible reading whose seq is one bit away from one of the next expected ones is
         # that reading, garbled: it stands for one missing position of the gap it sits in (received, so
         # not lost); any other implausible reading is an extra one and fills nothing
-        garbled = np.zeros(n, dtype=bool)
-        if jump.any():
-            for m in range(1, _NEAR + 1):
-                flipped = s ^ (before + m)
-                garbled |= (flipped > 0) & ((flipped & (flipped - 1)) == 0)
-            garbled &= jump
-        taken = np.cumsum(garbled)[fresh]
-        between = np.diff(np.concatenate(([0], taken)))
-        if len(between):
-            between[0] += state.floating
-            state.floating = int(garbled.sum() - taken[-1])
-        else:
-            state.floating += int(garbled.sum())
-        gaps = gaps - np.minimum(gaps, between)
+        any_jump = bool(jump.any())
+        if any_jump or state.floating:
+            garbled = np.zeros(n, dtype=bool)
+            if any_jump:
+                for m in range(1, _NEAR + 1):
+                    flipped = s ^ (before + m)
+                    garbled |= (flipped > 0) & ((flipped & (flipped - 1)) == 0)
+                garbled &= jump
+            taken = np.cumsum(garbled)[fresh]
+            between = np.diff(np.concatenate(([0], taken)))
+            if len(between):
+                between[0] += state.floating
+                state.floating = int(garbled.sum() - taken[-1])
+            else:
+                state.floating += int(garbled.sum())
+            gaps = gaps - np.minimum(gaps, between)
         lost = int(gaps.sum())
         if lost:
             where = gaps > 0
             gap_lo, gap_hi = before[fresh][where], s[fresh][where]
-        plausible = s[~jump]
+        plausible = s[~jump] if any_jump else s
         state.last_seq = int(max(int(plausible.max()), start)) if len(plausible) else start
         # an implausible run reaching the end of the batch waits for the next one to confirm it
         previous, state.pending = state.pending, None
-        if jump[-1]:
+        if any_jump and jump[-1]:
             breaks = np.flatnonzero(np.diff(s) != 1)
             run_start = int(breaks[-1]) + 1 if len(breaks) else 0
             length = n - run_start
