@@ -16,7 +16,8 @@ from monitor.archive.columns import COLUMN_NAMES, PRIORITY_RANK, STAT_QUANTITIES
 from monitor.criteria import CRITERIA
 from monitor.model import Frame
 from monitor.quantities import ALL, BASE, DERIVED
-from monitor.report.build import Collector, Report, _read_jsonl, _run, _verdicts, engine_for
+from monitor.report.build import (Collector, Report, _run, _verdicts, alarms_of, damage_of, engine_for,
+                                  rejections_of)
 from monitor.report.summary import LimitSummary, limit_summary, quantity_stats, sample_durations
 from monitor.recording.replaying import open_file, sibling
 
@@ -118,27 +119,9 @@ def shot_report(path: str | Path, config_path: str | None = None) -> ShotFacts:
                    for spec in config.limits)
     units = {q.name: q.unit for q in ALL.values()}
     stats = tuple(quantity_stats(values, units, [q.name for q in BASE + DERIVED], collector.read_values()))
-    journal = sibling(path, ".alarms.jsonl")
-    if config_path is None and journal.is_file():
-        alarms = tuple(_read_jsonl(journal, "alarm"))
-        alarm_origin = f"journal {journal.name}"
-    elif engine is not None:
-        alarms = tuple(e.to_json() for e in collector.events)
-        alarm_origin = "alarm engine run over the file"
-    else:
-        alarms, alarm_origin = (), "no limits configured"
-    rejected: dict[str, int] = {}
-    for rej in _read_jsonl(sibling(path, ".rejects.jsonl"), "rejection"):
-        reason = str(rej.get("reason", "?"))
-        rejected[reason] = rejected.get(reason, 0) + 1
-    live_rejected = sum(rejected.values())
-    for reason, n in dict(summary.get("rejected", {}) or {}).items():
-        rejected[reason] = rejected.get(reason, 0) + int(n)
-    lost = max(0, int(summary.get("lost", 0) or 0) - live_rejected)
-    damage = None
-    if opened.source.damage is not None:
-        line, why = opened.source.damage
-        damage = f"line {line}: {why}"
+    alarms, alarm_origin = alarms_of(path, collector, engine, use_journal=config_path is None)
+    rejected, lost = rejections_of(path, summary)
+    damage = damage_of(opened.source.damage)
     samples_by = {q.name: collector.readings[q.name] for q in BASE if q.name in collector.readings}
     report = Report(
         file=str(path), shot=info.shot, source=info.source or opened.source.name, start=info.start,

@@ -280,6 +280,36 @@ def _decimate(t: np.ndarray, values: Mapping[str, np.ndarray], names: list[str])
     return out
 
 
+def alarms_of(path: str | Path, collector: Collector, engine: Any, *, use_journal: bool) -> tuple[tuple[dict[str, Any], ...], str]:
+    """A shot's alarm events and where they came from: the journal recorded beside it (``use_journal``, when
+    there is one), else the alarm engine run over the file, else none."""
+    journal = sibling(path, ".alarms.jsonl")
+    if use_journal and journal.is_file():
+        return tuple(_read_jsonl(journal, "alarm")), f"journal {journal.name}"
+    if engine is not None:
+        return tuple(e.to_json() for e in collector.events), "alarm engine run over the file"
+    return (), "no limits configured"
+
+
+def rejections_of(path: str | Path, summary: Mapping[str, Any]) -> tuple[dict[str, int], int]:
+    """A shot's rejected readings by reason (those refused live, from the rejects side file, and those the
+    replay refused) and its lost readings (readings refused live are in the side file and leave seq gaps in
+    the CSV: not lost twice)."""
+    rejected: dict[str, int] = {}
+    for rej in _read_jsonl(sibling(path, ".rejects.jsonl"), "rejection"):
+        reason = str(rej.get("reason", "?"))
+        rejected[reason] = rejected.get(reason, 0) + 1
+    live_rejected = sum(rejected.values())
+    for reason, n in dict(summary.get("rejected", {}) or {}).items():
+        rejected[reason] = rejected.get(reason, 0) + int(n)
+    return rejected, max(0, int(summary.get("lost", 0) or 0) - live_rejected)
+
+
+def damage_of(damage: tuple[int, str] | None) -> str | None:
+    """A replay source's damage (line, why) in words."""
+    return None if damage is None else f"line {damage[0]}: {damage[1]}"
+
+
 def build_report(path: str | Path, *, config_path: str | None = None, map_path: str | None = None,
                  use_journal: bool = True) -> Report:
     """Replay ``path`` through the same pipeline and alarm engine as live, then summarise it."""
@@ -298,28 +328,9 @@ def build_report(path: str | Path, *, config_path: str | None = None, map_path: 
     units = {q.name: q.unit for q in ALL.values()}
     order = [q.name for q in BASE + DERIVED]
     stats = tuple(quantity_stats(values, units, order, collector.read_values()))
-    journal = sibling(path, ".alarms.jsonl")
-    if use_journal and config_path is None and journal.is_file():
-        alarms = tuple(_read_jsonl(journal, "alarm"))
-        alarm_origin = f"journal {journal.name}"
-    elif engine is not None:
-        alarms = tuple(e.to_json() for e in collector.events)
-        alarm_origin = "alarm engine run over the file"
-    else:
-        alarms, alarm_origin = (), "no limits configured"
-    rejected: dict[str, int] = {}
-    for rej in _read_jsonl(sibling(path, ".rejects.jsonl"), "rejection"):
-        reason = str(rej.get("reason", "?"))
-        rejected[reason] = rejected.get(reason, 0) + 1
-    live_rejected = sum(rejected.values())
-    for reason, n in dict(summary.get("rejected", {}) or {}).items():
-        rejected[reason] = rejected.get(reason, 0) + int(n)
-    # readings refused live are in the side file and leave seq gaps in the CSV: not lost twice
-    lost = max(0, int(summary.get("lost", 0) or 0) - live_rejected)
-    damage = None
-    if opened.source.damage is not None:
-        line, why = opened.source.damage
-        damage = f"line {line}: {why}"
+    alarms, alarm_origin = alarms_of(path, collector, engine, use_journal=use_journal and config_path is None)
+    rejected, lost = rejections_of(path, summary)
+    damage = damage_of(opened.source.damage)
     limited = sorted({spec.quantity for spec in getattr(config, "limits", ())})
     traces = _decimate(t, values, ["ne", "Te", "debye_length", "debye_number", *limited])
     samples_by = {q.name: collector.readings[q.name] for q in BASE if q.name in collector.readings}
