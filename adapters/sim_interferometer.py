@@ -32,6 +32,7 @@ import numpy as np
 
 from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch
+from adapters.simulated import next_sample
 
 __all__ = ["InterferometerScenario", "SCENARIO", "density_at", "phase_of_density", "generate_samples", "generate",
            "InterferometerSimSource"]
@@ -181,16 +182,10 @@ class InterferometerSimSource:
         if self._state is not LinkState.CONNECTED:
             return Polled(status=self.status())
         end = self._total if self._total is not None else 2**62
-        if self.speed is None:
-            k1 = min(self._k + self._chunk, end)
-        else:
-            due = int((time.monotonic() - self._wall0) * self.speed * self.rate)
-            if due <= self._k:
-                wait = (self._k + 1) / (self.rate * self.speed) - (time.monotonic() - self._wall0)
-                if self._closed.wait(max(0.0, min(timeout, wait))):
-                    return Polled(status=self.status())
-                due = int((time.monotonic() - self._wall0) * self.speed * self.rate)
-            k1 = min(due, end, self._k + max(self._chunk, int(self.rate)))
+        k1 = next_sample(self._k, end, rate=self.rate, speed=self.speed, wall0=self._wall0, chunk=self._chunk,
+                         closed=self._closed, timeout=timeout)
+        if k1 is None:
+            return Polled(status=self.status())
         batches: list[Batch] = []
         if k1 > self._k:
             b = generate_samples(self.seed, self.rate, self._k, k1, loop=self.loop, source=self.name)

@@ -28,7 +28,8 @@ from adapters.base import FatalSourceError, LinkState, Polled, SourceStatus
 from adapters.batch import Batch
 from adapters.scenarios import B, CHANNEL_RATES, P0, SCENARIOS, TE_GARBAGE, Scenario
 
-__all__ = ["SCENARIOS", "generate", "generate_samples", "SimSource", "scenario_length", "MAX_RATE", "MAX_CHUNK"]
+__all__ = ["SCENARIOS", "generate", "generate_samples", "SimSource", "scenario_length", "MAX_RATE", "MAX_CHUNK",
+           "next_sample"]
 
 MAX_RATE = 1e7          # samples per second: the ceiling of a simulated source (one core makes ~1e7/s at best)
 MAX_CHUNK = 262_144     # samples in one batch, whatever the rate (bounds the memory of one poll)
@@ -37,6 +38,22 @@ _CHANNEL_ID = {"ne": 1, "Te": 2, "p0": 3, "B": 4}
 
 
 @lru_cache(maxsize=64)
+def next_sample(k: int, end: int, *, rate: float, speed: float | None, wall0: float, chunk: int,
+                closed: threading.Event, timeout: float) -> int | None:
+    """Where a simulated stream's next batch ends (samples [k, result) are due now): as fast as possible
+    ``chunk`` at a time with ``speed`` None, else paced to the wall clock since ``wall0`` (waiting at most
+    ``timeout`` for the next sample), a catch-up bounded by MAX_CHUNK; None when ``closed`` was set."""
+    if speed is None:
+        return min(k + chunk, end)
+    due = int((time.monotonic() - wall0) * speed * rate)
+    if due <= k:
+        wait = (k + 1) / (rate * speed) - (time.monotonic() - wall0)
+        if closed.wait(max(0.0, min(timeout, wait))):
+            return None
+        due = int((time.monotonic() - wall0) * speed * rate)
+    return min(due, end, k + min(max(chunk, int(rate)), MAX_CHUNK))
+
+
 def _block(seed: int, channel: int, block: int) -> np.ndarray:
     z = np.random.default_rng([seed, channel, block]).standard_normal(_BLOCK)
     z.setflags(write=False)
@@ -189,16 +206,10 @@ class SimSource:
         if self._state is not LinkState.CONNECTED:
             return Polled(status=self.status())
         end = self._total if self._total is not None else 2**62
-        if self.speed is None:
-            k1 = min(self._k + self._chunk, end)
-        else:
-            due = int((time.monotonic() - self._wall0) * self.speed * self.rate)
-            if due <= self._k:
-                wait = (self._k + 1) / (self.rate * self.speed) - (time.monotonic() - self._wall0)
-                if self._closed.wait(max(0.0, min(timeout, wait))):
-                    return Polled(status=self.status())
-                due = int((time.monotonic() - self._wall0) * self.speed * self.rate)
-            k1 = min(due, end, self._k + min(max(self._chunk, int(self.rate)), MAX_CHUNK))   # bounded catch-up
+        k1 = next_sample(self._k, end, rate=self.rate, speed=self.speed, wall0=self._wall0, chunk=self._chunk,
+                         closed=self._closed, timeout=timeout)
+        if k1 is None:
+            return Polled(status=self.status())
         batches: list[Batch] = []
         if k1 > self._k:
             b = generate_samples(self.scenario, self.seed, self.rate, self._k, k1, loop=self.loop, source=self.name)
