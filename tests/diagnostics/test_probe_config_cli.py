@@ -31,6 +31,7 @@ def test_probe_table_with_units_and_device_ion(tmp_path: Path) -> None:
                                          'geometry = "cylinder"\nradius = "0.1mm"\nlength = "5mm"\n'
                                          "current_sign = -1\n")))
     assert spec.radius == pytest.approx(1e-4) and spec.length == pytest.approx(5e-3)
+    # a cylinder collects on its side, 2 pi r l, the end face neglected (common practice for probe tips)
     assert spec.collecting_area == pytest.approx(2 * math.pi * 1e-4 * 5e-3)
     assert spec.ion_mass_u == pytest.approx(4.0026) and spec.current_sign == -1.0
     plane = probe_spec(load_config(_write(tmp_path, '[probe]\ngeometry = "plane"\narea = "2cm^2"\n')))

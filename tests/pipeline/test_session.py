@@ -4,6 +4,9 @@ Every number compared here is the test's own input (counts, times, a constant de
 physical value is checked in this module.
 """
 
+# No outside reference in this file: every number compared is this test's own input (readings it sends,
+# limits it sets); the units are the project's canonical ones (common practice: SI, temperatures in eV).
+
 from __future__ import annotations
 
 import threading
