@@ -25,7 +25,7 @@ from monitor.snapshot import SourceCounts, Stats
 if TYPE_CHECKING:
     from monitor.physics.derive import Derived
 
-__all__ = ["Pipeline", "Part", "Processed", "Restart"]
+__all__ = ["Pipeline", "Part", "Processed", "Restart", "MAX_ROWS"]
 
 # why time started over at the beginning of a part: the source's clock went back, or its
 # publisher restarted its numbering (a seek back is the session's, see Session.restart)
@@ -55,6 +55,7 @@ class Processed:
         return frame
 
 _AUXILIARY = frozenset({"Ti", "B", "p0"})
+MAX_ROWS = 65_536        # readings processed at a time (a larger batch is cut into slices of this size)
 
 
 def _default_derive() -> Callable[[Mapping[str, np.ndarray], Device, Mapping[str, np.ndarray] | None], Derived]:
@@ -150,7 +151,11 @@ class Pipeline:
         tally = Tally()
         parts: list[Part] = []
         refused: list[Rejection] = []
-        self._process(batch, tally, parts, refused, None)
+        # a large batch (a receiver catching up) is processed in slices: the derivation's temporaries stay
+        # bounded (about 70 arrays of at most MAX_ROWS values) and the result does not depend on the cut
+        for a in range(0, max(len(batch), 1), MAX_ROWS):
+            self._process(batch if len(batch) <= MAX_ROWS else _slice(batch, a, a + MAX_ROWS),
+                          tally, parts, refused, None)
         led = self.ledger.of(batch.source)
         led.last_wall_time = self._wall()
         led.commit(tally)
