@@ -54,7 +54,11 @@ Electron density across, electron temperature up, both in decades; units follow 
 ◇   the last point, hollow and dim: its readings are stale.
 ◀▶▲▼ on an edge: data beyond the view. The view holds the envelope and the
     2nd-98th percentile of recent readings (at most a decade past the envelope),
-    so a few outliers never rescale it."""
+    so a few outliers never rescale it.
+
+In the derived table, "(!)" after a ± marks an uncertainty that first-order propagation
+does not give well here (the inputs' relative sigmas are too large for that quantity's
+curvature): `regime calc --mc N` and the report give its 16th-84th percentile interval."""
 
 
 def key_rows(groups: list[tuple[str, list[Binding]]]) -> list[tuple[str, str, str]]:

@@ -56,6 +56,8 @@ class DerivedTable(SnapshotView):
             for q in rows:
                 value, sigma = snap.latest[q.name]
                 number, unc, unit = fmt_value(value, sigma, q.unit, self.units)
+                if unc and f"nonlinear_sigma:{q.name}" in snap.warnings:
+                    unc += " (!)"       # its linear sigma does not hold here (see help and `regime calc --mc`)
                 label = _label(q, wide=wide, practical=self.units == "practical")
                 lines.append([Text(f"  {label}", style=palette.LABEL), Text(number, style=value_style),
                              Text(unc, style=palette.STALE if stale else palette.DIM), Text(unit, style=palette.DIM)])
@@ -72,7 +74,8 @@ class DerivedTable(SnapshotView):
         if snapshot is None:
             return None
         stale = any(feed.value_quality(snapshot, k, self.now, self.stale_after).stale for k in ("ne", "Te"))
-        return (tuple(sorted(snapshot.latest)), stale)
+        return (tuple(sorted(snapshot.latest)), stale,
+                tuple(sorted(w for w in snapshot.warnings if w.startswith("nonlinear_sigma:"))))
 
 
 def _label(q: Quantity, *, wide: bool, practical: bool) -> str:
