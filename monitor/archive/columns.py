@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from monitor.criteria import CRITERIA
 from monitor.quantities import ALL
 
-__all__ = ["Column", "COLUMNS", "COLUMN_NAMES", "STAT_QUANTITIES", "READINGS", "PRIORITY_RANK", "column"]
+__all__ = ["Column", "COLUMNS", "COLUMN_NAMES", "STAT_QUANTITIES", "READINGS", "PRIORITY_RANK", "column", "cell_text"]
 
 
 @dataclass(frozen=True)
@@ -74,3 +75,12 @@ _BY_NAME = {c.name: c for c in COLUMNS}
 def column(name: str) -> Column | None:
     """The column called ``name`` (exact), or None: the whitelist the query language resolves against."""
     return _BY_NAME.get(name)
+
+
+def cell_text(value: object) -> str:
+    """A catalogue value as a table shows it: "-" for none or NaN, 4 significant digits for a float."""
+    if value is None:
+        return "-"
+    if isinstance(value, float):
+        return "-" if math.isnan(value) else f"{value:.4g}"
+    return str(value)

@@ -4,12 +4,12 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import os
 import sys
 from typing import Mapping, Sequence
 
 from monitor.errors import EXIT_OK, UsageError
+from monitor.archive.columns import cell_text
 
 __all__ = ["register", "run", "parse_sort", "TABLE_COLUMNS"]
 
@@ -80,16 +80,10 @@ def _check_config(path: str) -> None:
     parse_config(raw, path)
 
 
-def _fmt(value: object) -> str:
-    if value is None:
-        return "-"
-    if isinstance(value, float):
-        return "-" if math.isnan(value) else f"{value:.4g}"
-    return str(value)
 
 
 def _print_table(rows: Sequence[Mapping[str, object]], columns: Sequence[str]) -> None:
-    cells = [[_fmt(r.get(c)) for c in columns] for r in rows]
+    cells = [[cell_text(r.get(c)) for c in columns] for r in rows]
     widths = [max([len(c)] + [len(row[i]) for row in cells]) for i, c in enumerate(columns)]
     print("  ".join(c.ljust(w) for c, w in zip(columns, widths)))
     for row in cells:

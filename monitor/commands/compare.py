@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
 
 from monitor.errors import EXIT_OK, UsageError
+from monitor.archive.columns import cell_text
 
 __all__ = ["register", "run"]
 
@@ -22,12 +22,6 @@ def register(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="one JSON object with the table of differences")
 
 
-def _fmt(v: object) -> str:
-    if v is None:
-        return "-"
-    if isinstance(v, float):
-        return "-" if math.isnan(v) else f"{v:.4g}"
-    return str(v)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -55,7 +49,7 @@ def run(args: argparse.Namespace) -> int:
     for entry in table:
         values = entry["values"]
         assert isinstance(values, list)
-        cells = [_fmt(v) for v in values]
+        cells = [cell_text(v) for v in values]
         change = entry.get("change")
         if isinstance(change, list):
             cells = [c if i == 0 or d is None else f"{c} ({'+' if d >= 0 else ''}{d:.3g})"

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
@@ -12,6 +11,7 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
 from textual.screen import ModalScreen, Screen
 from textual.widgets import DataTable, Footer, Input, Static
+from monitor.archive.columns import cell_text
 
 __all__ = ["ArchiveBrowser", "TextScreen", "Query", "SHOWN"]
 
@@ -22,12 +22,6 @@ SHOWN = ("shot", "file", "started", "status", "duration", "envelope_fraction", "
          "ne_median", "Te_median")
 
 
-def _cell(value: object) -> str:
-    if value is None:
-        return "-"
-    if isinstance(value, float):
-        return "-" if math.isnan(value) else f"{value:.4g}"
-    return str(value)
 
 
 class TextScreen(ModalScreen[None]):
@@ -108,7 +102,7 @@ class ArchiveBrowser(Screen[None]):
         for r in rows:
             file = str(r.get("file"))
             mark = "● " if file in self.marked else ""
-            table.add_row(*[mark + _cell(r.get(c)) if c == "shot" else _cell(r.get(c)) for c in SHOWN], key=file)
+            table.add_row(*[mark + cell_text(r.get(c)) if c == "shot" else cell_text(r.get(c)) for c in SHOWN], key=file)
         order = ", ".join(f"{c} {'desc' if d else 'asc'}" for c, d in self._sort) or "file"
         self.say(f"{len(rows)} shots" + (f" where {self._where}" if self._where else "") + f"; sorted by {order}")
         self._show_detail()
@@ -125,7 +119,7 @@ class ArchiveBrowser(Screen[None]):
 
     def _show_detail(self) -> None:
         row = self.selected()
-        text = "" if row is None else "\n".join(f"{k}: {_cell(v)}" for k, v in row.items()
+        text = "" if row is None else "\n".join(f"{k}: {cell_text(v)}" for k, v in row.items()
                                                  if v is not None and v != "")
         self.query_one("#detail-text", Static).update(text)
 
@@ -169,7 +163,7 @@ class ArchiveBrowser(Screen[None]):
             self.marked.append(file)
         table = self.query_one("#shots", DataTable)
         cursor = table.cursor_row
-        table.update_cell(file, "shot", ("● " if file in self.marked else "") + _cell(row.get("shot")))
+        table.update_cell(file, "shot", ("● " if file in self.marked else "") + cell_text(row.get("shot")))
         table.move_cursor(row=min(cursor + 1, len(self.rows) - 1))
         self.say(f"{len(self.marked)} marked for comparison (c compares them)")
 
