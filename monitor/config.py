@@ -18,7 +18,7 @@ if TYPE_CHECKING:
     from monitor.alarms.envelope import AlarmOptions, LimitSpec
     from monitor.recording_options import RecordingOptions
 
-__all__ = ["Config", "load_config", "parse_config", "PipelineOptions"]
+__all__ = ["Config", "load_config", "parse_config", "PipelineOptions", "config_quantity"]
 
 _TABLES = ("device", "discharge", "sources", "channels", "limit", "alarms", "recording", "pipeline",
            "interferometer", "probe")
@@ -177,7 +177,7 @@ def _number(table: Mapping[str, Any], key: str, dimension: str, default: float |
             path: str | Path | None, where: str, *, positive: bool = False) -> Any:
     if key not in table:
         return default
-    value = _value(table[key], dimension, path, f"{where}.{key}")
+    value = config_quantity(table[key], dimension, path, f"{where}.{key}")
     if positive and not value > 0:
         raise ConfigError(path, f"{where}.{key}", f"must be positive, got {table[key]!r}")
     high = _TIME_MAX if dimension == "time" else 1e33 if dimension == "density" else math.inf
@@ -187,7 +187,10 @@ def _number(table: Mapping[str, Any], key: str, dimension: str, default: float |
     return value
 
 
-def _value(raw: Any, dimension: str, path: str | Path | None, key: str) -> float:
+def config_quantity(raw: Any, dimension: str, path: str | Path | None, key: str) -> float:
+    """One value of a TOML table in canonical units (a number, or a string with a unit); ConfigError naming
+    the file and ``key`` when it is not a finite quantity or carries an uncertainty. Every table's parser
+    (the diagnostics' too) reads its quantities through this."""
     if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
         raise ConfigError(path, key, f"expected a number or a string with a unit, got {raw!r}")
     try:
@@ -219,7 +222,7 @@ def _parse_device(table: Mapping[str, Any], path: str | Path | None) -> Device:
     kwargs: dict[str, float] = {}
     for key, (attr, dimension) in _DEVICE_KEYS.items():
         if key in table:
-            value = _value(table[key], dimension, path, f"device.{key}")
+            value = config_quantity(table[key], dimension, path, f"device.{key}")
             # the one table of physical ranges, as `regime calc` checks its inputs
             problem = check_value(DEVICE_FIELDS[attr], value)
             if problem:

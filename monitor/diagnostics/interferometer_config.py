@@ -11,7 +11,8 @@ from typing import Any, Mapping
 from monitor.diagnostics.interferometer import EXACT_ABOVE
 from monitor.errors import ConfigError, UsageError
 from monitor.physics.constants import SPEED_OF_LIGHT
-from monitor.units import UnitError, parse_value
+from monitor.units import UnitError
+from monitor.config import config_quantity
 
 __all__ = ["InterferometerConfig", "parse_interferometer", "interferometer_config", "parse_angle", "KEYS"]
 
@@ -163,17 +164,9 @@ def parse_interferometer(table: Mapping[str, Any], path: str | Path | None = Non
 
 
 def _positive(table: Mapping[str, Any], key: str, dimension: str, path: str | Path | None) -> float:
-    raw = table[key]
-    if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-        raise ConfigError(path, f"interferometer.{key}", f"expected a number or a string with a unit, got {raw!r}")
-    try:
-        value, sigma = parse_value(raw, dimension)
-    except UnitError as exc:
-        raise ConfigError(path, f"interferometer.{key}", str(exc)) from None
-    if sigma is not None:
-        raise ConfigError(path, f"interferometer.{key}", "takes no uncertainty here")
-    if not (math.isfinite(value) and value > 0):
-        raise ConfigError(path, f"interferometer.{key}", f"must be positive and finite, got {raw!r}")
+    value = config_quantity(table[key], dimension, path, f"interferometer.{key}")
+    if not value > 0:
+        raise ConfigError(path, f"interferometer.{key}", f"must be positive and finite, got {table[key]!r}")
     return value
 
 

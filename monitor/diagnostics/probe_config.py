@@ -9,7 +9,7 @@ from typing import Any, Mapping
 from monitor.config import Config
 from monitor.diagnostics.probe_spec import GEOMETRIES, KINDS, ProbeSpec
 from monitor.errors import ConfigError
-from monitor.units import UnitError, parse_value
+from monitor.config import config_quantity
 
 __all__ = ["probe_spec", "parse_probe", "PROBE_KEYS"]
 
@@ -19,17 +19,9 @@ PROBE_KEYS = ("kind", "geometry", "radius", "length", "area", "current_sign", "s
 def _size(table: Mapping[str, Any], key: str, dimension: str, path: str | Path | None) -> float | None:
     if key not in table:
         return None
-    raw = table[key]
-    if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-        raise ConfigError(path, f"probe.{key}", f"expected a number or a string with a unit, got {raw!r}")
-    try:
-        value, sigma = parse_value(raw, dimension)
-    except UnitError as exc:
-        raise ConfigError(path, f"probe.{key}", str(exc)) from None
-    if sigma is not None:
-        raise ConfigError(path, f"probe.{key}", "takes no uncertainty here")
-    if not (math.isfinite(value) and value > 0):
-        raise ConfigError(path, f"probe.{key}", f"must be finite and > 0, got {raw!r}")
+    value = config_quantity(table[key], dimension, path, f"probe.{key}")
+    if not value > 0:
+        raise ConfigError(path, f"probe.{key}", f"must be finite and > 0, got {table[key]!r}")
     return value
 
 
